@@ -1,0 +1,1 @@
+//! Climate stage: climate velocity, trajectories and refugia per scenario (see issue 3).

@@ -1,0 +1,135 @@
+//! Coordinate transforms between WGS84 lon/lat and the grid's projected CRS, through PROJ.
+
+use super::{Crs, GridError};
+use geo::{Coord, LineString, MultiPolygon, Polygon};
+
+/// WGS84 longitude/latitude in that axis order (RFC 7946 order). `OGC:CRS84` is EPSG:4326
+/// with lon/lat axis order, so no axis swapping is needed on input or output.
+pub const LONLAT: &str = "OGC:CRS84";
+
+impl Crs {
+    /// Lambert azimuthal equal-area on WGS84 centred at `(lon0, lat0)`: equal-area everywhere,
+    /// with little shape distortion near the centre (common practice, no source).
+    pub fn auto_laea(lon0: f64, lat0: f64) -> Crs {
+        Crs {
+            definition: format!(
+                "+proj=laea +lat_0={lat0:.6} +lon_0={lon0:.6} +x_0=0 +y_0=0 +datum=WGS84 +units=m +no_defs +type=crs"
+            ),
+        }
+    }
+}
+
+/// Transforms points and polygons both ways between lon/lat and one projected CRS.
+///
+/// A `Projector` wraps two PROJ objects; PROJ objects must not be shared between threads, so
+/// parallel code creates one per worker (`rayon`'s `map_init`).
+pub struct Projector {
+    forward: proj::Proj,
+    inverse: proj::Proj,
+    crs: Crs,
+}
+
+impl std::fmt::Debug for Projector {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Projector").field("crs", &self.crs).finish()
+    }
+}
+
+impl Projector {
+    /// Builds transforms lon/lat ⇄ `crs`. Fails with the CRS text when PROJ does not know it.
+    pub fn new(crs: &Crs) -> Result<Projector, GridError> {
+        let make = |from: &str, to: &str| {
+            proj::Proj::new_known_crs(from, to, None).map_err(|e| GridError::Crs {
+                definition: crs.definition.clone(),
+                reason: e.to_string(),
+            })
+        };
+        Ok(Projector {
+            forward: make(LONLAT, &crs.definition)?,
+            inverse: make(&crs.definition, LONLAT)?,
+            crs: crs.clone(),
+        })
+    }
+
+    /// The projected CRS.
+    pub fn crs(&self) -> &Crs {
+        &self.crs
+    }
+
+    /// lon/lat degrees → projected metres.
+    pub fn to_xy(&self, lon: f64, lat: f64) -> Result<[f64; 2], GridError> {
+        let (x, y) = self
+            .forward
+            .convert((lon, lat))
+            .map_err(|e| GridError::Transform { lon, lat, reason: e.to_string() })?;
+        if !(x.is_finite() && y.is_finite()) {
+            return Err(GridError::Transform { lon, lat, reason: "result is not finite".into() });
+        }
+        Ok([x, y])
+    }
+
+    /// Projected metres → lon/lat degrees.
+    pub fn to_lonlat(&self, x: f64, y: f64) -> Result<[f64; 2], GridError> {
+        let (lon, lat) = self
+            .inverse
+            .convert((x, y))
+            .map_err(|e| GridError::Transform { lon: x, lat: y, reason: e.to_string() })?;
+        if !(lon.is_finite() && lat.is_finite()) {
+            return Err(GridError::Transform { lon: x, lat: y, reason: "result is not finite".into() });
+        }
+        Ok([lon, lat])
+    }
+
+    /// Projects a lon/lat polygon, first densifying its edges so no segment spans more than
+    /// `max_step_deg` degrees (a straight lon/lat edge is curved in the projection).
+    pub fn polygon_to_xy(
+        &self,
+        polygon: &MultiPolygon<f64>,
+        max_step_deg: f64,
+    ) -> Result<MultiPolygon<f64>, GridError> {
+        map_multipolygon(polygon, max_step_deg, |c| self.to_xy(c.x, c.y))
+    }
+
+    /// Unprojects a projected polygon to lon/lat, first densifying its edges so no segment is
+    /// longer than `max_step_m` metres (a straight projected edge is curved in lon/lat).
+    pub fn polygon_to_lonlat(
+        &self,
+        polygon: &MultiPolygon<f64>,
+        max_step_m: f64,
+    ) -> Result<MultiPolygon<f64>, GridError> {
+        map_multipolygon(polygon, max_step_m, |c| self.to_lonlat(c.x, c.y))
+    }
+}
+
+/// Densify every ring to `max_step` (in the input's units), then map each vertex.
+fn map_multipolygon(
+    polygon: &MultiPolygon<f64>,
+    max_step: f64,
+    f: impl Fn(Coord<f64>) -> Result<[f64; 2], GridError>,
+) -> Result<MultiPolygon<f64>, GridError> {
+    let ring = |ls: &LineString<f64>| -> Result<LineString<f64>, GridError> {
+        let mut out = Vec::with_capacity(ls.0.len());
+        for w in ls.0.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let len = ((b.x - a.x).powi(2) + (b.y - a.y).powi(2)).sqrt();
+            let steps = if max_step > 0.0 { (len / max_step).ceil().max(1.0) as usize } else { 1 };
+            for k in 0..steps {
+                let t = k as f64 / steps as f64;
+                let p = f(Coord { x: a.x + t * (b.x - a.x), y: a.y + t * (b.y - a.y) })?;
+                out.push(Coord { x: p[0], y: p[1] });
+            }
+        }
+        if let Some(last) = ls.0.last() {
+            let p = f(*last)?;
+            out.push(Coord { x: p[0], y: p[1] });
+        }
+        Ok(LineString(out))
+    };
+    let mut polys = Vec::with_capacity(polygon.0.len());
+    for p in &polygon.0 {
+        let exterior = ring(p.exterior())?;
+        let interiors = p.interiors().iter().map(ring).collect::<Result<Vec<_>, _>>()?;
+        polys.push(Polygon::new(exterior, interiors));
+    }
+    Ok(MultiPolygon(polys))
+}

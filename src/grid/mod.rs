@@ -1,0 +1,265 @@
+//! Grid stage: takes the region (lon/lat polygons) and a grid spec, returns a [`Grid`] of
+//! square equal-area cells clipped to sea, with rook neighbours, shared edge lengths and an
+//! R-tree for look-ups.
+
+use geo::MultiPolygon;
+
+/// A projected, equal-area coordinate reference system, as PROJ understands it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Crs {
+    /// A PROJ string (`+proj=laea ...`) or an authority code (`EPSG:3035`).
+    pub definition: String,
+}
+
+/// How the plan chooses the grid's CRS.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CrsChoice {
+    /// Lambert azimuthal equal-area centred on the region's bounding-box centre.
+    Auto,
+    /// Any CRS PROJ knows (e.g. `EPSG:3035`); it must be projected and equal-area for
+    /// areas to be right (driftplan measures areas geodesically-consistent only then).
+    Given(String),
+}
+
+/// What the grid stage needs to know.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridSpec {
+    /// Side of a square cell. Units: km.
+    pub cell_size_km: f64,
+    /// Projection to build the grid in.
+    pub crs: CrsChoice,
+    /// Cells whose sea share of a full cell is below this are dropped as slivers (0–1).
+    pub min_sea_share: f64,
+}
+
+/// One rook neighbour of a cell and the length of the edge both cells share.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Neighbour {
+    /// Neighbouring cell id.
+    pub cell: u32,
+    /// Length of the shared sea edge. Units: km.
+    pub shared_km: f64,
+}
+
+/// One planning cell: the sea part of one square of the lattice.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Cell {
+    /// Column in the lattice (0 = west).
+    pub col: u32,
+    /// Row in the lattice (0 = south).
+    pub row: u32,
+    /// Centroid of the sea part, projected metres.
+    pub centre: [f64; 2],
+    /// Centroid of the sea part, WGS84 degrees `[lon, lat]`.
+    pub lonlat: [f64; 2],
+    /// Sea area. Units: km².
+    pub sea_area_km2: f64,
+    /// Perimeter of the sea part (shared edges, coast and region boundary). Units: km.
+    pub perimeter_km: f64,
+    /// The clipped sea polygon (projected metres) when the cell is not a full square.
+    pub clipped: Option<MultiPolygon<f64>>,
+}
+
+/// The planning grid. Cell ids are indices into `cells` and into every dense per-cell vector.
+#[derive(Debug, Clone)]
+pub struct Grid {
+    /// The projected CRS cells live in.
+    pub crs: Crs,
+    /// Cell side. Units: metres.
+    pub cell_size_m: f64,
+    /// Projected coordinates of the south-west corner of column 0, row 0.
+    pub origin: [f64; 2],
+    /// Lattice columns.
+    pub n_cols: u32,
+    /// Lattice rows.
+    pub n_rows: u32,
+    /// Kept cells, ordered by row then column.
+    pub cells: Vec<Cell>,
+    /// Rook neighbours of each cell, sorted by cell id.
+    pub neighbours: Vec<Vec<Neighbour>>,
+    /// Cell id at each lattice position (`row * n_cols + col`), [`NO_CELL`] where none.
+    pub lattice: Vec<u32>,
+    /// Sea area of the whole region after clipping and sliver removal. Units: km².
+    pub sea_area_km2: f64,
+}
+
+pub mod crs;
+
+pub use crs::Projector;
+
+use geo::{polygon, Rect};
+
+/// Errors of the grid stage.
+#[derive(Debug, thiserror::Error)]
+pub enum GridError {
+    /// PROJ does not understand the CRS.
+    #[error("unknown or unusable CRS `{definition}`: {reason} (expected e.g. `EPSG:3035` or a `+proj=laea ...` string)")]
+    Crs {
+        /// The CRS text given.
+        definition: String,
+        /// PROJ's message.
+        reason: String,
+    },
+    /// A coordinate could not be transformed.
+    #[error("cannot transform coordinate ({lon}, {lat}): {reason}")]
+    Transform {
+        /// First coordinate.
+        lon: f64,
+        /// Second coordinate.
+        lat: f64,
+        /// PROJ's message.
+        reason: String,
+    },
+    /// The grid spec or region cannot give a grid.
+    #[error("{0}")]
+    Invalid(String),
+}
+
+/// Marks lattice positions with no kept cell in [`Grid::lattice`].
+pub const NO_CELL: u32 = u32::MAX;
+
+impl Grid {
+    /// Number of cells.
+    pub fn len(&self) -> usize {
+        self.cells.len()
+    }
+
+    /// True when the grid has no cells.
+    pub fn is_empty(&self) -> bool {
+        self.cells.is_empty()
+    }
+
+    /// Lattice `(col, row)` of a projected point, if inside the lattice's extent.
+    pub fn lattice_position(&self, xy: [f64; 2]) -> Option<(u32, u32)> {
+        let c = ((xy[0] - self.origin[0]) / self.cell_size_m).floor();
+        let r = ((xy[1] - self.origin[1]) / self.cell_size_m).floor();
+        if c < 0.0 || r < 0.0 || c >= self.n_cols as f64 || r >= self.n_rows as f64 {
+            return None;
+        }
+        Some((c as u32, r as u32))
+    }
+
+    /// The cell id at lattice `(col, row)`, if a cell was kept there.
+    pub fn cell_at(&self, col: u32, row: u32) -> Option<u32> {
+        if col >= self.n_cols || row >= self.n_rows {
+            return None;
+        }
+        let id = self.lattice[(row as usize) * (self.n_cols as usize) + col as usize];
+        (id != NO_CELL).then_some(id)
+    }
+
+    /// The cell whose square holds a projected point (exact lattice arithmetic, O(1)).
+    /// A point on the land part of a clipped square still returns that cell.
+    pub fn locate(&self, xy: [f64; 2]) -> Option<u32> {
+        let (c, r) = self.lattice_position(xy)?;
+        self.cell_at(c, r)
+    }
+
+    /// Ids of cells whose squares meet the projected rectangle `[min, max]`, ascending.
+    pub fn cells_in_rect(&self, min: [f64; 2], max: [f64; 2]) -> Vec<u32> {
+        let s = self.cell_size_m;
+        let c0 = (((min[0] - self.origin[0]) / s).floor().max(0.0)) as i64;
+        let r0 = (((min[1] - self.origin[1]) / s).floor().max(0.0)) as i64;
+        let c1 = (((max[0] - self.origin[0]) / s).floor() as i64).min(self.n_cols as i64 - 1);
+        let r1 = (((max[1] - self.origin[1]) / s).floor() as i64).min(self.n_rows as i64 - 1);
+        let mut out = Vec::new();
+        for r in r0..=r1 {
+            for c in c0..=c1 {
+                if let Some(id) = self.cell_at(c as u32, r as u32) {
+                    out.push(id);
+                }
+            }
+        }
+        out
+    }
+
+    /// The full lattice square of a cell (projected metres).
+    pub fn cell_square(&self, id: u32) -> Rect<f64> {
+        let cell = &self.cells[id as usize];
+        let x0 = self.origin[0] + cell.col as f64 * self.cell_size_m;
+        let y0 = self.origin[1] + cell.row as f64 * self.cell_size_m;
+        Rect::new((x0, y0), (x0 + self.cell_size_m, y0 + self.cell_size_m))
+    }
+
+    /// The cell's sea polygon (projected metres): the clipped shape, or the full square.
+    pub fn cell_polygon(&self, id: u32) -> MultiPolygon<f64> {
+        match &self.cells[id as usize].clipped {
+            Some(mp) => mp.clone(),
+            None => {
+                let r = self.cell_square(id);
+                let (a, b) = (r.min(), r.max());
+                // Counter-clockwise exterior (RFC 7946 order), starting south-west.
+                MultiPolygon(vec![polygon![
+                    (x: a.x, y: a.y), (x: b.x, y: a.y), (x: b.x, y: b.y), (x: a.x, y: b.y), (x: a.x, y: a.y)
+                ]])
+            }
+        }
+    }
+
+    /// Edge of a cell not shared with any other cell: coast or region boundary. Units: km.
+    pub fn boundary_km(&self, id: u32) -> f64 {
+        let shared: f64 = self.neighbours[id as usize].iter().map(|n| n.shared_km).sum();
+        (self.cells[id as usize].perimeter_km - shared).max(0.0)
+    }
+
+    /// A grid of `n_cols × n_rows` full square cells with no clipping: for tests, benchmarks
+    /// and synthetic regions. Cell centroids are unprojected with `crs`.
+    pub fn full_rectangle(
+        crs: Crs,
+        cell_size_m: f64,
+        origin: [f64; 2],
+        n_cols: u32,
+        n_rows: u32,
+    ) -> Result<Grid, GridError> {
+        if !(cell_size_m > 0.0) || n_cols == 0 || n_rows == 0 {
+            return Err(GridError::Invalid(format!(
+                "a rectangle grid needs a positive cell size and at least one row and column (got {cell_size_m} m, {n_cols}×{n_rows})"
+            )));
+        }
+        let projector = Projector::new(&crs)?;
+        let side_km = cell_size_m / 1000.0;
+        let mut cells = Vec::with_capacity((n_cols * n_rows) as usize);
+        let mut lattice = Vec::with_capacity((n_cols * n_rows) as usize);
+        for row in 0..n_rows {
+            for col in 0..n_cols {
+                let centre = [
+                    origin[0] + (col as f64 + 0.5) * cell_size_m,
+                    origin[1] + (row as f64 + 0.5) * cell_size_m,
+                ];
+                let lonlat = projector.to_lonlat(centre[0], centre[1])?;
+                lattice.push(cells.len() as u32);
+                cells.push(Cell {
+                    col,
+                    row,
+                    centre,
+                    lonlat,
+                    sea_area_km2: side_km * side_km,
+                    perimeter_km: 4.0 * side_km,
+                    clipped: None,
+                });
+            }
+        }
+        let id = |c: u32, r: u32| r * n_cols + c;
+        let mut neighbours = vec![Vec::new(); cells.len()];
+        for row in 0..n_rows {
+            for col in 0..n_cols {
+                let list = &mut neighbours[id(col, row) as usize];
+                // Ascending id order: south, west, east, north.
+                if row > 0 {
+                    list.push(Neighbour { cell: id(col, row - 1), shared_km: side_km });
+                }
+                if col > 0 {
+                    list.push(Neighbour { cell: id(col - 1, row), shared_km: side_km });
+                }
+                if col + 1 < n_cols {
+                    list.push(Neighbour { cell: id(col + 1, row), shared_km: side_km });
+                }
+                if row + 1 < n_rows {
+                    list.push(Neighbour { cell: id(col, row + 1), shared_km: side_km });
+                }
+            }
+        }
+        let sea_area_km2 = cells.len() as f64 * side_km * side_km;
+        Ok(Grid { crs, cell_size_m, origin, n_cols, n_rows, cells, neighbours, lattice, sea_area_km2 })
+    }
+}

@@ -1,0 +1,110 @@
+//! Model stage: a solver-neutral statement of the reserve-selection problem. It knows no
+//! solver; `solve::*` translate it.
+
+/// Whether a cell may, must or must not be chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CellStatus {
+    /// The optimiser decides.
+    Free,
+    /// In every network (existing protected areas).
+    Required,
+    /// Never chosen (shipping lanes, ports, platforms).
+    Excluded,
+}
+
+/// What the optimiser is asked to do.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Objective {
+    /// Hold every target at least cost (the minimum-set problem).
+    MinCost,
+    /// Within the budget, hold the most weighted target attainment (maximum coverage).
+    MaxBenefit,
+}
+
+/// How scenarios are combined.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Robustness {
+    /// Targets hold in every scenario and year (hard constraints).
+    EveryScenario,
+    /// Maximise the benefit of the worst scenario (max-min).
+    WorstCase,
+    /// Maximise the scenario-weighted mean benefit.
+    Expected,
+    /// Minimise the largest regret (min-max regret, Kouvelis & Yu 1997).
+    LeastRegret,
+}
+
+/// One scenario as the model sees it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scenario {
+    /// Scenario name (e.g. `ssp2-4.5`).
+    pub name: String,
+    /// Weight for the `expected` rule (weights need not sum to one; they are normalised).
+    pub weight: f64,
+}
+
+/// One feature row of the model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelFeature {
+    /// Feature name (for diagnosis and reports).
+    pub name: String,
+    /// Scenario index, or `None` if the feature holds in all scenarios alike.
+    pub scenario: Option<usize>,
+    /// `(cell, amount)`, sorted by cell, no zeros.
+    pub amounts: Vec<(u32, f64)>,
+    /// Absolute amount the network must hold.
+    pub target: f64,
+    /// Weight in benefit objectives.
+    pub weight: f64,
+}
+
+/// The most a network may use. Both limits apply when both are set.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Budget {
+    /// Most total cost.
+    pub max_cost: Option<f64>,
+    /// Most total sea area. Units: km².
+    pub max_area_km2: Option<f64>,
+}
+
+/// Edge-penalty data (compactness): weight per km of reserve edge exposed to unprotected sea.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EdgePenalty {
+    /// Objective weight per km of exposed edge.
+    pub weight: f64,
+    /// `(i, j, shared km)` with `i < j`, each neighbouring pair once.
+    pub pairs: Vec<(u32, u32, f64)>,
+    /// Edge of each cell that counts as exposed when it is chosen: shared edges plus whatever
+    /// coast/region-boundary edge the plan says counts. Units: km.
+    pub exposed_if_alone_km: Vec<f64>,
+}
+
+/// A solver-neutral reserve-selection problem.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// Cost of protecting each cell.
+    pub cost: Vec<f64>,
+    /// Sea area of each cell. Units: km².
+    pub area_km2: Vec<f64>,
+    /// Free / required / excluded per cell.
+    pub status: Vec<CellStatus>,
+    /// Scenarios (at least one).
+    pub scenarios: Vec<Scenario>,
+    /// Feature rows.
+    pub features: Vec<ModelFeature>,
+    /// What to optimise.
+    pub objective: Objective,
+    /// How to combine scenarios.
+    pub robustness: Robustness,
+    /// Budget limits.
+    pub budget: Budget,
+    /// Optional compactness term.
+    pub edge_penalty: Option<EdgePenalty>,
+}
+
+impl Problem {
+    /// Number of cells (decision variables before auxiliaries).
+    pub fn n_cells(&self) -> usize {
+        self.cost.len()
+    }
+}

@@ -1,0 +1,1 @@
+//! Wires the stages together for the CLI.

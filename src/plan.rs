@@ -1,0 +1,751 @@
+//! Plan stage: reads a plan file (TOML), validates every key and resolves its paths, returning
+//! a [`Plan`] or a [`PlanError`] that lists every problem found, each with its key.
+//!
+//! Paths in a plan are relative to the plan file. Layer paths may be templates over
+//! `{species}`, `{scenario}` and `{year}`.
+
+use crate::grid::{CrsChoice, GridSpec};
+use crate::layers::{LayerSpec, Missing, Sampling};
+use crate::model::{Objective, Robustness};
+use serde::Deserialize;
+use sha2::{Digest, Sha256};
+use std::collections::BTreeMap;
+use std::fmt;
+use std::path::{Path, PathBuf};
+
+/// One problem found in a plan: where (`key`) and what was expected.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanIssue {
+    /// Dotted key path, e.g. `grid.cell_size_km` or `species[2].habitat.path`.
+    pub key: String,
+    /// What is wrong and what was expected.
+    pub message: String,
+}
+
+/// A plan that could not be read or validated: every problem at once.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanError {
+    /// The plan file.
+    pub file: PathBuf,
+    /// Every problem found.
+    pub issues: Vec<PlanIssue>,
+}
+
+impl fmt::Display for PlanError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let n = self.issues.len();
+        write!(
+            f,
+            "{}: {n} problem{} found",
+            self.file.display(),
+            if n == 1 { "" } else { "s" }
+        )?;
+        for issue in &self.issues {
+            write!(f, "\n  - `{}`: {}", issue.key, issue.message)?;
+        }
+        Ok(())
+    }
+}
+
+impl std::error::Error for PlanError {}
+
+/// A layer source as written in the plan, before templates are filled in.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LayerTemplate {
+    /// Absolute path template (may hold `{species}`, `{scenario}`, `{year}`).
+    pub path: String,
+    /// How values are taken onto cells.
+    pub sampling: Sampling,
+    /// Property / column template, if any.
+    pub field: Option<String>,
+    /// CRS of the file's coordinates (`None`: WGS84 lon/lat).
+    pub crs: Option<String>,
+    /// Values outside this range are errors.
+    pub valid_range: Option<(f64, f64)>,
+    /// What to do with uncovered cells.
+    pub missing: Missing,
+}
+
+impl LayerTemplate {
+    /// Fills in the template for one species, scenario and year.
+    pub fn resolve(&self, species: &str, scenario: &str, year: i32) -> LayerSpec {
+        let fill = |s: &str| {
+            s.replace("{species}", species)
+                .replace("{scenario}", scenario)
+                .replace("{year}", &year.to_string())
+        };
+        LayerSpec {
+            path: PathBuf::from(fill(&self.path)),
+            sampling: self.sampling,
+            field: self.field.as_deref().map(fill),
+            crs: self.crs.clone(),
+            valid_range: self.valid_range,
+            missing: self.missing,
+        }
+    }
+
+    /// The resolved spec of a layer that uses no template fields.
+    pub fn fixed(&self) -> LayerSpec {
+        self.resolve("", "", 0)
+    }
+
+    /// True when the path or field depends on the scenario or year.
+    pub fn varies_by_scenario_or_year(&self) -> bool {
+        let f = self.field.as_deref().unwrap_or("");
+        ["{scenario}", "{year}"].iter().any(|t| self.path.contains(t) || f.contains(t))
+    }
+}
+
+/// A species and its habitat source.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpeciesPlan {
+    /// Species name (used in feature names; letters, digits, `-`, `_`).
+    pub name: String,
+    /// Habitat suitability share (0–1) of each cell, per scenario and year.
+    pub habitat: LayerTemplate,
+    /// Target share overriding the default.
+    pub target: Option<f64>,
+    /// Weight in benefit objectives.
+    pub weight: f64,
+}
+
+/// How per-cell cost is defined.
+#[derive(Debug, Clone, PartialEq)]
+pub enum CostPlan {
+    /// Cost is sea area (km²).
+    Area,
+    /// Cost read from a layer (e.g. forgone fishing value).
+    Layer(LayerTemplate),
+}
+
+/// Polygons that lock cells in or out; a cell counts when this share of its sea is covered.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AreaRule {
+    /// Polygon source.
+    pub layer: LayerTemplate,
+    /// Covered share (0–1] at which a cell counts.
+    pub min_share: f64,
+}
+
+/// Budget as the plan states it.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct BudgetPlan {
+    /// Most total cost.
+    pub max_cost: Option<f64>,
+    /// Most share (0–1) of the region's sea area.
+    pub max_share: Option<f64>,
+}
+
+/// Solver controls.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolverPlan {
+    /// Wall-clock limit. Units: s.
+    pub time_limit_s: Option<f64>,
+    /// Relative gap at which to stop.
+    pub gap: f64,
+    /// Solver threads.
+    pub threads: Option<u32>,
+}
+
+/// A validated plan: every path absolute, every value checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Plan {
+    /// Plan name for outputs.
+    pub name: String,
+    /// The plan file.
+    pub file: PathBuf,
+    /// SHA-256 of the plan file bytes (hex), so outputs say which plan made them.
+    pub hash: String,
+    /// Region polygons (GeoJSON, lon/lat).
+    pub region: PathBuf,
+    /// Land polygons to cut out (GeoJSON, lon/lat).
+    pub land: Option<PathBuf>,
+    /// Grid settings.
+    pub grid: GridSpec,
+    /// Scenario names.
+    pub scenarios: Vec<String>,
+    /// Scenario weights for the `expected` rule (one per scenario).
+    pub scenario_weights: Vec<f64>,
+    /// Years, ascending.
+    pub years: Vec<i32>,
+    /// Species.
+    pub species: Vec<SpeciesPlan>,
+    /// Sea temperature per scenario and year (°C), if given.
+    pub temperature: Option<LayerTemplate>,
+    /// Cost definition.
+    pub cost: CostPlan,
+    /// Cells that must be in every network.
+    pub required: Option<AreaRule>,
+    /// Cells that may never be chosen.
+    pub excluded: Option<AreaRule>,
+    /// Default target share (0–1].
+    pub default_target: f64,
+    /// Budget.
+    pub budget: BudgetPlan,
+    /// Objective.
+    pub objective: Objective,
+    /// Robustness rule.
+    pub robustness: Robustness,
+    /// Solver controls.
+    pub solver: SolverPlan,
+}
+
+// ---------------------------------------------------------------- raw, as written in TOML
+
+type Extra = BTreeMap<String, toml::Value>;
+
+#[derive(Deserialize, Default)]
+struct RawPlan {
+    name: Option<String>,
+    region: Option<String>,
+    land: Option<String>,
+    grid: Option<RawGrid>,
+    scenarios: Option<RawScenarios>,
+    #[serde(default)]
+    species: Vec<RawSpecies>,
+    temperature: Option<RawLayer>,
+    cost: Option<toml::Value>,
+    required: Option<RawAreaRule>,
+    excluded: Option<RawAreaRule>,
+    targets: Option<RawTargets>,
+    budget: Option<RawBudget>,
+    optimise: Option<RawOptimise>,
+    solver: Option<RawSolver>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawGrid {
+    cell_size_km: Option<f64>,
+    crs: Option<String>,
+    min_sea_share: Option<f64>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawScenarios {
+    names: Option<Vec<String>>,
+    years: Option<Vec<i32>>,
+    weights: Option<Vec<f64>>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize, Clone)]
+struct RawLayer {
+    path: Option<String>,
+    column: Option<String>,
+    attribute: Option<String>,
+    sampling: Option<String>,
+    crs: Option<String>,
+    min: Option<f64>,
+    max: Option<f64>,
+    missing: Option<String>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawSpecies {
+    name: Option<String>,
+    habitat: Option<RawLayer>,
+    target: Option<f64>,
+    weight: Option<f64>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawAreaRule {
+    #[serde(flatten)]
+    layer: RawLayer,
+    min_share: Option<f64>,
+}
+
+#[derive(Deserialize)]
+struct RawTargets {
+    default: Option<f64>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawBudget {
+    max_cost: Option<f64>,
+    max_share: Option<f64>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawOptimise {
+    objective: Option<String>,
+    robustness: Option<String>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+#[derive(Deserialize)]
+struct RawSolver {
+    time_limit_s: Option<f64>,
+    gap: Option<f64>,
+    threads: Option<u32>,
+    #[serde(flatten)]
+    extra: Extra,
+}
+
+// ---------------------------------------------------------------- validation
+
+/// Collects problems while validating.
+struct Checker {
+    dir: PathBuf,
+    issues: Vec<PlanIssue>,
+}
+
+impl Checker {
+    fn push(&mut self, key: impl Into<String>, message: impl Into<String>) {
+        self.issues.push(PlanIssue { key: key.into(), message: message.into() });
+    }
+
+    fn unknown(&mut self, table: &str, extra: &Extra, known: &[&str]) {
+        for key in extra.keys() {
+            let full = if table.is_empty() { key.clone() } else { format!("{table}.{key}") };
+            self.push(full, format!("unknown key; expected one of: {}", known.join(", ")));
+        }
+    }
+
+    fn resolve(&self, rel: &str) -> PathBuf {
+        let p = Path::new(rel);
+        if p.is_absolute() {
+            p.to_path_buf()
+        } else {
+            self.dir.join(p)
+        }
+    }
+
+    fn existing_file(&mut self, key: &str, rel: &str) -> PathBuf {
+        let path = self.resolve(rel);
+        if !path.is_file() {
+            self.push(key, format!("file not found: {} (paths are relative to the plan file)", path.display()));
+        }
+        path
+    }
+
+    fn share(&mut self, key: &str, v: f64, allow_zero: bool) -> f64 {
+        let ok = v.is_finite() && v <= 1.0 && (v > 0.0 || (allow_zero && v == 0.0));
+        if !ok {
+            self.push(
+                key,
+                format!("must be a share between {} and 1 (e.g. 0.3 for 30%), got {v}", if allow_zero { "0" } else { "0 (exclusive)" }),
+            );
+        }
+        v
+    }
+
+    fn layer(&mut self, key: &str, raw: &RawLayer, default_missing: Missing) -> Option<LayerTemplate> {
+        self.unknown(key, &raw.extra, &["path", "column", "attribute", "sampling", "crs", "min", "max", "missing"]);
+        let Some(rel) = raw.path.as_deref() else {
+            self.push(format!("{key}.path"), "missing: the file to read, e.g. `path = \"habitat.csv\"`");
+            return None;
+        };
+        let path = self.resolve(rel).to_string_lossy().into_owned();
+        let lower = rel.to_ascii_lowercase();
+        let is_csv = lower.ends_with(".csv");
+        let is_geojson = lower.ends_with(".geojson") || lower.ends_with(".json");
+        if !is_csv && !is_geojson {
+            self.push(format!("{key}.path"), format!("`{rel}`: expected a .csv point grid or a .geojson/.json file"));
+        }
+        let sampling = match raw.sampling.as_deref() {
+            None if is_csv => Sampling::Interpolate,
+            None if raw.attribute.is_some() => Sampling::AreaMean,
+            None => Sampling::AreaShare,
+            Some("interpolate") => Sampling::Interpolate,
+            Some("area-share") => Sampling::AreaShare,
+            Some("area-mean") => Sampling::AreaMean,
+            Some("point-count") => Sampling::PointCount,
+            Some("point-sum") => Sampling::PointSum,
+            Some("point-mean") => Sampling::PointMean,
+            Some(other) => {
+                self.push(
+                    format!("{key}.sampling"),
+                    format!("unknown sampling `{other}`; expected interpolate, area-share, area-mean, point-count, point-sum or point-mean"),
+                );
+                Sampling::AreaShare
+            }
+        };
+        if is_csv && sampling != Sampling::Interpolate {
+            self.push(format!("{key}.sampling"), "a CSV point grid can only be sampled with `interpolate`");
+        }
+        if is_geojson && sampling == Sampling::Interpolate {
+            self.push(format!("{key}.sampling"), "`interpolate` needs a CSV `lon,lat,value` point grid");
+        }
+        let field = raw.column.clone().or_else(|| raw.attribute.clone());
+        let needs_field = matches!(sampling, Sampling::Interpolate | Sampling::AreaMean | Sampling::PointSum | Sampling::PointMean);
+        if needs_field && field.is_none() {
+            let which = if is_csv { "column" } else { "attribute" };
+            self.push(format!("{key}.{which}"), format!("missing: which {which} holds the values, e.g. `{which} = \"value\"`"));
+        }
+        let valid_range = match (raw.min, raw.max) {
+            (None, None) => None,
+            (lo, hi) => {
+                let (lo, hi) = (lo.unwrap_or(f64::NEG_INFINITY), hi.unwrap_or(f64::INFINITY));
+                if lo.is_nan() || hi.is_nan() || lo > hi {
+                    self.push(format!("{key}.min"), format!("`min` ({lo}) must not exceed `max` ({hi})"));
+                }
+                Some((lo, hi))
+            }
+        };
+        let missing = match raw.missing.as_deref() {
+            None => default_missing,
+            Some("error") => Missing::Error,
+            Some("zero") => Missing::Zero,
+            Some(other) => {
+                self.push(format!("{key}.missing"), format!("`{other}`: expected `error` or `zero`"));
+                default_missing
+            }
+        };
+        Some(LayerTemplate { path, sampling, field, crs: raw.crs.clone(), valid_range, missing })
+    }
+
+    /// Every file a template expands to must exist.
+    fn template_files(&mut self, key: &str, t: &LayerTemplate, species: &[&str], scenarios: &[String], years: &[i32]) {
+        let mut seen = std::collections::BTreeSet::new();
+        let sp: Vec<&str> = if species.is_empty() { vec![""] } else { species.to_vec() };
+        let sc: Vec<&str> = if scenarios.is_empty() { vec![""] } else { scenarios.iter().map(String::as_str).collect() };
+        let yr: Vec<i32> = if years.is_empty() { vec![0] } else { years.to_vec() };
+        for s in &sp {
+            for c in &sc {
+                for y in &yr {
+                    let p = t.resolve(s, c, *y).path;
+                    if seen.insert(p.clone()) && !p.is_file() {
+                        self.push(format!("{key}.path"), format!("file not found: {}", p.display()));
+                    }
+                }
+            }
+        }
+    }
+}
+
+fn valid_name(s: &str) -> bool {
+    !s.is_empty() && s.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_' || c == '.')
+}
+
+impl Plan {
+    /// Reads and validates a plan file, checking that every input file it names exists.
+    pub fn load(path: &Path) -> Result<Plan, PlanError> {
+        let bytes = std::fs::read(path).map_err(|e| PlanError {
+            file: path.to_path_buf(),
+            issues: vec![PlanIssue { key: "(file)".into(), message: format!("cannot read the plan file: {e}") }],
+        })?;
+        let text = String::from_utf8(bytes.clone()).map_err(|_| PlanError {
+            file: path.to_path_buf(),
+            issues: vec![PlanIssue { key: "(file)".into(), message: "the plan file is not UTF-8 text".into() }],
+        })?;
+        let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
+        let dir = if dir.as_os_str().is_empty() { PathBuf::from(".") } else { dir };
+        let hash = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
+        Plan::from_toml(&text, path, &dir, hash)
+    }
+
+    /// Validates plan text; `dir` is where relative paths start.
+    pub fn from_toml(text: &str, file: &Path, dir: &Path, hash: String) -> Result<Plan, PlanError> {
+        let fail = |issues| PlanError { file: file.to_path_buf(), issues };
+        let raw: RawPlan = toml::from_str(text).map_err(|e| {
+            let (line, col) = e.span().map(|s| line_col(text, s.start)).unwrap_or((0, 0));
+            fail(vec![PlanIssue {
+                key: format!("line {line}, column {col}"),
+                message: format!("not valid plan TOML: {}", e.message()),
+            }])
+        })?;
+        let mut ck = Checker { dir: dir.to_path_buf(), issues: Vec::new() };
+        ck.unknown(
+            "",
+            &raw.extra,
+            &["name", "region", "land", "grid", "scenarios", "species", "temperature", "cost", "required", "excluded", "targets", "budget", "optimise", "solver"],
+        );
+        let name = raw.name.clone().unwrap_or_else(|| {
+            file.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "plan".into())
+        });
+        let region = match raw.region.as_deref() {
+            Some(r) => ck.existing_file("region", r),
+            None => {
+                ck.push("region", "missing: a GeoJSON file of the sea region's polygon(s), e.g. `region = \"region.geojson\"`");
+                PathBuf::new()
+            }
+        };
+        let land = raw.land.as_deref().map(|l| ck.existing_file("land", l));
+
+        // Grid.
+        let grid = match &raw.grid {
+            None => {
+                ck.push("grid", "missing table `[grid]` with at least `cell_size_km = 5`");
+                GridSpec { cell_size_km: 1.0, crs: CrsChoice::Auto, min_sea_share: 0.1 }
+            }
+            Some(g) => {
+                ck.unknown("grid", &g.extra, &["cell_size_km", "crs", "min_sea_share"]);
+                let cell = match g.cell_size_km {
+                    Some(v) if v.is_finite() && v > 0.0 => v,
+                    Some(v) => {
+                        ck.push("grid.cell_size_km", format!("must be a positive number of kilometres, e.g. `cell_size_km = 5`; got {v}"));
+                        1.0
+                    }
+                    None => {
+                        ck.push("grid.cell_size_km", "missing: a positive number of kilometres, e.g. `cell_size_km = 5`");
+                        1.0
+                    }
+                };
+                let crs = match g.crs.as_deref() {
+                    None | Some("auto") => CrsChoice::Auto,
+                    Some(s) => CrsChoice::Given(s.to_string()),
+                };
+                let min_sea_share = g.min_sea_share.map(|v| ck.share("grid.min_sea_share", v, true)).unwrap_or(0.1);
+                GridSpec { cell_size_km: cell, crs, min_sea_share }
+            }
+        };
+
+        // Scenarios and years.
+        let (scenarios, years, scenario_weights) = match &raw.scenarios {
+            None => {
+                ck.push("scenarios", "missing table `[scenarios]` with `names = [...]` and `years = [...]`");
+                (vec![], vec![], vec![])
+            }
+            Some(s) => {
+                ck.unknown("scenarios", &s.extra, &["names", "years", "weights"]);
+                let names = s.names.clone().unwrap_or_default();
+                if names.is_empty() {
+                    ck.push("scenarios.names", "needs at least one scenario name, e.g. `names = [\"ssp2-4.5\"]`");
+                }
+                let mut uniq = std::collections::BTreeSet::new();
+                for (i, n) in names.iter().enumerate() {
+                    if !valid_name(n) {
+                        ck.push(format!("scenarios.names[{i}]"), format!("`{n}`: use letters, digits, `-`, `_` or `.`"));
+                    }
+                    if !uniq.insert(n.clone()) {
+                        ck.push(format!("scenarios.names[{i}]"), format!("`{n}` is listed twice"));
+                    }
+                }
+                let mut years = s.years.clone().unwrap_or_default();
+                if years.is_empty() {
+                    ck.push("scenarios.years", "needs at least one year, e.g. `years = [2030, 2050]`");
+                }
+                if years.windows(2).any(|w| w[0] >= w[1]) {
+                    ck.push("scenarios.years", "years must be strictly increasing");
+                }
+                years.dedup();
+                let weights = match &s.weights {
+                    None => vec![1.0; names.len()],
+                    Some(w) => {
+                        if w.len() != names.len() {
+                            ck.push("scenarios.weights", format!("needs one weight per scenario ({}), got {}", names.len(), w.len()));
+                        }
+                        if w.iter().any(|x| !(x.is_finite() && *x >= 0.0)) || w.iter().sum::<f64>() <= 0.0 {
+                            ck.push("scenarios.weights", "weights must be non-negative numbers, not all zero");
+                        }
+                        w.clone()
+                    }
+                };
+                (names, years, weights)
+            }
+        };
+
+        // Targets.
+        let default_target = match &raw.targets {
+            None => 0.3,
+            Some(t) => {
+                ck.unknown("targets", &t.extra, &["default"]);
+                t.default.map(|v| ck.share("targets.default", v, false)).unwrap_or(0.3)
+            }
+        };
+
+        // Species.
+        if raw.species.is_empty() {
+            ck.push("species", "needs at least one `[[species]]` with `name` and `habitat`");
+        }
+        let mut species = Vec::new();
+        let mut names = std::collections::BTreeSet::new();
+        for (i, s) in raw.species.iter().enumerate() {
+            let key = format!("species[{i}]");
+            ck.unknown(&key, &s.extra, &["name", "habitat", "target", "weight"]);
+            let name = s.name.clone().unwrap_or_default();
+            if !valid_name(&name) {
+                ck.push(format!("{key}.name"), format!("`{name}`: a species needs a name of letters, digits, `-`, `_` or `.`"));
+            } else if !names.insert(name.clone()) {
+                ck.push(format!("{key}.name"), format!("species `{name}` is listed twice"));
+            }
+            let target = s.target.map(|v| ck.share(&format!("{key}.target"), v, true));
+            let weight = s.weight.unwrap_or(1.0);
+            if !(weight.is_finite() && weight >= 0.0) {
+                ck.push(format!("{key}.weight"), format!("must be a non-negative number, got {weight}"));
+            }
+            let Some(h) = &s.habitat else {
+                ck.push(format!("{key}.habitat"), "missing: `habitat = { path = \"...\", column = \"...\" }`");
+                continue;
+            };
+            if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, Missing::Error) {
+                // Habitat is a suitability share of each cell.
+                if t.valid_range.is_none() {
+                    t.valid_range = Some((0.0, 1.0));
+                }
+                ck.template_files(&format!("{key}.habitat"), &t, &[&name], &scenarios, &years);
+                species.push(SpeciesPlan { name, habitat: t, target, weight });
+            }
+        }
+
+        let temperature = raw.temperature.as_ref().and_then(|t| {
+            let lt = ck.layer("temperature", t, Missing::Error)?;
+            ck.template_files("temperature", &lt, &[], &scenarios, &years);
+            Some(lt)
+        });
+
+        // Cost.
+        let cost = match &raw.cost {
+            None => CostPlan::Area,
+            Some(toml::Value::String(s)) if s == "area" => CostPlan::Area,
+            Some(v @ toml::Value::Table(_)) => match v.clone().try_into::<RawLayer>() {
+                Ok(rl) => match ck.layer("cost", &rl, Missing::Error) {
+                    Some(mut t) => {
+                        if t.varies_by_scenario_or_year() {
+                            ck.push("cost.path", "cost must not depend on {scenario} or {year}");
+                        }
+                        if t.valid_range.is_none() {
+                            t.valid_range = Some((0.0, f64::INFINITY));
+                        }
+                        ck.template_files("cost", &t, &[], &[], &[]);
+                        CostPlan::Layer(t)
+                    }
+                    None => CostPlan::Area,
+                },
+                Err(e) => {
+                    ck.push("cost", format!("{e}"));
+                    CostPlan::Area
+                }
+            },
+            Some(_) => {
+                ck.push("cost", "expected `cost = \"area\"` or a table `[cost]` with `path` and `column`");
+                CostPlan::Area
+            }
+        };
+
+        let mut area_rule = |key: &str, raw: &Option<RawAreaRule>, default_share: f64| {
+            raw.as_ref().and_then(|r| {
+                let t = ck.layer(key, &r.layer, Missing::Zero)?;
+                if t.sampling != Sampling::AreaShare {
+                    ck.push(format!("{key}.sampling"), "required/excluded areas must be GeoJSON polygons (area-share)");
+                }
+                ck.template_files(key, &t, &[], &[], &[]);
+                let min_share = r.min_share.map(|v| ck.share(&format!("{key}.min_share"), v, false)).unwrap_or(default_share);
+                Some(AreaRule { layer: t, min_share })
+            })
+        };
+        // A cell is required when at least half of it is protected already; any overlap with a
+        // shipping lane excludes it (common practice, no source; both configurable).
+        let required = area_rule("required", &raw.required, 0.5);
+        let excluded = area_rule("excluded", &raw.excluded, 0.01);
+
+        let budget = match &raw.budget {
+            None => BudgetPlan::default(),
+            Some(b) => {
+                ck.unknown("budget", &b.extra, &["max_cost", "max_share"]);
+                if let Some(c) = b.max_cost {
+                    if !(c.is_finite() && c >= 0.0) {
+                        ck.push("budget.max_cost", format!("must be a non-negative number in cost units, got {c}"));
+                    }
+                }
+                let max_share = b.max_share.map(|v| ck.share("budget.max_share", v, false));
+                BudgetPlan { max_cost: b.max_cost, max_share }
+            }
+        };
+
+        let (objective, robustness) = match &raw.optimise {
+            None => (Objective::MinCost, Robustness::EveryScenario),
+            Some(o) => {
+                ck.unknown("optimise", &o.extra, &["objective", "robustness"]);
+                let objective = match o.objective.as_deref() {
+                    None | Some("min-cost") => Objective::MinCost,
+                    Some("max-benefit") => Objective::MaxBenefit,
+                    Some(x) => {
+                        ck.push("optimise.objective", format!("`{x}`: expected `min-cost` or `max-benefit`"));
+                        Objective::MinCost
+                    }
+                };
+                let robustness = match o.robustness.as_deref() {
+                    None | Some("every-scenario") => Robustness::EveryScenario,
+                    Some("worst-case") => Robustness::WorstCase,
+                    Some("expected") => Robustness::Expected,
+                    Some("least-regret") => Robustness::LeastRegret,
+                    Some(x) => {
+                        ck.push(
+                            "optimise.robustness",
+                            format!("`{x}`: expected `every-scenario`, `worst-case`, `expected` or `least-regret`"),
+                        );
+                        Robustness::EveryScenario
+                    }
+                };
+                (objective, robustness)
+            }
+        };
+        if objective == Objective::MaxBenefit && budget.max_cost.is_none() && budget.max_share.is_none() {
+            ck.push("budget", "`max-benefit` needs a budget: `max_cost` and/or `max_share`");
+        }
+
+        let solver = match &raw.solver {
+            None => SolverPlan { time_limit_s: None, gap: 0.0, threads: None },
+            Some(s) => {
+                ck.unknown("solver", &s.extra, &["time_limit_s", "gap", "threads"]);
+                if let Some(t) = s.time_limit_s {
+                    if !(t.is_finite() && t > 0.0) {
+                        ck.push("solver.time_limit_s", format!("must be a positive number of seconds, got {t}"));
+                    }
+                }
+                let gap = s.gap.unwrap_or(0.0);
+                if !(gap.is_finite() && (0.0..1.0).contains(&gap)) {
+                    ck.push("solver.gap", format!("must be a relative gap in [0, 1), e.g. 0.01 for 1%; got {gap}"));
+                }
+                if s.threads == Some(0) {
+                    ck.push("solver.threads", "must be at least 1");
+                }
+                SolverPlan { time_limit_s: s.time_limit_s, gap, threads: s.threads }
+            }
+        };
+
+        if !ck.issues.is_empty() {
+            return Err(fail(ck.issues));
+        }
+        Ok(Plan {
+            name,
+            file: file.to_path_buf(),
+            hash,
+            region,
+            land,
+            grid,
+            scenarios,
+            scenario_weights,
+            years,
+            species,
+            temperature,
+            cost,
+            required,
+            excluded,
+            default_target,
+            budget,
+            objective,
+            robustness,
+            solver,
+        })
+    }
+
+    /// The target share of a species (its override, or the default).
+    pub fn target_share(&self, species: &SpeciesPlan) -> f64 {
+        species.target.unwrap_or(self.default_target)
+    }
+}
+
+/// 1-based line and column of a byte offset.
+fn line_col(text: &str, offset: usize) -> (usize, usize) {
+    let before = &text[..offset.min(text.len())];
+    let line = before.matches('\n').count() + 1;
+    let col = before.rsplit('\n').next().map(|l| l.chars().count()).unwrap_or(0) + 1;
+    (line, col)
+}
