@@ -5,9 +5,8 @@
 use std::time::Instant;
 
 use crate::model::robust::is_minimisation;
-use crate::model::{evaluate, CellStatus, Objective, Problem};
+use crate::model::{evaluate, CellStatus, Problem};
 
-use super::diagnose::diagnose;
 use super::{
     make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
@@ -77,20 +76,7 @@ impl Solver for BruteForce {
                 started,
                 self.name(),
             )),
-            None => {
-                let short = if problem.objective == Objective::MinCost {
-                    diagnose(&problem)
-                } else {
-                    Vec::new()
-                };
-                Err(if short.is_empty() {
-                    SolveError::JointlyInfeasible(
-                        "no network meets the targets, budget and max gap together".into(),
-                    )
-                } else {
-                    SolveError::Infeasible(short)
-                })
-            }
+            None => Err(super::ilp::infeasible(&problem)),
         }
     }
 }

@@ -316,17 +316,24 @@ fn highs_err(what: &str) -> impl Fn(highs::TrySetOptionError) -> SolveError + '_
     move |_| SolveError::Solver(format!("HiGHS rejected option `{what}`"))
 }
 
-/// The infeasibility error for a problem the solver proved infeasible.
-fn infeasible(problem: &Problem) -> SolveError {
-    let short = diagnose(problem);
-    if short.is_empty() {
+/// The infeasibility error for a problem the solver proved infeasible: per-target shortfalls
+/// when diagnosis finds them (min-cost), otherwise a statement of which rules clash.
+pub(crate) fn infeasible(problem: &Problem) -> SolveError {
+    if problem.objective == Objective::MinCost {
+        let short = diagnose(problem);
+        if !short.is_empty() {
+            return SolveError::Infeasible(short);
+        }
         SolveError::JointlyInfeasible(
             "each target can be met on its own, but not all together under the budget, the \
              max gap and the required/excluded cells"
                 .into(),
         )
     } else {
-        SolveError::Infeasible(short)
+        SolveError::JointlyInfeasible(
+            "no network within the budget meets the max gap together with the required cells"
+                .into(),
+        )
     }
 }
 
