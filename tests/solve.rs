@@ -569,16 +569,25 @@ fn heuristics_are_deterministic() {
 #[test]
 fn highs_agrees_with_cbc() {
     // Second solver: CBC via good_lp coin_cbc solves the same formulation of a 300-cell
-    // min-cost instance (with and without an edge penalty) and a max-benefit one; the optimal
-    // objectives agree with HiGHS's.
+    // min-cost instance (plain, with an edge penalty, with a max gap) and a max-benefit one
+    // (plain, with a max gap); the optimal objectives agree with HiGHS's.
     use driftplan::solve::ilp::Cbc;
-    for (edge, objective) in [
-        (0.0, Objective::MinCost),
-        (0.3, Objective::MinCost),
-        (0.0, Objective::MaxBenefit),
+    for (edge, objective, gap) in [
+        (0.0, Objective::MinCost, false),
+        (0.3, Objective::MinCost, false),
+        (0.0, Objective::MaxBenefit, false),
+        (0.0, Objective::MinCost, true),
+        (0.0, Objective::MaxBenefit, true),
     ] {
-        let mut p = medium(11, 15, 20, 12, edge);
+        let mut p = medium(11, 15, 20, 4, edge);
         p.objective = objective;
+        if gap {
+            // Rows 10 km apart along the shift axis, at most 25 km without a chosen cell.
+            p.spacing = Some(Spacing {
+                position_km: (0..300).map(|i| (i / 20) as f64 * 10.0).collect(),
+                max_gap_km: 25.0,
+            });
+        }
         if objective == Objective::MaxBenefit {
             p.budget.max_cost = Some(p.cost.iter().sum::<f64>() * 0.2);
         }
