@@ -185,7 +185,12 @@ impl Problem {
             }
         }
         if let Some(best) = &self.scenario_best {
-            check_len("scenario_best", best.len(), self.scenarios.len(), "scenarios")?;
+            check_len(
+                "scenario_best",
+                best.len(),
+                self.scenarios.len(),
+                "scenarios",
+            )?;
         }
         if self.objective == Objective::MinCost && self.robustness == Robustness::Expected {
             return Err(ModelError::Combination(
@@ -223,5 +228,84 @@ impl Problem {
             }
         }
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Budget, ModelFeature, Scenario};
+
+    fn ok_problem() -> Problem {
+        Problem {
+            cost: vec![1.0, 2.0],
+            area_km2: vec![1.0, 1.0],
+            status: vec![CellStatus::Required, CellStatus::Free],
+            scenarios: vec![Scenario {
+                name: "s".into(),
+                weight: 1.0,
+            }],
+            features: vec![ModelFeature {
+                name: "f".into(),
+                scenario: Some(0),
+                amounts: vec![(0, 1.0), (1, 2.0)],
+                target: 2.0,
+                weight: 1.0,
+            }],
+            objective: Objective::MinCost,
+            robustness: Robustness::EveryScenario,
+            budget: Budget::default(),
+            edge_penalty: None,
+            spacing: None,
+            scenario_best: None,
+        }
+    }
+
+    #[test]
+    fn each_error_is_found_and_located() {
+        assert_eq!(ok_problem().validate(), Ok(()));
+        let mut p = ok_problem();
+        p.area_km2.pop();
+        assert!(matches!(
+            p.validate(),
+            Err(ModelError::Length {
+                field: "area_km2",
+                found: 1,
+                expected: 2,
+                ..
+            })
+        ));
+        let mut p = ok_problem();
+        p.cost[1] = -1.0;
+        assert!(matches!(
+            p.validate(),
+            Err(ModelError::Value { index: 1, .. })
+        ));
+        let mut p = ok_problem();
+        p.features[0].amounts = vec![(1, 2.0), (0, 1.0)];
+        assert!(matches!(p.validate(), Err(ModelError::Reference(_))));
+        let mut p = ok_problem();
+        p.features[0].scenario = Some(3);
+        assert!(matches!(p.validate(), Err(ModelError::Reference(_))));
+        let mut p = ok_problem();
+        p.robustness = Robustness::Expected;
+        assert!(matches!(p.validate(), Err(ModelError::Combination(_))));
+        // The required cell 0 costs 1 > budget 0.5.
+        let mut p = ok_problem();
+        p.budget.max_cost = Some(0.5);
+        assert_eq!(
+            p.validate(),
+            Err(ModelError::RequiredOverBudget {
+                what: "cost",
+                used: 1.0,
+                limit: 0.5
+            })
+        );
+        let mut p = ok_problem();
+        p.spacing = Some(crate::model::Spacing {
+            position_km: vec![0.0, 1.0],
+            max_gap_km: 0.0,
+        });
+        assert!(matches!(p.validate(), Err(ModelError::Value { .. })));
     }
 }
