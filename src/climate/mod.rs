@@ -100,7 +100,12 @@ pub(crate) fn check_sparse(
     for (index, &(cell, _)) in amounts.iter().enumerate() {
         let ascending = previous.is_none_or(|p| cell > p);
         if (cell as usize) >= n_cells || !ascending {
-            return Err(ClimateError::SparseList { what: what.to_string(), index, cell, n_cells });
+            return Err(ClimateError::SparseList {
+                what: what.to_string(),
+                index,
+                cell,
+                n_cells,
+            });
         }
         previous = Some(cell);
     }
@@ -160,7 +165,11 @@ mod tests {
         assert!(check_sparse("h", &[(0, 1.0), (2, 1.0)], 3).is_ok());
         assert!(matches!(
             check_sparse("h", &[(2, 1.0), (1, 1.0)], 3),
-            Err(ClimateError::SparseList { index: 1, cell: 1, .. })
+            Err(ClimateError::SparseList {
+                index: 1,
+                cell: 1,
+                ..
+            })
         ));
         assert!(check_sparse("h", &[(1, 1.0), (1, 1.0)], 3).is_err());
         assert!(check_sparse("h", &[(3, 1.0)], 3).is_err());

@@ -60,7 +60,9 @@ pub fn persistent_habitat(
     threshold: f64,
 ) -> Result<Vec<(u32, f64)>, ClimateError> {
     if habitat_by_year.is_empty() {
-        return Err(ClimateError::Invalid("persistent habitat needs at least one year".into()));
+        return Err(ClimateError::Invalid(
+            "persistent habitat needs at least one year".into(),
+        ));
     }
     let mut min = vec![f64::INFINITY; n_cells];
     let mut years_present = vec![0usize; n_cells];
@@ -74,7 +76,10 @@ pub fn persistent_habitat(
         }
     }
     let all = habitat_by_year.len();
-    Ok((0..n_cells).filter(|&i| years_present[i] == all).map(|i| (i as u32, min[i])).collect())
+    Ok((0..n_cells)
+        .filter(|&i| years_present[i] == all)
+        .map(|i| (i as u32, min[i]))
+        .collect())
 }
 
 /// Low-exposure cells: finite `exposure` at or below its `q` quantile (Hyndman & Fan 1996
@@ -84,7 +89,10 @@ pub fn low_exposure_cells(exposure: &[f64], q: f64) -> Result<Vec<bool>, Climate
     let Some(cut) = quantile(exposure, q) else {
         return Ok(vec![false; exposure.len()]);
     };
-    Ok(exposure.iter().map(|&v| v.is_finite() && v <= cut).collect())
+    Ok(exposure
+        .iter()
+        .map(|&v| v.is_finite() && v <= cut)
+        .collect())
 }
 
 /// Refugia of one scenario: the sea area of low-exposure cells ([`low_exposure_cells`] on the
@@ -118,7 +126,11 @@ pub fn refugia(
         })
         .collect::<Result<Vec<_>, ClimateError>>()?;
     let all_species = weighted_sparse_sum(grid.len(), per_species.iter().map(|l| (&l[..], 1.0)));
-    Ok(Refugia { climate, per_species, all_species })
+    Ok(Refugia {
+        climate,
+        per_species,
+        all_species,
+    })
 }
 
 #[cfg(test)]
@@ -154,8 +166,8 @@ mod tests {
         // (type 7) of (1, 2, 4, 8) is 1 + 0.75·(2 − 1) = 1.75 → only cell 0 is low-exposure.
         // Species A persists in cells 0 and 1 (min 0.3 and 0.5); with low exposure required
         // only cell 0 stays. Species B persists in cell 0 (0.2).
-        let g = Grid::full_rectangle(Crs::auto_laea(0.0, 50.0), 10_000.0, [0.0, 0.0], 2, 2)
-            .unwrap();
+        let g =
+            Grid::full_rectangle(Crs::auto_laea(0.0, 50.0), 10_000.0, [0.0, 0.0], 2, 2).unwrap();
         let speed = vec![1.0, 4.0, 2.0, 8.0];
         let v = Velocity {
             trend_c_per_yr: vec![0.02; 4],
@@ -169,7 +181,10 @@ mod tests {
         let a2 = [(0u32, 0.4), (1, 0.6), (2, 0.9)];
         let b1 = [(0u32, 0.2)];
         let species = vec![vec![&a1[..], &a2[..]], vec![&b1[..], &b1[..]]];
-        let params = RefugiaParams { species_need_low_exposure: true, ..Default::default() };
+        let params = RefugiaParams {
+            species_need_low_exposure: true,
+            ..Default::default()
+        };
         let r = refugia(&g, &v, &species, &params).unwrap();
         assert_eq!(r.climate.len(), 1);
         assert_eq!(r.climate[0].0, 0);
@@ -177,11 +192,17 @@ mod tests {
         assert_eq!(r.per_species, vec![vec![(0, 0.3)], vec![(0, 0.2)]]);
         assert_eq!(r.all_species.len(), 1);
         assert!((r.all_species[0].1 - 0.5).abs() < 1e-12);
-        let params = RefugiaParams { species_need_low_exposure: false, ..Default::default() };
+        let params = RefugiaParams {
+            species_need_low_exposure: false,
+            ..Default::default()
+        };
         let r = refugia(&g, &v, &species, &params).unwrap();
         assert_eq!(r.per_species[0], vec![(0, 0.3), (1, 0.5)]);
         // Warming metric: all trends equal → every cell is at the quantile → all low.
-        let params = RefugiaParams { metric: ExposureMetric::Warming, ..Default::default() };
+        let params = RefugiaParams {
+            metric: ExposureMetric::Warming,
+            ..Default::default()
+        };
         assert_eq!(refugia(&g, &v, &species, &params).unwrap().climate.len(), 4);
     }
 }

@@ -123,8 +123,12 @@ mod tests {
         let p = [(30.0, 1.0), (10.0, 1.0), (20.0, 2.0), (99.0, 0.0)];
         assert_eq!(weighted_quantile(&p, 0.95), Some(30.0));
         assert_eq!(weighted_quantile(&p, 0.05), Some(10.0));
-        assert!((weighted_quantile(&p, 0.3).unwrap() - (10.0 + 0.175 / 0.375 * 10.0)).abs() < 1e-12);
-        assert!((weighted_quantile(&p, 0.75).unwrap() - (20.0 + 0.25 / 0.375 * 10.0)).abs() < 1e-12);
+        assert!(
+            (weighted_quantile(&p, 0.3).unwrap() - (10.0 + 0.175 / 0.375 * 10.0)).abs() < 1e-12
+        );
+        assert!(
+            (weighted_quantile(&p, 0.75).unwrap() - (20.0 + 0.25 / 0.375 * 10.0)).abs() < 1e-12
+        );
         assert_eq!(weighted_quantile(&[(1.0, 0.0)], 0.5), None);
     }
 

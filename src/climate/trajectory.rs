@@ -25,7 +25,11 @@ pub struct TrajectoryParams {
 
 impl Default for TrajectoryParams {
     fn default() -> Self {
-        TrajectoryParams { horizon_years: 50.0, step_years: 1.0, corridor_quantile: 0.9 }
+        TrajectoryParams {
+            horizon_years: 50.0,
+            step_years: 1.0,
+            corridor_quantile: 0.9,
+        }
     }
 }
 
@@ -57,15 +61,32 @@ pub struct Trajectory {
 impl Trajectory {
     /// The cell it ends in, unless it left the sea.
     pub fn end_cell(&self) -> Option<u32> {
-        (self.stop != Stop::LeftSea).then(|| *self.cells.last().expect("a trajectory holds its start cell"))
+        (self.stop != Stop::LeftSea).then(|| {
+            *self
+                .cells
+                .last()
+                .expect("a trajectory holds its start cell")
+        })
     }
 }
 
 /// Checks the tracing parameters.
 fn check_params(params: &TrajectoryParams) -> Result<(), ClimateError> {
-    check_range("horizon_years", params.horizon_years, 0.0, f64::INFINITY, false)?;
+    check_range(
+        "horizon_years",
+        params.horizon_years,
+        0.0,
+        f64::INFINITY,
+        false,
+    )?;
     check_range("step_years", params.step_years, 0.0, f64::INFINITY, false)?;
-    check_range("corridor_quantile", params.corridor_quantile, 0.0, 1.0, true)
+    check_range(
+        "corridor_quantile",
+        params.corridor_quantile,
+        0.0,
+        1.0,
+        true,
+    )
 }
 
 /// Traces one trajectory from the centre of cell `start` (Burrows et al. 2014).
@@ -93,7 +114,12 @@ pub fn trace(
     Ok(trace_unchecked(grid, velocity, start, params))
 }
 
-fn trace_unchecked(grid: &Grid, velocity: &Velocity, start: u32, params: &TrajectoryParams) -> Trajectory {
+fn trace_unchecked(
+    grid: &Grid,
+    velocity: &Velocity,
+    start: u32,
+    params: &TrajectoryParams,
+) -> Trajectory {
     let half_cell_km = 0.5 * grid.cell_size_m / 1000.0;
     let mut pos = grid.cells[start as usize].centre;
     let mut cells = vec![start];
@@ -114,7 +140,10 @@ fn trace_unchecked(grid: &Grid, velocity: &Velocity, start: u32, params: &Trajec
         if speed == 0.0 {
             break Stop::Horizon;
         }
-        let dt = params.step_years.min(params.horizon_years - t).min(half_cell_km / speed);
+        let dt = params
+            .step_years
+            .min(params.horizon_years - t)
+            .min(half_cell_km / speed);
         pos = [pos[0] + v[0] * dt * 1000.0, pos[1] + v[1] * dt * 1000.0];
         t += dt;
         travelled_km += speed * dt;
@@ -127,7 +156,12 @@ fn trace_unchecked(grid: &Grid, velocity: &Velocity, start: u32, params: &Trajec
             Some(_) => {}
         }
     };
-    Trajectory { cells, end_xy: pos, stop, travelled_km }
+    Trajectory {
+        cells,
+        end_xy: pos,
+        stop,
+        travelled_km,
+    }
 }
 
 /// Every trajectory of one scenario, stored compactly: trajectory `k` starts in
@@ -195,8 +229,10 @@ pub fn trace_all(
     let starts: Vec<u32> = (0..grid.len() as u32)
         .filter(|&id| velocity.grid_velocity[id as usize][0].is_finite())
         .collect();
-    let paths: Vec<Trajectory> =
-        starts.par_iter().map(|&s| trace_unchecked(grid, velocity, s, params)).collect();
+    let paths: Vec<Trajectory> = starts
+        .par_iter()
+        .map(|&s| trace_unchecked(grid, velocity, s, params))
+        .collect();
     let mut offsets = Vec::with_capacity(paths.len() + 1);
     offsets.push(0);
     let mut cells = Vec::new();
@@ -212,7 +248,14 @@ pub fn trace_all(
     for (k, &s) in starts.iter().enumerate() {
         by_start[s as usize] = k as u32;
     }
-    Ok(TrajectorySet { starts, offsets, cells, stops, travelled_km, by_start })
+    Ok(TrajectorySet {
+        starts,
+        offsets,
+        cells,
+        stops,
+        travelled_km,
+        by_start,
+    })
 }
 
 /// Per-cell trajectory counts (each trajectory counted at most once per cell).
@@ -303,7 +346,11 @@ pub fn classify_flow(
             }
             // Every visited cell but the last is left for the next; the last is left too
             // when the trajectory runs off the sea.
-            let keep = if set.stops[k] == Stop::LeftSea { path.len() } else { path.len() - 1 };
+            let keep = if set.stops[k] == Stop::LeftSea {
+                path.len()
+            } else {
+                path.len() - 1
+            };
             let mut left: Vec<u32> = path[..keep].to_vec();
             left.sort_unstable();
             left.dedup();
@@ -324,8 +371,12 @@ pub fn classify_flow(
             }
             a
         });
-    let entered: Vec<f64> =
-        counts.entries.iter().filter(|&&e| e > 0).map(|&e| e as f64).collect();
+    let entered: Vec<f64> = counts
+        .entries
+        .iter()
+        .filter(|&&e| e > 0)
+        .map(|&e| e as f64)
+        .collect();
     let cut = quantile(&entered, params.corridor_quantile);
     let classes = (0..n)
         .map(|i| {
@@ -365,8 +416,14 @@ mod tests {
     }
 
     fn grid(n_cols: u32, n_rows: u32) -> Grid {
-        Grid::full_rectangle(Crs::auto_laea(0.0, 0.0), 10_000.0, [0.0, 0.0], n_cols, n_rows)
-            .unwrap()
+        Grid::full_rectangle(
+            Crs::auto_laea(0.0, 0.0),
+            10_000.0,
+            [0.0, 0.0],
+            n_cols,
+            n_rows,
+        )
+        .unwrap()
     }
 
     #[test]
@@ -375,7 +432,11 @@ mod tests {
         // ends at x = 75 km (column 7), y unchanged; path = columns 1..=7.
         let g = grid(10, 1);
         let v = field(&g, |_, _| [3.0, 0.0]);
-        let p = TrajectoryParams { horizon_years: 20.0, step_years: 1.0, corridor_quantile: 0.9 };
+        let p = TrajectoryParams {
+            horizon_years: 20.0,
+            step_years: 1.0,
+            corridor_quantile: 0.9,
+        };
         let t = trace(&g, &v, 1, &p).unwrap();
         assert!((t.end_xy[0] - 75_000.0).abs() < 1e-6 && (t.end_xy[1] - 5_000.0).abs() < 1e-9);
         assert!((t.travelled_km - 60.0).abs() < 1e-9);
@@ -400,7 +461,11 @@ mod tests {
         // columns 2–5 are corridors; column 0 (no entries) is a source.
         let g = grid(6, 1);
         let v = field(&g, |_, _| [10.0, 0.0]);
-        let p = TrajectoryParams { horizon_years: 2.2, step_years: 1.0, corridor_quantile: 0.9 };
+        let p = TrajectoryParams {
+            horizon_years: 2.2,
+            step_years: 1.0,
+            corridor_quantile: 0.9,
+        };
         let set = trace_all(&g, &v, &p).unwrap();
         let (counts, classes) = classify_flow(&g, &set, &p).unwrap();
         assert_eq!(counts.entries, vec![0, 1, 2, 2, 2, 2]);
@@ -408,7 +473,10 @@ mod tests {
         assert_eq!(counts.exits, vec![1, 2, 2, 2, 2, 2]);
         assert_eq!(counts.visits, vec![1, 2, 3, 3, 3, 3]);
         use FlowClass::*;
-        assert_eq!(classes, vec![Source, Other, Corridor, Corridor, Corridor, Corridor]);
+        assert_eq!(
+            classes,
+            vec![Source, Other, Corridor, Corridor, Corridor, Corridor]
+        );
     }
 
     #[test]
@@ -421,7 +489,10 @@ mod tests {
             std::cmp::Ordering::Greater => [0.0, -4.0],
             std::cmp::Ordering::Equal => [0.0, 0.0],
         });
-        let p = TrajectoryParams { horizon_years: 10.0, ..Default::default() };
+        let p = TrajectoryParams {
+            horizon_years: 10.0,
+            ..Default::default()
+        };
         let set = trace_all(&g, &v, &p).unwrap();
         let (counts, classes) = classify_flow(&g, &set, &p).unwrap();
         assert_eq!(counts.ends, vec![0, 0, 5, 0, 0]);
@@ -442,10 +513,16 @@ mod tests {
     fn rejects_bad_parameters() {
         let g = grid(2, 1);
         let v = field(&g, |_, _| [1.0, 0.0]);
-        let bad = TrajectoryParams { step_years: 0.0, ..Default::default() };
+        let bad = TrajectoryParams {
+            step_years: 0.0,
+            ..Default::default()
+        };
         assert!(trace(&g, &v, 0, &bad).is_err());
         assert!(trace(&g, &v, 7, &TrajectoryParams::default()).is_err());
-        let bad = TrajectoryParams { corridor_quantile: 1.5, ..Default::default() };
+        let bad = TrajectoryParams {
+            corridor_quantile: 1.5,
+            ..Default::default()
+        };
         assert!(trace_all(&g, &v, &bad).is_err());
     }
 }

@@ -27,7 +27,9 @@ pub struct VelocityParams {
 
 impl Default for VelocityParams {
     fn default() -> Self {
-        VelocityParams { min_gradient_c_per_km: 0.0005 }
+        VelocityParams {
+            min_gradient_c_per_km: 0.0005,
+        }
     }
 }
 
@@ -122,7 +124,7 @@ pub fn ground_bearing_deg(
     dir: [f64; 2],
 ) -> Result<f64, ClimateError> {
     let len = dir[0].hypot(dir[1]);
-    if !(len > 0.0) || !len.is_finite() {
+    if !len.is_finite() || len <= 0.0 {
         return Err(ClimateError::Invalid(format!(
             "a bearing needs a non-zero, finite direction (got [{}, {}])",
             dir[0], dir[1]
@@ -189,7 +191,11 @@ pub fn climate_velocity(
         });
     }
     for (k, layer) in temperature.iter().enumerate() {
-        check_dense(&format!("temperature of year {}", years[k]), layer, grid.len())?;
+        check_dense(
+            &format!("temperature of year {}", years[k]),
+            layer,
+            grid.len(),
+        )?;
     }
     let t: Vec<f64> = years.iter().map(|&y| y as f64).collect();
     let (trend, mean): (Vec<f64>, Vec<f64>) = (0..grid.len())
@@ -280,7 +286,10 @@ mod tests {
         for (id, v) in grad.iter().enumerate() {
             if f[id].is_finite() {
                 let v = v.unwrap();
-                assert!((v[0] - 0.01).abs() < 1e-12 && (v[1] + 0.02).abs() < 1e-12, "{id}: {v:?}");
+                assert!(
+                    (v[0] - 0.01).abs() < 1e-12 && (v[1] + 0.02).abs() < 1e-12,
+                    "{id}: {v:?}"
+                );
             } else {
                 assert!(v.is_none());
             }
@@ -340,7 +349,9 @@ mod tests {
         assert!(climate_velocity(&g, &[2050, 2030], &ok, &p).is_err());
         assert!(climate_velocity(&g, &[2030, 2050, 2070], &ok, &p).is_err());
         assert!(climate_velocity(&g, &[2030, 2050], &[vec![0.0; 9], vec![0.0; 8]], &p).is_err());
-        let bad = VelocityParams { min_gradient_c_per_km: 0.0 };
+        let bad = VelocityParams {
+            min_gradient_c_per_km: 0.0,
+        };
         assert!(climate_velocity(&g, &[2030, 2050], &ok, &bad).is_err());
     }
 

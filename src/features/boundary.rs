@@ -21,7 +21,7 @@ pub enum Decay {
 impl Decay {
     /// Weight (0–1) at distance `d_km` for a band of `band_km` (0 beyond the band).
     pub fn weight(self, d_km: f64, band_km: f64) -> f64 {
-        if !(d_km <= band_km) {
+        if d_km.is_nan() || d_km > band_km {
             return 0.0;
         }
         match self {
@@ -69,11 +69,15 @@ pub fn boundary_from_lines(
     for line in &lines.0 {
         let mut xy: Vec<[f64; 2]> = Vec::new();
         for w in line.0.windows(2) {
-            let steps =
-                ((w[1].x - w[0].x).abs().max((w[1].y - w[0].y).abs()) / 0.05).ceil().max(1.0);
+            let steps = ((w[1].x - w[0].x).abs().max((w[1].y - w[0].y).abs()) / 0.05)
+                .ceil()
+                .max(1.0);
             for k in 0..steps as usize {
                 let t = k as f64 / steps;
-                xy.push(projector.to_xy(w[0].x + t * (w[1].x - w[0].x), w[0].y + t * (w[1].y - w[0].y))?);
+                xy.push(projector.to_xy(
+                    w[0].x + t * (w[1].x - w[0].x),
+                    w[0].y + t * (w[1].y - w[0].y),
+                )?);
             }
         }
         if let Some(last) = line.0.last() {
@@ -115,7 +119,13 @@ pub fn boundary_from_edges(
     band_km: f64,
 ) -> Result<Vec<(u32, f64)>, ClimateError> {
     crate::climate::check_dense("axis positions", axis_km, grid.len())?;
-    check_range("boundary band_km", band_km, -f64::MIN_POSITIVE, f64::INFINITY, false)?;
+    check_range(
+        "boundary band_km",
+        band_km,
+        -f64::MIN_POSITIVE,
+        f64::INFINITY,
+        false,
+    )?;
     let mut edges: Vec<f64> = edges_km.iter().copied().filter(|e| e.is_finite()).collect();
     edges.sort_by(f64::total_cmp);
     Ok((0..grid.len())
@@ -139,8 +149,14 @@ mod tests {
 
     fn strip() -> Grid {
         // Five 10 km cells centred at x = −20, −10, 0, 10, 20 km on a LAEA at (0°, 0°).
-        Grid::full_rectangle(Crs::auto_laea(0.0, 0.0), 10_000.0, [-25_000.0, -5_000.0], 5, 1)
-            .unwrap()
+        Grid::full_rectangle(
+            Crs::auto_laea(0.0, 0.0),
+            10_000.0,
+            [-25_000.0, -5_000.0],
+            5,
+            1,
+        )
+        .unwrap()
     }
 
     #[test]
@@ -157,7 +173,8 @@ mod tests {
             assert_eq!(*c, wc);
             assert!((a - wa).abs() < 1e-6, "{c}: {a}");
         }
-        let e = boundary_from_lines(&g, &lines, 15.0, Decay::Exponential { scale_km: 10.0 }).unwrap();
+        let e =
+            boundary_from_lines(&g, &lines, 15.0, Decay::Exponential { scale_km: 10.0 }).unwrap();
         assert!((e[0].1 - 100.0 * (-1.0f64).exp()).abs() < 1e-6);
         assert!((e[1].1 - 100.0).abs() < 1e-6);
         assert!(boundary_from_lines(&g, &lines, 0.0, Decay::Linear).is_err());

@@ -16,15 +16,24 @@ pub struct CorridorDensity {
     pub total: Vec<(u32, f64)>,
 }
 
+/// One species' habitat at both ends of the period, sparse lists sorted by cell id.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HabitatEnds<'a> {
+    /// Habitat in the first year (trajectories start here).
+    pub first: &'a [(u32, f64)],
+    /// Habitat in the last year (trajectories must end here).
+    pub last: &'a [(u32, f64)],
+}
+
 /// Corridor density: for each species, the trajectories (from [`crate::climate::trace_all`])
 /// that start in a cell whose first-year habitat is above `threshold` and end in the sea in a
 /// cell whose last-year habitat is above `threshold`; each such trajectory adds 1 to every
 /// cell it visits (once per cell). Trajectories that leave the sea link nothing and are left
-/// out. `species[s] = (first-year habitat, last-year habitat)`, sparse lists.
+/// out.
 pub fn corridor_density(
     grid: &Grid,
     set: &TrajectorySet,
-    species: &[(&[(u32, f64)], &[(u32, f64)])],
+    species: &[HabitatEnds<'_>],
     threshold: f64,
 ) -> Result<CorridorDensity, ClimateError> {
     let n = grid.len();
@@ -35,23 +44,25 @@ pub fn corridor_density(
             got: set.by_start.len(),
         });
     }
-    for (s, (first, last)) in species.iter().enumerate() {
-        check_sparse(&format!("first-year habitat of species {s}"), first, n)?;
-        check_sparse(&format!("last-year habitat of species {s}"), last, n)?;
+    for (s, h) in species.iter().enumerate() {
+        check_sparse(&format!("first-year habitat of species {s}"), h.first, n)?;
+        check_sparse(&format!("last-year habitat of species {s}"), h.last, n)?;
     }
     let per_species: Vec<Vec<(u32, f64)>> = species
         .par_iter()
-        .map(|(first, last)| {
+        .map(|h| {
             let mut future = vec![false; n];
-            for &(c, a) in last.iter() {
+            for &(c, a) in h.last {
                 future[c as usize] = a > threshold;
             }
             let mut count = vec![0u32; n];
-            for &(c, a) in first.iter() {
+            for &(c, a) in h.first {
                 if a <= threshold {
                     continue;
                 }
-                let Some(k) = set.starting_in(c) else { continue };
+                let Some(k) = set.starting_in(c) else {
+                    continue;
+                };
                 let Some(end) = set.end_cell(k) else { continue };
                 if !future[end as usize] {
                     continue;
@@ -63,7 +74,10 @@ pub fn corridor_density(
                     count[cell as usize] += 1;
                 }
             }
-            (0..n).filter(|&i| count[i] > 0).map(|i| (i as u32, count[i] as f64)).collect()
+            (0..n)
+                .filter(|&i| count[i] > 0)
+                .map(|i| (i as u32, count[i] as f64))
+                .collect()
         })
         .collect();
     let total = weighted_sparse_sum(n, per_species.iter().map(|l| (&l[..], 1.0)));
@@ -85,8 +99,7 @@ mod tests {
         // Species B: now 2 and 4, later 4 and 5. From 2 → ends 4: +1 on 2, 3, 4.
         //   From 4 → leaves the sea: nothing.
         // Total: 0:1, 1:1, 2:2, 3:1, 4:1.
-        let g = Grid::full_rectangle(Crs::auto_laea(0.0, 0.0), 10_000.0, [0.0, 0.0], 6, 1)
-            .unwrap();
+        let g = Grid::full_rectangle(Crs::auto_laea(0.0, 0.0), 10_000.0, [0.0, 0.0], 6, 1).unwrap();
         let v = Velocity {
             trend_c_per_yr: vec![0.0; 6],
             gradient_xy: vec![[0.0, 0.0]; 6],
@@ -95,16 +108,46 @@ mod tests {
             bearing_deg: vec![90.0; 6],
             grid_velocity: vec![[10.0, 0.0]; 6],
         };
-        let p = TrajectoryParams { horizon_years: 2.2, ..Default::default() };
+        let p = TrajectoryParams {
+            horizon_years: 2.2,
+            ..Default::default()
+        };
         let set = trace_all(&g, &v, &p).unwrap();
         let a_now = [(0u32, 0.5), (1, 0.5), (5, 0.0)];
         let a_later = [(2u32, 0.5), (4, 0.5)];
         let b_now = [(2u32, 1.0), (4, 1.0)];
         let b_later = [(4u32, 1.0), (5, 1.0)];
-        let d = corridor_density(&g, &set, &[(&a_now, &a_later), (&b_now, &b_later)], 0.0).unwrap();
+        let d = corridor_density(
+            &g,
+            &set,
+            &[
+                HabitatEnds {
+                    first: &a_now,
+                    last: &a_later,
+                },
+                HabitatEnds {
+                    first: &b_now,
+                    last: &b_later,
+                },
+            ],
+            0.0,
+        )
+        .unwrap();
         assert_eq!(d.per_species[0], vec![(0, 1.0), (1, 1.0), (2, 1.0)]);
         assert_eq!(d.per_species[1], vec![(2, 1.0), (3, 1.0), (4, 1.0)]);
-        assert_eq!(d.total, vec![(0, 1.0), (1, 1.0), (2, 2.0), (3, 1.0), (4, 1.0)]);
-        assert!(corridor_density(&g, &set, &[(&b_later, &[(9, 1.0)])], 0.0).is_err());
+        assert_eq!(
+            d.total,
+            vec![(0, 1.0), (1, 1.0), (2, 2.0), (3, 1.0), (4, 1.0)]
+        );
+        assert!(corridor_density(
+            &g,
+            &set,
+            &[HabitatEnds {
+                first: &b_later,
+                last: &[(9, 1.0)]
+            }],
+            0.0
+        )
+        .is_err());
     }
 }

@@ -31,7 +31,13 @@ pub fn interpolate_points(
     radius_km: f64,
     method: Interpolation,
 ) -> Result<Vec<(u32, f64)>, ClimateError> {
-    check_range("distinctness radius_km", radius_km, 0.0, f64::INFINITY, false)?;
+    check_range(
+        "distinctness radius_km",
+        radius_km,
+        0.0,
+        f64::INFINITY,
+        false,
+    )?;
     if let Interpolation::InverseDistance { power } = method {
         check_range("distinctness power", power, 0.0, f64::INFINITY, false)?;
     }
@@ -66,13 +72,18 @@ pub fn interpolate_points(
             near.sort_by_key(|&(i, _)| i);
             let value = match method {
                 Interpolation::Nearest => {
-                    let best = near.iter().min_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
+                    let best = near
+                        .iter()
+                        .min_by(|a, b| a.1.total_cmp(&b.1).then(a.0.cmp(&b.0)));
                     // `near` is not empty here.
                     points[best.expect("non-empty").0].1
                 }
                 Interpolation::InverseDistance { power } => {
-                    let on: Vec<f64> =
-                        near.iter().filter(|p| p.1 == 0.0).map(|p| points[p.0].1).collect();
+                    let on: Vec<f64> = near
+                        .iter()
+                        .filter(|p| p.1 == 0.0)
+                        .map(|p| points[p.0].1)
+                        .collect();
                     if !on.is_empty() {
                         on.iter().sum::<f64>() / on.len() as f64
                     } else {
@@ -99,19 +110,28 @@ pub fn interpolate_points(
 pub fn nei_gst(freqs: &[Vec<f64>]) -> Result<f64, ClimateError> {
     let n_alleles = freqs.first().map_or(0, |f| f.len());
     if freqs.is_empty() || n_alleles == 0 {
-        return Err(ClimateError::Invalid("G_ST needs at least one population with allele frequencies".into()));
+        return Err(ClimateError::Invalid(
+            "G_ST needs at least one population with allele frequencies".into(),
+        ));
     }
     for (p, row) in freqs.iter().enumerate() {
         let sum: f64 = row.iter().sum();
         // 1e-6 allows frequencies rounded to six decimals.
-        if row.len() != n_alleles || row.iter().any(|f| !(0.0..=1.0).contains(f)) || (sum - 1.0).abs() > 1e-6 {
+        if row.len() != n_alleles
+            || row.iter().any(|f| !(0.0..=1.0).contains(f))
+            || (sum - 1.0).abs() > 1e-6
+        {
             return Err(ClimateError::Invalid(format!(
                 "allele frequencies of population {p} must be {n_alleles} numbers in [0, 1] summing to 1 (got {row:?})"
             )));
         }
     }
     let n = freqs.len() as f64;
-    let hs = freqs.iter().map(|row| 1.0 - row.iter().map(|f| f * f).sum::<f64>()).sum::<f64>() / n;
+    let hs = freqs
+        .iter()
+        .map(|row| 1.0 - row.iter().map(|f| f * f).sum::<f64>())
+        .sum::<f64>()
+        / n;
     let ht = 1.0
         - (0..n_alleles)
             .map(|a| {
@@ -142,13 +162,21 @@ mod tests {
             (p.to_lonlat(5_000.0, 9_000.0).unwrap(), 20.0),
             (p.to_lonlat(35_000.0, 5_000.0).unwrap(), 99.0),
         ];
-        let idw = interpolate_points(&g, &pts, 10.0, Interpolation::InverseDistance { power: 2.0 }).unwrap();
+        let idw = interpolate_points(
+            &g,
+            &pts,
+            10.0,
+            Interpolation::InverseDistance { power: 2.0 },
+        )
+        .unwrap();
         assert_eq!(idw.len(), 1);
         assert!((idw[0].1 - 13.6).abs() < 1e-6, "{idw:?}");
         let near = interpolate_points(&g, &pts, 10.0, Interpolation::Nearest).unwrap();
         assert!((near[0].1 - 10.0).abs() < 1e-12);
         // Radius 2 km holds no point → nothing.
-        assert!(interpolate_points(&g, &pts, 2.0, Interpolation::Nearest).unwrap().is_empty());
+        assert!(interpolate_points(&g, &pts, 2.0, Interpolation::Nearest)
+            .unwrap()
+            .is_empty());
         assert!(interpolate_points(&g, &pts, 0.0, Interpolation::Nearest).is_err());
     }
 

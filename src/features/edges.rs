@@ -63,7 +63,11 @@ pub struct AxisPositions {
 pub fn axis_positions(grid: &Grid, axis: &PolewardAxis) -> Result<AxisPositions, ClimateError> {
     match axis {
         PolewardAxis::Meridian => Ok(AxisPositions {
-            km: grid.cells.iter().map(|c| meridian_distance_km(c.lonlat[1])).collect(),
+            km: grid
+                .cells
+                .iter()
+                .map(|c| meridian_distance_km(c.lonlat[1]))
+                .collect(),
             northward: 1.0,
         }),
         PolewardAxis::Polyline(line) => polyline_positions(grid, line),
@@ -81,11 +85,15 @@ fn polyline_positions(grid: &Grid, line: &LineString<f64>) -> Result<AxisPositio
     let projector = Projector::new(&grid.crs)?;
     let mut xy: Vec<[f64; 2]> = Vec::new();
     for w in pts.windows(2) {
-        let steps = ((w[1].x - w[0].x).abs().max((w[1].y - w[0].y).abs()) / 0.05).ceil().max(1.0);
+        let steps = ((w[1].x - w[0].x).abs().max((w[1].y - w[0].y).abs()) / 0.05)
+            .ceil()
+            .max(1.0);
         for k in 0..steps as usize {
             let t = k as f64 / steps;
-            let p = projector
-                .to_xy(w[0].x + t * (w[1].x - w[0].x), w[0].y + t * (w[1].y - w[0].y))?;
+            let p = projector.to_xy(
+                w[0].x + t * (w[1].x - w[0].x),
+                w[0].y + t * (w[1].y - w[0].y),
+            )?;
             xy.push(p);
         }
     }
@@ -94,11 +102,11 @@ fn polyline_positions(grid: &Grid, line: &LineString<f64>) -> Result<AxisPositio
     // Cumulative length at each vertex (km).
     let mut along = vec![0.0; xy.len()];
     for i in 1..xy.len() {
-        along[i] = along[i - 1]
-            + (xy[i][0] - xy[i - 1][0]).hypot(xy[i][1] - xy[i - 1][1]) / 1000.0;
+        along[i] = along[i - 1] + (xy[i][0] - xy[i - 1][0]).hypot(xy[i][1] - xy[i - 1][1]) / 1000.0;
     }
-    let segments: Vec<GeomWithData<Line<[f64; 2]>, usize>> =
-        (0..xy.len() - 1).map(|i| GeomWithData::new(Line::new(xy[i], xy[i + 1]), i)).collect();
+    let segments: Vec<GeomWithData<Line<[f64; 2]>, usize>> = (0..xy.len() - 1)
+        .map(|i| GeomWithData::new(Line::new(xy[i], xy[i + 1]), i))
+        .collect();
     let tree = RTree::bulk_load(segments);
     let km = grid
         .cells
@@ -106,7 +114,9 @@ fn polyline_positions(grid: &Grid, line: &LineString<f64>) -> Result<AxisPositio
         .map(|cell| {
             let p = cell.centre;
             // The tree holds at least one segment, so a nearest one exists.
-            let seg = tree.nearest_neighbor(&p).expect("a non-empty tree has a nearest segment");
+            let seg = tree
+                .nearest_neighbor(&p)
+                .expect("a non-empty tree has a nearest segment");
             let i = seg.data;
             let (a, b) = (xy[i], xy[i + 1]);
             let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
@@ -120,7 +130,16 @@ fn polyline_positions(grid: &Grid, line: &LineString<f64>) -> Result<AxisPositio
         })
         .collect();
     let dlat = last.y - pts[0].y;
-    Ok(AxisPositions { km, northward: if dlat > 0.0 { 1.0 } else if dlat < 0.0 { -1.0 } else { 0.0 } })
+    Ok(AxisPositions {
+        km,
+        northward: if dlat > 0.0 {
+            1.0
+        } else if dlat < 0.0 {
+            -1.0
+        } else {
+            0.0
+        },
+    })
 }
 
 /// Hemisphere of a species: +1 (north) or −1 (south), from the sign of its habitat-weighted
@@ -137,8 +156,10 @@ pub fn hemisphere(grid: &Grid, habitat_by_year: &[&[(u32, f64)]]) -> Result<f64,
             }
         }
     }
-    if !(sw > 0.0) {
-        return Err(ClimateError::Invalid("range edges need some habitat in at least one year".into()));
+    if sw <= 0.0 {
+        return Err(ClimateError::Invalid(
+            "range edges need some habitat in at least one year".into(),
+        ));
     }
     let mean = swl / sw;
     if mean > 0.0 {
@@ -165,7 +186,11 @@ pub struct EdgeParams {
 
 impl Default for EdgeParams {
     fn default() -> Self {
-        EdgeParams { leading_quantile: 0.95, trailing_quantile: 0.05, band_km: 100.0 }
+        EdgeParams {
+            leading_quantile: 0.95,
+            trailing_quantile: 0.05,
+            band_km: 100.0,
+        }
     }
 }
 
@@ -218,7 +243,12 @@ pub fn habitat_near_edge(
         .copied()
         .filter(|&(c, a)| {
             let p = poleward_km[c as usize];
-            a > 0.0 && if poleward { p >= edge_km - band_km } else { p <= edge_km + band_km }
+            a > 0.0
+                && if poleward {
+                    p >= edge_km - band_km
+                } else {
+                    p <= edge_km + band_km
+                }
         })
         .collect()
 }
@@ -249,8 +279,20 @@ pub fn range_edges(
         });
     }
     check_range("leading_quantile", params.leading_quantile, 0.0, 1.0, true)?;
-    check_range("trailing_quantile", params.trailing_quantile, 0.0, 1.0, true)?;
-    check_range("band_km", params.band_km, -f64::MIN_POSITIVE, f64::INFINITY, false)?;
+    check_range(
+        "trailing_quantile",
+        params.trailing_quantile,
+        0.0,
+        1.0,
+        true,
+    )?;
+    check_range(
+        "band_km",
+        params.band_km,
+        -f64::MIN_POSITIVE,
+        f64::INFINITY,
+        false,
+    )?;
     if params.trailing_quantile >= params.leading_quantile {
         return Err(ClimateError::Invalid(format!(
             "the trailing-edge quantile ({}) must be below the leading-edge quantile ({})",
@@ -276,8 +318,10 @@ pub fn range_edges(
         trailing_amounts: Vec::new(),
     };
     for list in habitat_by_year {
-        let pairs: Vec<(f64, f64)> =
-            list.iter().map(|&(c, a)| (poleward_km[c as usize], a)).collect();
+        let pairs: Vec<(f64, f64)> = list
+            .iter()
+            .map(|&(c, a)| (poleward_km[c as usize], a))
+            .collect();
         let lead = weighted_quantile(&pairs, params.leading_quantile);
         let trail = weighted_quantile(&pairs, params.trailing_quantile);
         out.leading_amounts.push(match lead {
@@ -308,8 +352,14 @@ mod tests {
         let g = Geodesic::wgs84();
         for lat in [1.0, 10.0, 33.3, 45.0, 60.0, 89.0] {
             let s: f64 = g.inverse(0.0, 0.0, lat, 0.0);
-            assert!((meridian_distance_km(lat) - s / 1000.0).abs() < 1e-6, "{lat}");
-            assert!((meridian_distance_km(-lat) + s / 1000.0).abs() < 1e-6, "{lat}");
+            assert!(
+                (meridian_distance_km(lat) - s / 1000.0).abs() < 1e-6,
+                "{lat}"
+            );
+            assert!(
+                (meridian_distance_km(-lat) + s / 1000.0).abs() < 1e-6,
+                "{lat}"
+            );
         }
         // WGS84 quarter meridian 10 001 965.729 m (from memory).
         assert!((meridian_distance_km(90.0) - 10_001.965_729).abs() < 1e-5);
@@ -325,7 +375,10 @@ mod tests {
         let a = axis_positions(&g, &PolewardAxis::Polyline(line)).unwrap();
         let y0 = Projector::new(&crs).unwrap().to_xy(0.0, -1.0).unwrap()[1];
         for (id, c) in g.cells.iter().enumerate() {
-            assert!((a.km[id] - (c.centre[1] - y0) / 1000.0).abs() < 1e-6, "{id}");
+            assert!(
+                (a.km[id] - (c.centre[1] - y0) / 1000.0).abs() < 1e-6,
+                "{id}"
+            );
         }
         assert_eq!(a.northward, 1.0);
         let flat = LineString::from(vec![(0.0, 0.0), (1.0, 0.0)]);
@@ -341,11 +394,17 @@ mod tests {
         // 0.125 (0 km), 0.375 (10 km), 0.75 (20 km). q = 0.95 → 20 km (clamped);
         // q = 0.05 → 0 km. Leading zone with band 5 km: positions ≥ 15 → cell 2 only;
         // trailing zone: positions ≤ 5 → cell 0.
-        let g = Grid::full_rectangle(Crs::auto_laea(0.0, 50.0), 10_000.0, [0.0, 0.0], 1, 5)
-            .unwrap();
-        let axis = AxisPositions { km: vec![0.0, 10.0, 20.0, 30.0, 40.0], northward: 1.0 };
+        let g =
+            Grid::full_rectangle(Crs::auto_laea(0.0, 50.0), 10_000.0, [0.0, 0.0], 1, 5).unwrap();
+        let axis = AxisPositions {
+            km: vec![0.0, 10.0, 20.0, 30.0, 40.0],
+            northward: 1.0,
+        };
         let h = [(0u32, 1.0), (1, 1.0), (2, 2.0)];
-        let p = EdgeParams { band_km: 5.0, ..Default::default() };
+        let p = EdgeParams {
+            band_km: 5.0,
+            ..Default::default()
+        };
         let e = range_edges(&g, &axis, &[2030], &[&h], &p).unwrap();
         assert_eq!(e.poleward_sign, 1.0);
         assert_eq!(e.leading_km, vec![Some(20.0)]);
@@ -359,7 +418,10 @@ mod tests {
     fn shift_by_hand() {
         // Closed form: positions 100, 130, 160 km in 2030, 2040, 2050 → 3 km/yr = 30 km/decade;
         // a missing year is skipped.
-        let s = edge_shift_km_per_decade(&[2030, 2040, 2045, 2050], &[Some(100.0), Some(130.0), None, Some(160.0)]);
+        let s = edge_shift_km_per_decade(
+            &[2030, 2040, 2045, 2050],
+            &[Some(100.0), Some(130.0), None, Some(160.0)],
+        );
         assert!((s.unwrap() - 30.0).abs() < 1e-9);
     }
 }

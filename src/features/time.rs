@@ -25,7 +25,10 @@ pub fn time_weights(years: &[i32], discount_rate: Option<f64>) -> Result<Vec<f64
                     expected: "a yearly rate above −1, e.g. 0.03 for 3 % per year".into(),
                 });
             }
-            years.iter().map(|&t| (1.0 + r).powf(-((t - years[0]) as f64))).collect()
+            years
+                .iter()
+                .map(|&t| (1.0 + r).powf(-((t - years[0]) as f64)))
+                .collect()
         }
     };
     let sum: f64 = raw.iter().sum();
@@ -50,7 +53,10 @@ pub fn time_weighted_amounts(
     for (k, list) in per_year.iter().enumerate() {
         check_sparse(&format!("amounts of year index {k}"), list, n_cells)?;
     }
-    Ok(weighted_sparse_sum(n_cells, per_year.iter().copied().zip(weights.iter().copied())))
+    Ok(weighted_sparse_sum(
+        n_cells,
+        per_year.iter().copied().zip(weights.iter().copied()),
+    ))
 }
 
 #[cfg(test)]
