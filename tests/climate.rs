@@ -277,3 +277,87 @@ fn edges_of_a_band_moving_poleward_in_both_hemispheres() {
     assert!((results[0].1 - results[1].1).abs() < 1e-6);
     assert!((results[0].2 - results[1].2).abs() < 1e-6);
 }
+
+#[test]
+fn a_latitude_field_sampled_on_the_grid_matches_the_meridian_degree() {
+    // SST = 20 − 0.5·(lat − 45) sampled at each cell's latitude on a LAEA grid centred at
+    // 45°N: the grid gradient at the centre is 0.5 °C per meridian degree. Reference: the
+    // length of 1° of meridian around 45°N from geographiclib-rs (Karney 2013), ≈ 111.13 km
+    // (not the 111.325 km of the spherical scheme in CHECK-VALUES). Tolerance 0.01 %: the
+    // central difference over ±10 km and the LAEA scale next to its centre.
+    let grid = square_grid(0.0, 45.0, 5);
+    let temps: Vec<Vec<f64>> = YEARS
+        .iter()
+        .map(|&yr| {
+            grid.cells
+                .iter()
+                .map(|c| 20.0 - 0.5 * (c.lonlat[1] - 45.0) + 0.02 * (yr - 2030) as f64)
+                .collect()
+        })
+        .collect();
+    let v = climate_velocity(&grid, &YEARS, &temps, &VelocityParams::default()).unwrap();
+    let degree_km: f64 = Geodesic::wgs84().inverse(44.5, 0.0, 45.5, 0.0);
+    let degree_km = degree_km / 1000.0;
+    let want = 0.5 / degree_km;
+    assert!(
+        (v.gradient_c_per_km[12] / want - 1.0).abs() < 1e-4,
+        "{} vs {want}",
+        v.gradient_c_per_km[12]
+    );
+    assert!((v.speed_km_per_yr[12] / (0.02 * degree_km / 0.5) - 1.0).abs() < 1e-4);
+    assert!(angle_diff(v.bearing_deg[12], 0.0) < 1e-6);
+}
+
+#[test]
+fn results_do_not_depend_on_the_thread_count() {
+    // Determinism (common practice, no source): the same inputs on 1 and 3 threads give
+    // bit-identical velocity, trajectories and flow classes.
+    let grid = square_grid(5.0, 55.0, 30);
+    let temps: Vec<Vec<f64>> = YEARS
+        .iter()
+        .map(|&yr| {
+            grid.cells
+                .iter()
+                .map(|c| {
+                    let (x, y) = (c.centre[0] / 1e5, c.centre[1] / 1e5);
+                    15.0 + (x * 1.3).sin()
+                        + (y * 0.7).cos() * x
+                        + 0.02 * (yr - 2030) as f64 * (1.0 + 0.3 * y)
+                })
+                .collect()
+        })
+        .collect();
+    let run = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| {
+            let v = climate_velocity(&grid, &YEARS, &temps, &VelocityParams::default()).unwrap();
+            let p = TrajectoryParams::default();
+            let set = trace_all(&grid, &v, &p).unwrap();
+            let (counts, classes) = classify_flow(&grid, &set, &p).unwrap();
+            (v, set, counts, classes)
+        })
+    };
+    let (a, b) = (run(1), run(3));
+    assert_eq!(a.0.speed_km_per_yr, b.0.speed_km_per_yr);
+    assert_eq!(
+        a.0.bearing_deg
+            .iter()
+            .map(|x| x.to_bits())
+            .collect::<Vec<_>>(),
+        b.0.bearing_deg
+            .iter()
+            .map(|x| x.to_bits())
+            .collect::<Vec<_>>()
+    );
+    assert_eq!(a.1, b.1);
+    assert_eq!(a.2, b.2);
+    assert_eq!(a.3, b.3);
+    // The field is not trivial: more than one flow class appears.
+    let mut kinds = a.3.clone();
+    kinds.sort();
+    kinds.dedup();
+    assert!(kinds.len() > 1, "{kinds:?}");
+}

@@ -327,9 +327,12 @@ pub fn classify_flow(
         exits: vec![0; n],
         ends: vec![0; n],
     };
-    // Integer sums: the same totals whatever the split between threads.
+    // Integer sums: the same totals whatever the split between threads. Each split holds
+    // four dense count vectors, so splits are kept to about four per thread.
+    let min_len = (set.len() / (4 * rayon::current_num_threads())).max(1);
     let counts = (0..set.len())
         .into_par_iter()
+        .with_min_len(min_len)
         .fold(zero, |mut acc, k| {
             let path = set.path(k);
             let mut seen: Vec<u32> = path.to_vec();
