@@ -89,3 +89,5 @@ pub struct FeatureTable {
     /// The features.
     pub features: Vec<Feature>,
 }
+
+pub mod habitat;

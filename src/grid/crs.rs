@@ -61,9 +61,17 @@ impl Projector {
         let (x, y) = self
             .forward
             .convert((lon, lat))
-            .map_err(|e| GridError::Transform { lon, lat, reason: e.to_string() })?;
+            .map_err(|e| GridError::Transform {
+                lon,
+                lat,
+                reason: e.to_string(),
+            })?;
         if !(x.is_finite() && y.is_finite()) {
-            return Err(GridError::Transform { lon, lat, reason: "result is not finite".into() });
+            return Err(GridError::Transform {
+                lon,
+                lat,
+                reason: "result is not finite".into(),
+            });
         }
         Ok([x, y])
     }
@@ -73,9 +81,17 @@ impl Projector {
         let (lon, lat) = self
             .inverse
             .convert((x, y))
-            .map_err(|e| GridError::Transform { lon: x, lat: y, reason: e.to_string() })?;
+            .map_err(|e| GridError::Transform {
+                lon: x,
+                lat: y,
+                reason: e.to_string(),
+            })?;
         if !(lon.is_finite() && lat.is_finite()) {
-            return Err(GridError::Transform { lon: x, lat: y, reason: "result is not finite".into() });
+            return Err(GridError::Transform {
+                lon: x,
+                lat: y,
+                reason: "result is not finite".into(),
+            });
         }
         Ok([lon, lat])
     }
@@ -112,10 +128,17 @@ fn map_multipolygon(
         for w in ls.0.windows(2) {
             let (a, b) = (w[0], w[1]);
             let len = ((b.x - a.x).powi(2) + (b.y - a.y).powi(2)).sqrt();
-            let steps = if max_step > 0.0 { (len / max_step).ceil().max(1.0) as usize } else { 1 };
+            let steps = if max_step > 0.0 {
+                (len / max_step).ceil().max(1.0) as usize
+            } else {
+                1
+            };
             for k in 0..steps {
                 let t = k as f64 / steps as f64;
-                let p = f(Coord { x: a.x + t * (b.x - a.x), y: a.y + t * (b.y - a.y) })?;
+                let p = f(Coord {
+                    x: a.x + t * (b.x - a.x),
+                    y: a.y + t * (b.y - a.y),
+                })?;
                 out.push(Coord { x: p[0], y: p[1] });
             }
         }
@@ -128,7 +151,11 @@ fn map_multipolygon(
     let mut polys = Vec::with_capacity(polygon.0.len());
     for p in &polygon.0 {
         let exterior = ring(p.exterior())?;
-        let interiors = p.interiors().iter().map(ring).collect::<Result<Vec<_>, _>>()?;
+        let interiors = p
+            .interiors()
+            .iter()
+            .map(ring)
+            .collect::<Result<Vec<_>, _>>()?;
         polys.push(Polygon::new(exterior, interiors));
     }
     Ok(MultiPolygon(polys))

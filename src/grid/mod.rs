@@ -198,7 +198,10 @@ impl Grid {
 
     /// Edge of a cell not shared with any other cell: coast or region boundary. Units: km.
     pub fn boundary_km(&self, id: u32) -> f64 {
-        let shared: f64 = self.neighbours[id as usize].iter().map(|n| n.shared_km).sum();
+        let shared: f64 = self.neighbours[id as usize]
+            .iter()
+            .map(|n| n.shared_km)
+            .sum();
         (self.cells[id as usize].perimeter_km - shared).max(0.0)
     }
 
@@ -246,20 +249,42 @@ impl Grid {
                 let list = &mut neighbours[id(col, row) as usize];
                 // Ascending id order: south, west, east, north.
                 if row > 0 {
-                    list.push(Neighbour { cell: id(col, row - 1), shared_km: side_km });
+                    list.push(Neighbour {
+                        cell: id(col, row - 1),
+                        shared_km: side_km,
+                    });
                 }
                 if col > 0 {
-                    list.push(Neighbour { cell: id(col - 1, row), shared_km: side_km });
+                    list.push(Neighbour {
+                        cell: id(col - 1, row),
+                        shared_km: side_km,
+                    });
                 }
                 if col + 1 < n_cols {
-                    list.push(Neighbour { cell: id(col + 1, row), shared_km: side_km });
+                    list.push(Neighbour {
+                        cell: id(col + 1, row),
+                        shared_km: side_km,
+                    });
                 }
                 if row + 1 < n_rows {
-                    list.push(Neighbour { cell: id(col, row + 1), shared_km: side_km });
+                    list.push(Neighbour {
+                        cell: id(col, row + 1),
+                        shared_km: side_km,
+                    });
                 }
             }
         }
         let sea_area_km2 = cells.len() as f64 * side_km * side_km;
-        Ok(Grid { crs, cell_size_m, origin, n_cols, n_rows, cells, neighbours, lattice, sea_area_km2 })
+        Ok(Grid {
+            crs,
+            cell_size_m,
+            origin,
+            n_cols,
+            n_rows,
+            cells,
+            neighbours,
+            lattice,
+            sea_area_km2,
+        })
     }
 }
