@@ -95,3 +95,5 @@ pub struct FeatureTable {
     /// The features.
     pub features: Vec<Feature>,
 }
+
+pub mod habitat;
