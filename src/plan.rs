@@ -13,6 +13,8 @@ use std::collections::BTreeMap;
 use std::fmt;
 use std::path::{Path, PathBuf};
 
+pub mod climate;
+
 /// One problem found in a plan: where (`key`) and what was expected.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PlanIssue {
@@ -195,11 +197,13 @@ pub struct Plan {
     pub robustness: Robustness,
     /// Solver controls.
     pub solver: SolverPlan,
+    /// Derived climate-adaptation features (`[climate]`), if asked for.
+    pub climate: Option<climate::ClimatePlan>,
 }
 
 // ---------------------------------------------------------------- raw, as written in TOML
 
-type Extra = BTreeMap<String, toml::Value>;
+pub(crate) type Extra = BTreeMap<String, toml::Value>;
 
 #[derive(Deserialize, Default)]
 struct RawPlan {
@@ -218,6 +222,7 @@ struct RawPlan {
     budget: Option<RawBudget>,
     optimise: Option<RawOptimise>,
     solver: Option<RawSolver>,
+    climate: Option<climate::RawClimate>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -240,8 +245,9 @@ struct RawScenarios {
     extra: Extra,
 }
 
+/// A layer source as written in TOML (shared by every section that reads a layer).
 #[derive(Deserialize, Clone)]
-struct RawLayer {
+pub(crate) struct RawLayer {
     path: Option<String>,
     column: Option<String>,
     attribute: Option<String>,
@@ -307,20 +313,20 @@ struct RawSolver {
 // ---------------------------------------------------------------- validation
 
 /// Collects problems while validating.
-struct Checker {
+pub(crate) struct Checker {
     dir: PathBuf,
     issues: Vec<PlanIssue>,
 }
 
 impl Checker {
-    fn push(&mut self, key: impl Into<String>, message: impl Into<String>) {
+    pub(crate) fn push(&mut self, key: impl Into<String>, message: impl Into<String>) {
         self.issues.push(PlanIssue {
             key: key.into(),
             message: message.into(),
         });
     }
 
-    fn unknown(&mut self, table: &str, extra: &Extra, known: &[&str]) {
+    pub(crate) fn unknown(&mut self, table: &str, extra: &Extra, known: &[&str]) {
         for key in extra.keys() {
             let full = if table.is_empty() {
                 key.clone()
@@ -334,7 +340,7 @@ impl Checker {
         }
     }
 
-    fn resolve(&self, rel: &str) -> PathBuf {
+    pub(crate) fn resolve(&self, rel: &str) -> PathBuf {
         let p = Path::new(rel);
         if p.is_absolute() {
             p.to_path_buf()
@@ -343,7 +349,7 @@ impl Checker {
         }
     }
 
-    fn existing_file(&mut self, key: &str, rel: &str) -> PathBuf {
+    pub(crate) fn existing_file(&mut self, key: &str, rel: &str) -> PathBuf {
         let path = self.resolve(rel);
         if !path.is_file() {
             self.push(
@@ -357,7 +363,7 @@ impl Checker {
         path
     }
 
-    fn share(&mut self, key: &str, v: f64, allow_zero: bool) -> f64 {
+    pub(crate) fn share(&mut self, key: &str, v: f64, allow_zero: bool) -> f64 {
         let ok = v.is_finite() && v <= 1.0 && (v > 0.0 || (allow_zero && v == 0.0));
         if !ok {
             self.push(
@@ -371,7 +377,7 @@ impl Checker {
         v
     }
 
-    fn layer(
+    pub(crate) fn layer(
         &mut self,
         key: &str,
         raw: &RawLayer,
@@ -492,7 +498,7 @@ impl Checker {
     }
 
     /// Every file a template expands to must exist.
-    fn template_files(
+    pub(crate) fn template_files(
         &mut self,
         key: &str,
         t: &LayerTemplate,
@@ -603,6 +609,7 @@ impl Plan {
                 "budget",
                 "optimise",
                 "solver",
+                "climate",
             ],
         );
         let name = raw.name.clone().unwrap_or_else(|| {
@@ -969,6 +976,11 @@ impl Plan {
             }
         };
 
+        let species_names: Vec<&str> = species.iter().map(|s| s.name.as_str()).collect();
+        let climate = raw.climate.as_ref().and_then(|c| {
+            climate::validate(c, &mut ck, &climate::Context { scenarios: &scenarios, years: &years, species: &species_names, has_temperature: temperature.is_some() })
+        });
+
         if !ck.issues.is_empty() {
             return Err(fail(ck.issues));
         }
@@ -992,6 +1004,7 @@ impl Plan {
             objective,
             robustness,
             solver,
+            climate,
         })
     }
 
