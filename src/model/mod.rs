@@ -1,5 +1,20 @@
-//! Model stage: a solver-neutral statement of the reserve-selection problem. It knows no
-//! solver; `solve::*` translate it.
+//! Model stage: a solver-neutral statement of the reserve-selection problem. It takes the
+//! features, costs and rules and returns a [`Problem`]; it knows no solver (`solve::*` translate
+//! it). [`evaluate`] recomputes everything about a network from raw amounts and is the
+//! independent check every solver and test relies on.
+//!
+//! The formulations (minimum set, maximum coverage, robustness rules, edge penalty, max gap) are
+//! documented in [`robust`], [`compact`] and [`spacing`].
+
+pub mod compact;
+pub mod evaluate;
+pub mod robust;
+pub mod spacing;
+mod validate;
+
+pub use evaluate::{evaluate, Evaluation, ScenarioResult};
+pub use spacing::Spacing;
+pub use validate::ModelError;
 
 /// Whether a cell may, must or must not be chosen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -100,11 +115,28 @@ pub struct Problem {
     pub budget: Budget,
     /// Optional compactness term.
     pub edge_penalty: Option<EdgePenalty>,
+    /// Optional stepping-stone rule along the shift axis (max gap).
+    pub spacing: Option<Spacing>,
+    /// Best benefit each scenario can reach on its own under the same budget and rules (Bₛ*),
+    /// needed by [`Robustness::LeastRegret`] and to report regret. `None`: the solver computes it
+    /// first (see `solve::with_scenario_best`). Units: weighted targets (see [`robust`]).
+    pub scenario_best: Option<Vec<f64>>,
 }
 
 impl Problem {
     /// Number of cells (decision variables before auxiliaries).
     pub fn n_cells(&self) -> usize {
         self.cost.len()
+    }
+
+    /// Indices of the features that count in scenario `s`: its own features plus the
+    /// scenario-free ones (`scenario: None`), in feature order.
+    pub fn scenario_features(&self, s: usize) -> Vec<usize> {
+        self.features
+            .iter()
+            .enumerate()
+            .filter(|(_, f)| f.scenario.is_none_or(|fs| fs == s))
+            .map(|(k, _)| k)
+            .collect()
     }
 }

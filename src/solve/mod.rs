@@ -1,5 +1,20 @@
 //! Solve stage: takes a [`crate::model::Problem`] and returns a [`Solution`]: the chosen cells
 //! and an honest account of how good they are (status, objective, bound, gap).
+//!
+//! [`ilp::Highs`] is the exact solver (HiGHS through good_lp); [`greedy::Greedy`] and
+//! [`anneal::Anneal`] are heuristic baselines on the same [`crate::model::Problem`] and
+//! objective; [`brute::BruteForce`] enumerates small problems for checks. All of them report
+//! the objective in the problem's own sense, as [`crate::model::evaluate`] recomputes it.
+
+use crate::model::robust::{effective_robustness, scenario_problem};
+use crate::model::{evaluate, ModelError, Problem, Robustness, ScenarioResult};
+
+pub mod anneal;
+pub mod brute;
+pub mod diagnose;
+pub mod greedy;
+pub mod ilp;
+mod state;
 
 /// How a solve ended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -70,6 +85,10 @@ pub struct Solution {
     pub seconds: f64,
     /// Which solver produced it (`highs`, `greedy`, `anneal`, ...).
     pub solver: String,
+    /// Per-scenario benefit, regret and targets met of `selected` (via `model::evaluate`).
+    pub scenarios: Vec<ScenarioResult>,
+    /// Bₛ* used for regret (least-regret problems; otherwise whatever the problem carried).
+    pub scenario_best: Option<Vec<f64>>,
 }
 
 /// One feature that cannot reach its target.
@@ -91,9 +110,69 @@ pub enum SolveError {
     /// Targets cannot all be met; each shortfall says by how much and why.
     #[error("targets cannot all be met: {}", .0.iter().map(|s| format!("{} needs {:.3} but at most {:.3} is achievable ({})", s.feature, s.target, s.achievable, s.binding)).collect::<Vec<_>>().join("; "))]
     Infeasible(Vec<Shortfall>),
+    /// Each target can be met on its own, but not all of them together under the budget,
+    /// the max gap and the required/excluded cells.
+    #[error("no network meets every rule at once: {0}")]
+    JointlyInfeasible(String),
+    /// The problem is malformed or combines rules that make no sense together.
+    #[error("invalid problem: {0}")]
+    Model(#[from] ModelError),
+    /// A heuristic found no network that meets every rule (the problem may still be feasible).
+    #[error("{0}")]
+    NoNetworkFound(String),
     /// The solver itself failed.
     #[error("solver failed: {0}")]
     Solver(String),
+}
+
+/// The problem with Bₛ* filled in when its rule needs it (least-regret): each scenario alone
+/// is solved with `solver` (see [`crate::model::robust::scenario_problem`]) and its objective
+/// taken as Bₛ*. Other problems, or ones that already carry Bₛ*, are returned unchanged.
+///
+/// With a heuristic or a time-limited solve Bₛ* is the best benefit found, not proven, so the
+/// regrets are measured against the best known networks.
+pub fn with_scenario_best(
+    problem: &Problem,
+    solver: &dyn Solver,
+    options: &SolveOptions,
+) -> Result<Problem, SolveError> {
+    problem.validate()?;
+    let mut out = problem.clone();
+    if effective_robustness(problem) == Robustness::LeastRegret && problem.scenario_best.is_none()
+    {
+        let mut best = Vec::with_capacity(problem.scenarios.len());
+        for s in 0..problem.scenarios.len() {
+            best.push(solver.solve(&scenario_problem(problem, s), options)?.objective);
+        }
+        out.scenario_best = Some(best);
+    }
+    Ok(out)
+}
+
+/// Assemble a [`Solution`], taking the per-scenario report from `model::evaluate`.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn make_solution(
+    problem: &Problem,
+    selected: Vec<bool>,
+    status: SolveStatus,
+    objective: f64,
+    bound: f64,
+    gap: f64,
+    started: std::time::Instant,
+    solver: &str,
+) -> Solution {
+    let scenarios = evaluate(problem, &selected).scenarios;
+    Solution {
+        selected,
+        status,
+        objective,
+        bound,
+        gap,
+        seconds: started.elapsed().as_secs_f64(),
+        solver: solver.to_string(),
+        scenarios,
+        scenario_best: problem.scenario_best.clone(),
+    }
 }
 
 /// Anything that can solve a [`crate::model::Problem`].

@@ -1,0 +1,256 @@
+//! Recompute everything about a network from raw amounts: cost, area, holdings, targets met,
+//! per-scenario benefit and regret, exposed edge, max gap and the objective in the problem's
+//! own sense. It shares no code with any solver's formulation, which makes it the independent
+//! check for solvers and tests.
+
+use super::compact::exposed_edge_km;
+use super::robust::{combine, is_minimisation};
+use super::spacing::{check_gaps, GapReport};
+use super::{CellStatus, Objective, Problem};
+
+/// Relative slack when comparing a holding with its target or a use with its budget: sums of
+/// the same amounts taken in another order (as a solver does) differ by a few ulps, so an exact
+/// comparison would reject networks that meet a target exactly.
+pub const TOLERANCE: f64 = 1e-9;
+
+/// `value` ≥ `limit` up to [`TOLERANCE`].
+pub fn at_least(value: f64, limit: f64) -> bool {
+    value >= limit - TOLERANCE * limit.abs().max(1.0)
+}
+
+/// How one scenario fares.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScenarioResult {
+    /// Scenario name.
+    pub name: String,
+    /// Bₛ = Σ wₖ·min(heldₖ/Tₖ, 1) over the scenario's features. Units: weighted targets
+    /// (see [`super::robust`]).
+    pub benefit: f64,
+    /// The largest Bₛ can be (Σ wₖ). Units: weighted targets.
+    pub benefit_max: f64,
+    /// Bₛ*, the best benefit the scenario alone allows, when known.
+    pub best: Option<f64>,
+    /// Bₛ* − Bₛ when Bₛ* is known. Units: weighted targets.
+    pub regret: Option<f64>,
+    /// Targets of this scenario's features that are met.
+    pub targets_met: usize,
+    /// Number of this scenario's features.
+    pub targets: usize,
+}
+
+/// Everything about a network, recomputed from raw amounts.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Evaluation {
+    /// Total cost.
+    pub cost: f64,
+    /// Total sea area. Units: km².
+    pub area_km2: f64,
+    /// Amount of each feature held (feature order).
+    pub held: Vec<f64>,
+    /// Whether each feature's target is met (up to [`TOLERANCE`]).
+    pub met: Vec<bool>,
+    /// Number of features whose target is met.
+    pub targets_met: usize,
+    /// Per-scenario benefit, regret and targets met.
+    pub scenarios: Vec<ScenarioResult>,
+    /// Exposed reserve edge (0 without an edge penalty). Units: km.
+    pub exposed_edge_km: f64,
+    /// The max-gap check, when the problem has a spacing rule.
+    pub gap: Option<GapReport>,
+    /// Cost and area within the budget.
+    pub within_budget: bool,
+    /// Every required cell chosen and no excluded cell chosen.
+    pub status_respected: bool,
+    /// All hard rules hold: cell status, budget, max gap and, for min-cost, every target.
+    pub feasible: bool,
+    /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
+    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown).
+    pub objective: f64,
+}
+
+/// Recompute everything about the network `selected` (one flag per cell).
+///
+/// Panics if `selected.len() != problem.n_cells()` (a caller bug, not user input).
+pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
+    assert_eq!(selected.len(), problem.n_cells(), "one flag per cell");
+    let sum_selected = |v: &[f64]| -> f64 {
+        v.iter()
+            .zip(selected)
+            .filter(|(_, s)| **s)
+            .map(|(x, _)| *x)
+            .sum()
+    };
+    let cost = sum_selected(&problem.cost);
+    let area_km2 = sum_selected(&problem.area_km2);
+    let held: Vec<f64> = problem
+        .features
+        .iter()
+        .map(|f| {
+            f.amounts
+                .iter()
+                .filter(|(c, _)| selected[*c as usize])
+                .map(|(_, a)| *a)
+                .sum()
+        })
+        .collect();
+    let met: Vec<bool> = problem
+        .features
+        .iter()
+        .zip(&held)
+        .map(|(f, h)| at_least(*h, f.target))
+        .collect();
+    let credit = |k: usize| -> f64 {
+        let f = &problem.features[k];
+        if f.target > 0.0 {
+            f.weight * (held[k] / f.target).min(1.0)
+        } else {
+            f.weight
+        }
+    };
+    let best = problem.scenario_best.as_deref();
+    let scenarios: Vec<ScenarioResult> = problem
+        .scenarios
+        .iter()
+        .enumerate()
+        .map(|(s, sc)| {
+            let ks = problem.scenario_features(s);
+            let benefit: f64 = ks.iter().map(|&k| credit(k)).sum();
+            let b_star = best.map(|b| b[s]);
+            ScenarioResult {
+                name: sc.name.clone(),
+                benefit,
+                benefit_max: ks.iter().map(|&k| problem.features[k].weight).sum(),
+                best: b_star,
+                regret: b_star.map(|b| b - benefit),
+                targets_met: ks.iter().filter(|&&k| met[k]).count(),
+                targets: ks.len(),
+            }
+        })
+        .collect();
+    let exposed = problem
+        .edge_penalty
+        .as_ref()
+        .map_or(0.0, |p| exposed_edge_km(p, selected));
+    let penalty = problem.edge_penalty.as_ref().map_or(0.0, |p| p.weight) * exposed;
+    let gap = problem
+        .spacing
+        .as_ref()
+        .map(|sp| check_gaps(sp, &problem.status, selected));
+    let within_budget = problem.budget.max_cost.is_none_or(|m| at_least(m, cost))
+        && problem.budget.max_area_km2.is_none_or(|m| at_least(m, area_km2));
+    let status_respected = problem.status.iter().zip(selected).all(|(st, s)| match st {
+        CellStatus::Free => true,
+        CellStatus::Required => *s,
+        CellStatus::Excluded => !*s,
+    });
+    let all_met = met.iter().all(|m| *m);
+    let feasible = status_respected
+        && within_budget
+        && gap.as_ref().is_none_or(|g| g.met)
+        && (problem.objective == Objective::MaxBenefit || all_met);
+    let objective = match problem.objective {
+        Objective::MinCost => cost + penalty,
+        Objective::MaxBenefit => {
+            let benefits: Vec<f64> = scenarios.iter().map(|s| s.benefit).collect();
+            let combined = combine(problem, &benefits, best);
+            if is_minimisation(problem) {
+                combined + penalty
+            } else {
+                combined - penalty
+            }
+        }
+    };
+    Evaluation {
+        cost,
+        area_km2,
+        targets_met: met.iter().filter(|m| **m).count(),
+        held,
+        met,
+        scenarios,
+        exposed_edge_km: exposed,
+        gap,
+        within_budget,
+        status_respected,
+        feasible,
+        objective,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::compact::unit_grid_penalty;
+    use crate::model::{Budget, ModelFeature, Robustness, Scenario};
+
+    /// CHECK-VALUES.md tiny instance: 2×3 unit grid, costs [3,2,4,2,3,1], A target 2, B 1, C 1.
+    fn tiny() -> Problem {
+        let f = |name: &str, v: [f64; 6], t: f64| ModelFeature {
+            name: name.into(),
+            scenario: None,
+            amounts: v
+                .iter()
+                .enumerate()
+                .filter(|(_, a)| **a > 0.0)
+                .map(|(i, a)| (i as u32, *a))
+                .collect(),
+            target: t,
+            weight: 1.0,
+        };
+        Problem {
+            cost: vec![3.0, 2.0, 4.0, 2.0, 3.0, 1.0],
+            area_km2: vec![1.0; 6],
+            status: vec![CellStatus::Free; 6],
+            scenarios: vec![Scenario {
+                name: "s1".into(),
+                weight: 1.0,
+            }],
+            features: vec![
+                f("A", [1., 0., 1., 0., 1., 0.], 2.0),
+                f("B", [0., 1., 1., 0., 0., 1.], 1.0),
+                f("C", [0., 0., 0., 1., 1., 0.], 1.0),
+            ],
+            objective: Objective::MinCost,
+            robustness: Robustness::EveryScenario,
+            budget: Budget::default(),
+            edge_penalty: None,
+            spacing: None,
+            scenario_best: None,
+        }
+    }
+
+    fn sel(ids: &[usize]) -> Vec<bool> {
+        (0..6).map(|i| ids.contains(&i)).collect()
+    }
+
+    #[test]
+    fn tiny_instance_values() {
+        // CHECK-VALUES.md (computed by enumeration): {2,4} and {0,4,5} both cost 7 and meet
+        // every target; with edge weight 1 their objectives are 7 + 8 = 15 and 7 + 10 = 17.
+        let mut p = tiny();
+        let e = evaluate(&p, &sel(&[2, 4]));
+        assert_eq!(e.cost, 7.0);
+        assert!(e.feasible);
+        assert_eq!(e.held, vec![2.0, 1.0, 1.0]);
+        let e = evaluate(&p, &sel(&[0, 4, 5]));
+        assert_eq!((e.cost, e.feasible), (7.0, true));
+        // {2} alone: A held 1 < 2 → infeasible for min-cost; benefit 0.5 + 1 + 0 = 1.5.
+        let e = evaluate(&p, &sel(&[2]));
+        assert!(!e.feasible);
+        assert_eq!(e.targets_met, 1);
+        assert_eq!(e.scenarios[0].benefit, 1.5);
+        p.edge_penalty = Some(unit_grid_penalty(2, 3, 1.0));
+        assert_eq!(evaluate(&p, &sel(&[2, 4])).objective, 15.0);
+        assert_eq!(evaluate(&p, &sel(&[0, 4, 5])).objective, 17.0);
+        // Max-benefit with a cost budget of 5: {2} (cost 4) benefit 1.5 minus perimeter 4 →
+        // −2.5; {0,4} exceeds nothing (cost 6 > 5) → outside the budget.
+        p.objective = Objective::MaxBenefit;
+        p.budget.max_cost = Some(5.0);
+        let e = evaluate(&p, &sel(&[2]));
+        assert_eq!(e.objective, 1.5 - 4.0);
+        assert!(e.feasible);
+        assert!(!evaluate(&p, &sel(&[0, 4])).within_budget);
+        // Required/excluded respected.
+        p.status[5] = CellStatus::Required;
+        assert!(!evaluate(&p, &sel(&[2])).status_respected);
+    }
+}

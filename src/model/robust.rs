@@ -1,0 +1,227 @@
+//! Objectives and robustness rules: how targets and scenarios become one number to optimise.
+//!
+//! # Benefit
+//! A feature k with target Tₖ > 0 and weight wₖ earns wₖ·min(heldₖ/Tₖ, 1): its credit is capped
+//! at its target (maximum coverage, Church & ReVelle 1974, Papers of the Regional Science
+//! Association 32:101). A feature with Tₖ = 0 is met by any network and always earns wₖ.
+//! The benefit of scenario s is Bₛ(x) = Σ_{k ∈ Fₛ} wₖ·min(heldₖ/Tₖ, 1), where Fₛ holds the
+//! features of scenario s plus the scenario-free ones. Units: weighted targets met (with unit
+//! weights, Bₛ counts targets met, fractions for partly met ones); it is not normalised, so
+//! Bₛ ranges over [0, Σ_{k∈Fₛ} wₖ].
+//!
+//! Linear form: yₖ ∈ [0, Tₖ] continuous, yₖ ≤ Σᵢ aᵢₖxᵢ, Bₛ = Σ_{k∈Fₛ} (wₖ/Tₖ)·yₖ + constₛ.
+//!
+//! # Objectives
+//! * `MinCost` (minimum set): min Σᵢ cᵢxᵢ s.t. Σᵢ aᵢₖxᵢ ≥ Tₖ for every feature of every
+//!   scenario (and the budget, if one is set, as a hard limit).
+//! * `MaxBenefit` (maximum coverage): within the budget (Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max
+//!   area) maximise the rule's combination of the Bₛ below.
+//!
+//! # Robustness rules with `MaxBenefit`
+//! * `EveryScenario`: maximise Σₛ Bₛ (every scenario counts in full).
+//! * `WorstCase` (max-min): maximise t with t ≤ Bₛ for all s.
+//! * `Expected`: maximise Σₛ πₛBₛ with πₛ = weightₛ / Σ weight.
+//! * `LeastRegret` (min-max regret, Kouvelis & Yu 1997, Robust Discrete Optimization and Its
+//!   Applications; from memory): first solve each scenario alone for its best benefit Bₛ*
+//!   (same budget, required/excluded cells and max gap; no edge penalty: Bₛ* is a benefit),
+//!   then minimise r with r ≥ Bₛ* − Bₛ(x) for all s. The objective is a minimisation.
+//!
+//! Edge penalty: see [`super::compact`] (added to minimisations, subtracted from maximisations).
+//!
+//! # Robustness rules with `MinCost`
+//! Every target is hard in every scenario. `WorstCase` reduces to that exactly (the worst
+//! scenario meets all targets ⇔ every scenario does). `LeastRegret` on cost also reduces to it:
+//! with cost regret C(x) − Cₛ* and the same x required to meet every scenario, the largest
+//! regret is C(x) − minₛ Cₛ*, minimised by the every-scenario optimum; the objective reported
+//! is then the cost (plus edge penalty). `Expected` is rejected (see [`super::Problem::validate`]).
+
+use super::{Objective, Problem, Robustness};
+
+/// The rule actually applied: `MinCost` turns `WorstCase`/`LeastRegret` into `EveryScenario`
+/// (module doc); `MaxBenefit` keeps the rule.
+pub fn effective_robustness(problem: &Problem) -> Robustness {
+    match problem.objective {
+        Objective::MinCost => Robustness::EveryScenario,
+        Objective::MaxBenefit => problem.robustness,
+    }
+}
+
+/// Whether the objective is minimised (min-cost, least-regret) or maximised.
+pub fn is_minimisation(problem: &Problem) -> bool {
+    problem.objective == Objective::MinCost
+        || effective_robustness(problem) == Robustness::LeastRegret
+}
+
+/// Bₛ as a linear function of the capped holdings yₖ: Bₛ = Σ coef·y_k + constant.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScenarioBenefit {
+    /// `(feature, wₖ/Tₖ)` for features of the scenario with Tₖ > 0.
+    pub terms: Vec<(usize, f64)>,
+    /// Σ wₖ over features of the scenario with Tₖ = 0 (always met).
+    pub constant: f64,
+    /// Σ wₖ over all features of the scenario: the largest Bₛ can be.
+    pub max: f64,
+}
+
+/// Linear benefit of every scenario (module doc).
+pub fn scenario_benefits(problem: &Problem) -> Vec<ScenarioBenefit> {
+    (0..problem.scenarios.len())
+        .map(|s| {
+            let mut b = ScenarioBenefit {
+                terms: Vec::new(),
+                constant: 0.0,
+                max: 0.0,
+            };
+            for k in problem.scenario_features(s) {
+                let f = &problem.features[k];
+                b.max += f.weight;
+                if f.target > 0.0 {
+                    b.terms.push((k, f.weight / f.target));
+                } else {
+                    b.constant += f.weight;
+                }
+            }
+            b
+        })
+        .collect()
+}
+
+/// Normalised scenario weights πₛ for the `expected` rule (uniform if all weights are zero).
+pub fn scenario_shares(problem: &Problem) -> Vec<f64> {
+    let total: f64 = problem.scenarios.iter().map(|s| s.weight).sum();
+    let n = problem.scenarios.len() as f64;
+    problem
+        .scenarios
+        .iter()
+        .map(|s| if total > 0.0 { s.weight / total } else { 1.0 / n })
+        .collect()
+}
+
+/// Combine per-scenario benefits by the rule of a `MaxBenefit` problem (before any edge
+/// penalty): Σ Bₛ, min Bₛ, Σ πₛBₛ, or max (Bₛ* − Bₛ). Returns NaN for least-regret when `best`
+/// is unknown.
+pub fn combine(problem: &Problem, benefits: &[f64], best: Option<&[f64]>) -> f64 {
+    match effective_robustness(problem) {
+        Robustness::EveryScenario => benefits.iter().sum(),
+        Robustness::WorstCase => benefits.iter().copied().fold(f64::INFINITY, f64::min),
+        Robustness::Expected => scenario_shares(problem)
+            .iter()
+            .zip(benefits)
+            .map(|(p, b)| p * b)
+            .sum(),
+        Robustness::LeastRegret => match best {
+            Some(best) => best
+                .iter()
+                .zip(benefits)
+                .map(|(bs, b)| bs - b)
+                .fold(f64::NEG_INFINITY, f64::max),
+            None => f64::NAN,
+        },
+    }
+}
+
+/// The problem of scenario `s` alone, whose optimum is Bₛ* for least-regret: max-benefit
+/// under the same budget, cell status and max gap, scenario `s`'s features only (scenario-free
+/// ones kept), one scenario, no edge penalty.
+pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
+    let features = problem
+        .scenario_features(s)
+        .into_iter()
+        .map(|k| {
+            let mut f = problem.features[k].clone();
+            f.scenario = f.scenario.map(|_| 0);
+            f
+        })
+        .collect();
+    let mut sc = problem.scenarios[s].clone();
+    sc.weight = 1.0;
+    Problem {
+        cost: problem.cost.clone(),
+        area_km2: problem.area_km2.clone(),
+        status: problem.status.clone(),
+        scenarios: vec![sc],
+        features,
+        objective: Objective::MaxBenefit,
+        robustness: Robustness::EveryScenario,
+        budget: problem.budget,
+        edge_penalty: None,
+        spacing: problem.spacing.clone(),
+        scenario_best: None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Budget, CellStatus, ModelFeature, Scenario};
+
+    fn two_scenarios() -> Problem {
+        let f = |name: &str, s: Option<usize>, amounts: Vec<(u32, f64)>, target, weight| {
+            ModelFeature {
+                name: name.into(),
+                scenario: s,
+                amounts,
+                target,
+                weight,
+            }
+        };
+        Problem {
+            cost: vec![1.0, 1.0],
+            area_km2: vec![1.0, 1.0],
+            status: vec![CellStatus::Free; 2],
+            scenarios: vec![
+                Scenario {
+                    name: "a".into(),
+                    weight: 3.0,
+                },
+                Scenario {
+                    name: "b".into(),
+                    weight: 1.0,
+                },
+            ],
+            features: vec![
+                f("p", Some(0), vec![(0, 2.0)], 4.0, 1.0),
+                f("q", Some(1), vec![(1, 1.0)], 1.0, 2.0),
+                f("r", None, vec![(0, 1.0)], 0.0, 0.5),
+            ],
+            objective: Objective::MaxBenefit,
+            robustness: Robustness::Expected,
+            budget: Budget::default(),
+            edge_penalty: None,
+            spacing: None,
+            scenario_best: None,
+        }
+    }
+
+    #[test]
+    fn benefit_coefficients_and_combination() {
+        // Hand computation: scenario a holds p (w 1, T 4) and the target-free r (w 0.5):
+        // terms [(0, 1/4)], constant 0.5, max 1.5. Scenario b: q (w 2, T 1) and r.
+        let p = two_scenarios();
+        let b = scenario_benefits(&p);
+        assert_eq!(b[0].terms, vec![(0, 0.25)]);
+        assert_eq!(b[0].constant, 0.5);
+        assert_eq!(b[0].max, 1.5);
+        assert_eq!(b[1].terms, vec![(1, 2.0)]);
+        assert_eq!(b[1].max, 2.5);
+        // π = (3/4, 1/4); benefits (1, 2) → expected 0.75 + 0.5 = 1.25.
+        assert_eq!(scenario_shares(&p), vec![0.75, 0.25]);
+        assert_eq!(combine(&p, &[1.0, 2.0], None), 1.25);
+        let mut q = p.clone();
+        q.robustness = Robustness::WorstCase;
+        assert_eq!(combine(&q, &[1.0, 2.0], None), 1.0);
+        q.robustness = Robustness::LeastRegret;
+        // Regrets (1.5 − 1, 2.5 − 2) = (0.5, 0.5) → 0.5; (1.5−1.5, 2.5−1) → 1.5.
+        assert_eq!(combine(&q, &[1.0, 2.0], Some(&[1.5, 2.5])), 0.5);
+        assert_eq!(combine(&q, &[1.5, 1.0], Some(&[1.5, 2.5])), 1.5);
+        assert!(combine(&q, &[1.0, 2.0], None).is_nan());
+        q.objective = Objective::MinCost;
+        assert_eq!(effective_robustness(&q), Robustness::EveryScenario);
+        let sub = scenario_problem(&p, 1);
+        assert_eq!(
+            sub.features.iter().map(|f| f.name.as_str()).collect::<Vec<_>>(),
+            vec!["q", "r"]
+        );
+        assert_eq!(sub.features[0].scenario, Some(0));
+    }
+}

@@ -1,0 +1,227 @@
+//! Checks that a [`Problem`] is well formed before any solver sees it, so solvers can index
+//! without bounds surprises and every bad value is reported with where it is.
+
+use super::{CellStatus, Objective, Problem, Robustness};
+
+/// A problem that cannot be solved as stated. Each message names the field, the index and the
+/// expected form.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ModelError {
+    /// A per-cell or per-scenario vector has the wrong length.
+    #[error("`{field}` has {found} entries but the problem has {expected} {what}")]
+    Length {
+        /// Field name, e.g. `area_km2`.
+        field: &'static str,
+        /// Entries found.
+        found: usize,
+        /// Entries expected.
+        expected: usize,
+        /// What the entries count (`cells`, `scenarios`).
+        what: &'static str,
+    },
+    /// A value is negative, NaN or infinite where a finite non-negative number is needed.
+    #[error("`{field}` entry {index} is {value}; expected {expected}")]
+    Value {
+        /// Field name, e.g. `cost`.
+        field: String,
+        /// Entry index (cell, feature, scenario or pair).
+        index: usize,
+        /// The offending value.
+        value: f64,
+        /// The expected form.
+        expected: &'static str,
+    },
+    /// A feature or pair refers to a cell or scenario that does not exist, or is out of order.
+    #[error("{0}")]
+    Reference(String),
+    /// Objective and robustness rule do not combine.
+    #[error("{0}")]
+    Combination(String),
+    /// The required cells alone exceed the budget.
+    #[error("the required cells alone use {used:.3} of {what} but the budget allows {limit:.3}")]
+    RequiredOverBudget {
+        /// `cost` or `area (km²)`.
+        what: &'static str,
+        /// Used by the required cells.
+        used: f64,
+        /// The budget limit.
+        limit: f64,
+    },
+}
+
+fn check_nonneg(field: &str, index: usize, value: f64) -> Result<(), ModelError> {
+    if value.is_finite() && value >= 0.0 {
+        Ok(())
+    } else {
+        Err(ModelError::Value {
+            field: field.to_string(),
+            index,
+            value,
+            expected: "a finite number >= 0",
+        })
+    }
+}
+
+fn check_len(
+    field: &'static str,
+    found: usize,
+    expected: usize,
+    what: &'static str,
+) -> Result<(), ModelError> {
+    if found == expected {
+        Ok(())
+    } else {
+        Err(ModelError::Length {
+            field,
+            found,
+            expected,
+            what,
+        })
+    }
+}
+
+impl Problem {
+    /// Check lengths, value ranges, references and the objective × robustness combination.
+    /// Every solver calls this first.
+    ///
+    /// `MinCost` with `Expected` is rejected: with min-cost every target is a hard constraint
+    /// in every scenario, so there is no benefit to average and silently ignoring the scenario
+    /// weights would mislead (see [`super::robust`]).
+    pub fn validate(&self) -> Result<(), ModelError> {
+        let n = self.n_cells();
+        check_len("area_km2", self.area_km2.len(), n, "cells")?;
+        check_len("status", self.status.len(), n, "cells")?;
+        for (i, &c) in self.cost.iter().enumerate() {
+            check_nonneg("cost", i, c)?;
+        }
+        for (i, &a) in self.area_km2.iter().enumerate() {
+            check_nonneg("area_km2", i, a)?;
+        }
+        if self.scenarios.is_empty() {
+            return Err(ModelError::Reference(
+                "the problem has no scenario; expected at least one".into(),
+            ));
+        }
+        for (s, sc) in self.scenarios.iter().enumerate() {
+            check_nonneg("scenarios.weight", s, sc.weight)?;
+        }
+        if self.robustness == Robustness::Expected
+            && self.scenarios.iter().map(|s| s.weight).sum::<f64>() <= 0.0
+        {
+            return Err(ModelError::Combination(
+                "the `expected` rule needs scenario weights with a positive sum".into(),
+            ));
+        }
+        for (k, f) in self.features.iter().enumerate() {
+            if let Some(s) = f.scenario {
+                if s >= self.scenarios.len() {
+                    return Err(ModelError::Reference(format!(
+                        "feature {k} (`{}`) names scenario {s} but there are {} scenarios",
+                        f.name,
+                        self.scenarios.len()
+                    )));
+                }
+            }
+            check_nonneg(&format!("features[{k}].target"), k, f.target)?;
+            check_nonneg(&format!("features[{k}].weight"), k, f.weight)?;
+            let mut last: Option<u32> = None;
+            for &(c, a) in &f.amounts {
+                if c as usize >= n || last.is_some_and(|l| l >= c) {
+                    return Err(ModelError::Reference(format!(
+                        "feature {k} (`{}`): amount for cell {c} is out of range or not in \
+                         increasing cell order (expected cells 0..{n}, sorted, each once)",
+                        f.name
+                    )));
+                }
+                check_nonneg(&format!("features[{k}].amounts"), c as usize, a)?;
+                last = Some(c);
+            }
+        }
+        if let Some(m) = self.budget.max_cost {
+            check_nonneg("budget.max_cost", 0, m)?;
+        }
+        if let Some(m) = self.budget.max_area_km2 {
+            check_nonneg("budget.max_area_km2", 0, m)?;
+        }
+        if let Some(pen) = &self.edge_penalty {
+            check_nonneg("edge_penalty.weight", 0, pen.weight)?;
+            check_len(
+                "edge_penalty.exposed_if_alone_km",
+                pen.exposed_if_alone_km.len(),
+                n,
+                "cells",
+            )?;
+            for (i, &p) in pen.exposed_if_alone_km.iter().enumerate() {
+                check_nonneg("edge_penalty.exposed_if_alone_km", i, p)?;
+            }
+            for (q, &(i, j, l)) in pen.pairs.iter().enumerate() {
+                if i >= j || j as usize >= n {
+                    return Err(ModelError::Reference(format!(
+                        "edge_penalty.pairs[{q}] = ({i}, {j}); expected i < j < {n}"
+                    )));
+                }
+                check_nonneg("edge_penalty.pairs shared km", q, l)?;
+            }
+        }
+        if let Some(sp) = &self.spacing {
+            check_len("spacing.position_km", sp.position_km.len(), n, "cells")?;
+            for (i, &p) in sp.position_km.iter().enumerate() {
+                if !p.is_finite() {
+                    return Err(ModelError::Value {
+                        field: "spacing.position_km".into(),
+                        index: i,
+                        value: p,
+                        expected: "a finite position along the shift axis in km",
+                    });
+                }
+            }
+            if !(sp.max_gap_km.is_finite() && sp.max_gap_km > 0.0) {
+                return Err(ModelError::Value {
+                    field: "spacing.max_gap_km".into(),
+                    index: 0,
+                    value: sp.max_gap_km,
+                    expected: "a positive number of km, e.g. 100",
+                });
+            }
+        }
+        if let Some(best) = &self.scenario_best {
+            check_len("scenario_best", best.len(), self.scenarios.len(), "scenarios")?;
+        }
+        if self.objective == Objective::MinCost && self.robustness == Robustness::Expected {
+            return Err(ModelError::Combination(
+                "`min-cost` with `expected` is not supported: min-cost holds every target in \
+                 every scenario, so there is no benefit to average; use `every-scenario` with \
+                 min-cost, or `expected` with `max-benefit`"
+                    .into(),
+            ));
+        }
+        let required = |v: &[f64]| -> f64 {
+            v.iter()
+                .zip(&self.status)
+                .filter(|(_, s)| **s == CellStatus::Required)
+                .map(|(x, _)| *x)
+                .sum()
+        };
+        if let Some(limit) = self.budget.max_cost {
+            let used = required(&self.cost);
+            if used > limit * (1.0 + 1e-12) {
+                return Err(ModelError::RequiredOverBudget {
+                    what: "cost",
+                    used,
+                    limit,
+                });
+            }
+        }
+        if let Some(limit) = self.budget.max_area_km2 {
+            let used = required(&self.area_km2);
+            if used > limit * (1.0 + 1e-12) {
+                return Err(ModelError::RequiredOverBudget {
+                    what: "area (km²)",
+                    used,
+                    limit,
+                });
+            }
+        }
+        Ok(())
+    }
+}

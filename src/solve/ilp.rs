@@ -1,0 +1,536 @@
+//! The exact integer program, built with good_lp from the solver-neutral [`Problem`] and solved
+//! with HiGHS (optionally CBC, behind the `cbc` feature, as a second opinion in tests).
+//!
+//! # Variables
+//! * xᵢ ∈ {0, 1} per cell (required cells fixed to 1, excluded to 0);
+//! * yₖ ∈ [0, Tₖ] per feature with Tₖ > 0, max-benefit only (capped holding, [`crate::model::robust`]);
+//! * zᵢⱼ ∈ [0, 1] per neighbouring pair, with an edge penalty of positive weight
+//!   ([`crate::model::compact`]);
+//! * uₚ ∈ [0, 1] per allowed position that needs a max-gap row ([`crate::model::spacing`]);
+//! * t (worst-case benefit) or r (largest regret), free;
+//! * one column fixed to 1 that carries the objective's constant (target-free features), so the
+//!   objective, bound and gap HiGHS reports already include it.
+//!
+//! # Rows
+//! * min-cost: Σᵢ aᵢₖxᵢ ≥ Tₖ for every feature (all scenarios);
+//! * max-benefit: yₖ − Σᵢ aᵢₖxᵢ ≤ 0; worst-case: t − Bₛ(y) ≤ constₛ; least-regret:
+//!   r + Bₛ(y) ≥ Bₛ* − constₛ;
+//! * budget: Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max area;
+//! * edge penalty: zᵢⱼ − xᵢ ≤ 0, zᵢⱼ − xⱼ ≤ 0;
+//! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1.
+//!
+//! # Objective
+//! min Σ cᵢxᵢ + w·exposed (min-cost); max Σₛ Bₛ, t or Σ πₛBₛ minus w·exposed (max-benefit);
+//! min r + w·exposed (least-regret), exposed = Σ Pᵢxᵢ − 2 Σ lᵢⱼzᵢⱼ.
+
+use std::time::Instant;
+
+use good_lp::{
+    constraint, variable, Constraint, Expression, ProblemVariables, SolverModel, Variable,
+};
+use highs::{HighsModelStatus, HighsSolutionStatus};
+
+use crate::model::robust::{
+    effective_robustness, is_minimisation, scenario_benefits, scenario_shares,
+};
+use crate::model::spacing::gap_rows;
+use crate::model::{evaluate, CellStatus, Objective, Problem, Robustness};
+
+use super::diagnose::diagnose;
+use super::greedy::greedy_network;
+use super::{
+    make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+};
+
+/// What one column of the formulation stands for (for warm starts and reading results).
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Col {
+    X(usize),
+    Y(usize),
+    Z(usize),
+    U(usize),
+    Worst,
+    Regret,
+    One,
+}
+
+/// The integer program of a problem, solver-neutral within good_lp.
+pub struct Formulation {
+    vars: ProblemVariables,
+    objective: Expression,
+    minimise: bool,
+    constraints: Vec<Constraint>,
+    cols: Vec<Col>,
+}
+
+/// Build the integer program of `problem` (module doc). `problem` must be validated and carry
+/// Bₛ* when its rule is least-regret.
+pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
+    let n = problem.n_cells();
+    let mut vars = ProblemVariables::new();
+    let mut cols = Vec::new();
+    let mut add = |vars: &mut ProblemVariables, def: good_lp::VariableDefinition, col: Col| -> Variable {
+        cols.push(col);
+        vars.add(def)
+    };
+    let x: Vec<Variable> = (0..n)
+        .map(|i| {
+            let def = match problem.status[i] {
+                CellStatus::Free => variable().binary(),
+                CellStatus::Required => variable().integer().min(1.0).max(1.0),
+                CellStatus::Excluded => variable().integer().min(0.0).max(0.0),
+            };
+            add(&mut vars, def, Col::X(i))
+        })
+        .collect();
+    let minimise = is_minimisation(problem);
+    let mut objective = Expression::with_capacity(n);
+    let mut constraints = Vec::new();
+    let mut constant = 0.0;
+
+    let amount_expr = |k: usize| -> Expression {
+        let f = &problem.features[k];
+        let mut e = Expression::with_capacity(f.amounts.len());
+        for &(c, a) in &f.amounts {
+            e.add_mul(a, x[c as usize]);
+        }
+        e
+    };
+
+    match problem.objective {
+        Objective::MinCost => {
+            for (i, &xi) in x.iter().enumerate() {
+                objective.add_mul(problem.cost[i], xi);
+            }
+            for (k, f) in problem.features.iter().enumerate() {
+                if f.target > 0.0 {
+                    constraints.push(constraint::geq(amount_expr(k), f.target));
+                }
+            }
+        }
+        Objective::MaxBenefit => {
+            let mut y: Vec<Option<Variable>> = vec![None; problem.features.len()];
+            for (k, f) in problem.features.iter().enumerate() {
+                if f.target > 0.0 {
+                    let v = add(&mut vars, variable().min(0.0).max(f.target), Col::Y(k));
+                    constraints.push(constraint::leq(Expression::from(v) - amount_expr(k), 0.0));
+                    y[k] = Some(v);
+                }
+            }
+            let benefits = scenario_benefits(problem);
+            let benefit_expr = |s: usize| -> Expression {
+                let mut e = Expression::with_capacity(benefits[s].terms.len());
+                for &(k, coef) in &benefits[s].terms {
+                    if let Some(v) = y[k] {
+                        e.add_mul(coef, v);
+                    }
+                }
+                e
+            };
+            match effective_robustness(problem) {
+                Robustness::EveryScenario | Robustness::Expected => {
+                    let shares = if effective_robustness(problem) == Robustness::Expected {
+                        scenario_shares(problem)
+                    } else {
+                        vec![1.0; problem.scenarios.len()]
+                    };
+                    for (s, b) in benefits.iter().enumerate() {
+                        for &(k, coef) in &b.terms {
+                            if let Some(v) = y[k] {
+                                objective.add_mul(shares[s] * coef, v);
+                            }
+                        }
+                        constant += shares[s] * b.constant;
+                    }
+                }
+                Robustness::WorstCase => {
+                    let t = add(&mut vars, variable(), Col::Worst);
+                    objective.add_mul(1.0, t);
+                    for (s, b) in benefits.iter().enumerate() {
+                        constraints.push(constraint::leq(
+                            Expression::from(t) - benefit_expr(s),
+                            b.constant,
+                        ));
+                    }
+                }
+                Robustness::LeastRegret => {
+                    let best = problem.scenario_best.as_ref().ok_or_else(|| {
+                        SolveError::Solver(
+                            "least-regret needs the scenarios' best benefits first".into(),
+                        )
+                    })?;
+                    let r = add(&mut vars, variable(), Col::Regret);
+                    objective.add_mul(1.0, r);
+                    for (s, b) in benefits.iter().enumerate() {
+                        constraints.push(constraint::geq(
+                            Expression::from(r) + benefit_expr(s),
+                            best[s] - b.constant,
+                        ));
+                    }
+                }
+            }
+        }
+    }
+
+    // Edge penalty: sign +1 in minimisations, −1 in maximisations.
+    if let Some(pen) = problem.edge_penalty.as_ref().filter(|p| p.weight > 0.0) {
+        let sign = if minimise { 1.0 } else { -1.0 };
+        for (i, &xi) in x.iter().enumerate() {
+            objective.add_mul(sign * pen.weight * pen.exposed_if_alone_km[i], xi);
+        }
+        for (q, &(i, j, l)) in pen.pairs.iter().enumerate() {
+            if l <= 0.0 {
+                continue;
+            }
+            let z = add(&mut vars, variable().min(0.0).max(1.0), Col::Z(q));
+            objective.add_mul(-2.0 * sign * pen.weight * l, z);
+            constraints.push(constraint::leq(z - x[i as usize], 0.0));
+            constraints.push(constraint::leq(z - x[j as usize], 0.0));
+        }
+    }
+
+    if let Some(sp) = &problem.spacing {
+        let (rows, pos_of) = gap_rows(sp, &problem.status);
+        let npos = pos_of.iter().flatten().max().map_or(0, |m| m + 1);
+        let mut u: Vec<Option<Variable>> = vec![None; npos];
+        for row in &rows {
+            let mut e = Expression::with_capacity(row.cover.len() + 1);
+            for &c in &row.cover {
+                e.add_mul(1.0, x[c as usize]);
+            }
+            match row.trigger {
+                None => constraints.push(constraint::geq(e, 1.0)),
+                Some(q) => {
+                    let v = add(&mut vars, variable().min(0.0).max(1.0), Col::U(q));
+                    u[q] = Some(v);
+                    constraints.push(constraint::geq(e - v, 0.0));
+                }
+            }
+        }
+        for (i, q) in pos_of.iter().enumerate() {
+            if let Some(v) = q.and_then(|q| u[q]) {
+                constraints.push(constraint::leq(x[i] - v, 0.0));
+            }
+        }
+    }
+
+    if let Some(limit) = problem.budget.max_cost {
+        let mut e = Expression::with_capacity(n);
+        for (i, &xi) in x.iter().enumerate() {
+            e.add_mul(problem.cost[i], xi);
+        }
+        constraints.push(constraint::leq(e, limit));
+    }
+    if let Some(limit) = problem.budget.max_area_km2 {
+        let mut e = Expression::with_capacity(n);
+        for (i, &xi) in x.iter().enumerate() {
+            e.add_mul(problem.area_km2[i], xi);
+        }
+        constraints.push(constraint::leq(e, limit));
+    }
+    if constant != 0.0 {
+        let one = add(&mut vars, variable().min(1.0).max(1.0), Col::One);
+        objective.add_mul(constant, one);
+    }
+    Ok(Formulation {
+        vars,
+        objective,
+        minimise,
+        constraints,
+        cols,
+    })
+}
+
+impl Formulation {
+    /// Number of columns (variables).
+    pub fn n_cols(&self) -> usize {
+        self.cols.len()
+    }
+
+    /// Number of rows (constraints).
+    pub fn n_rows(&self) -> usize {
+        self.constraints.len()
+    }
+
+    /// Column values that represent the network `selected` exactly (for a warm start).
+    fn start_values(&self, problem: &Problem, selected: &[bool]) -> Vec<f64> {
+        let e = evaluate(problem, selected);
+        let xv = |i: usize| if selected[i] { 1.0 } else { 0.0 };
+        let pos = problem
+            .spacing
+            .as_ref()
+            .map(|sp| gap_rows(sp, &problem.status).1);
+        self.cols
+            .iter()
+            .map(|c| match *c {
+                Col::X(i) => xv(i),
+                Col::Y(k) => e.held[k].min(problem.features[k].target),
+                Col::Z(q) => {
+                    let (i, j, _) = problem.edge_penalty.as_ref().map_or((0, 0, 0.0), |p| p.pairs[q]);
+                    xv(i as usize) * xv(j as usize)
+                }
+                Col::U(q) => {
+                    let any = pos.as_ref().is_some_and(|pos_of| {
+                        pos_of
+                            .iter()
+                            .enumerate()
+                            .any(|(i, p)| *p == Some(q) && selected[i])
+                    });
+                    if any {
+                        1.0
+                    } else {
+                        0.0
+                    }
+                }
+                Col::Worst => e
+                    .scenarios
+                    .iter()
+                    .map(|s| s.benefit)
+                    .fold(f64::INFINITY, f64::min),
+                Col::Regret => e
+                    .scenarios
+                    .iter()
+                    .filter_map(|s| s.regret)
+                    .fold(f64::NEG_INFINITY, f64::max),
+                Col::One => 1.0,
+            })
+            .collect()
+    }
+}
+
+/// HiGHS through good_lp: objective, bound (`mip_dual_bound`) and gap (`mip_gap`) are read from
+/// the solved model. Warm-started from the greedy network when greedy finds a feasible one.
+#[derive(Debug, Clone, Copy)]
+pub struct Highs {
+    /// Hand the greedy network to HiGHS as a starting solution.
+    pub warm_start: bool,
+}
+
+impl Default for Highs {
+    fn default() -> Self {
+        Highs { warm_start: true }
+    }
+}
+
+fn highs_err(what: &str) -> impl Fn(highs::TrySetOptionError) -> SolveError + '_ {
+    move |_| SolveError::Solver(format!("HiGHS rejected option `{what}`"))
+}
+
+/// The infeasibility error for a problem the solver proved infeasible: per-target shortfalls
+/// when diagnosis finds them (min-cost), otherwise a statement of which rules clash.
+pub(crate) fn infeasible(problem: &Problem) -> SolveError {
+    if problem.objective == Objective::MinCost {
+        let short = diagnose(problem);
+        if !short.is_empty() {
+            return SolveError::Infeasible(short);
+        }
+        SolveError::JointlyInfeasible(
+            "each target can be met on its own, but not all together under the budget, the \
+             max gap and the required/excluded cells"
+                .into(),
+        )
+    } else {
+        SolveError::JointlyInfeasible(
+            "no network within the budget meets the max gap together with the required cells"
+                .into(),
+        )
+    }
+}
+
+impl Solver for Highs {
+    fn name(&self) -> &'static str {
+        "highs"
+    }
+
+    fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
+        let started = Instant::now();
+        let problem = with_scenario_best(problem, self, options)?;
+        if problem.objective == Objective::MinCost {
+            let short = diagnose(&problem);
+            if !short.is_empty() {
+                return Err(SolveError::Infeasible(short));
+            }
+        }
+        let warm = if self.warm_start {
+            greedy_network(&problem).ok()
+        } else {
+            None
+        };
+        let form = formulate(&problem)?;
+        let start = warm.as_ref().map(|w| form.start_values(&problem, w));
+        let n_cols = form.n_cols();
+        let Formulation {
+            vars,
+            objective,
+            minimise,
+            constraints,
+            cols,
+        } = form;
+        let unsolved = if minimise {
+            vars.minimise(objective)
+        } else {
+            vars.maximise(objective)
+        };
+        let mut hp = unsolved.using(good_lp::solvers::highs::highs);
+        for c in constraints {
+            hp.add_constraint(c);
+        }
+        let mut model = hp
+            .try_into_inner()
+            .map_err(|e| SolveError::Solver(e.to_string()))?;
+        model
+            .try_set_option("output_flag", options.verbose)
+            .map_err(highs_err("output_flag"))?;
+        model
+            .try_set_option("log_to_console", options.verbose)
+            .map_err(highs_err("log_to_console"))?;
+        model
+            .try_set_option("mip_rel_gap", options.rel_gap.max(0.0))
+            .map_err(highs_err("mip_rel_gap"))?;
+        if let Some(t) = options.time_limit_s {
+            model
+                .try_set_option("time_limit", t.max(0.0))
+                .map_err(highs_err("time_limit"))?;
+        }
+        if let Some(t) = options.threads {
+            model
+                .try_set_option("threads", t as i32)
+                .map_err(highs_err("threads"))?;
+        }
+        if let Some(start) = &start {
+            debug_assert_eq!(start.len(), n_cols);
+            model
+                .try_set_solution(Some(start), None, None, None)
+                .map_err(|e| SolveError::Solver(format!("HiGHS rejected the warm start: {e:?}")))?;
+        }
+        let solved = model
+            .try_solve()
+            .map_err(|e| SolveError::Solver(format!("HiGHS failed: {e:?}")))?;
+        let status = match solved.status() {
+            HighsModelStatus::Optimal => {
+                if options.rel_gap > 0.0 && solved.mip_gap() > 1e-9 {
+                    SolveStatus::GapLimit
+                } else {
+                    SolveStatus::Optimal
+                }
+            }
+            HighsModelStatus::Infeasible | HighsModelStatus::UnboundedOrInfeasible => {
+                return Err(infeasible(&problem))
+            }
+            HighsModelStatus::ReachedTimeLimit
+            | HighsModelStatus::ReachedIterationLimit
+            | HighsModelStatus::ReachedSolutionLimit
+            | HighsModelStatus::ReachedInterrupt
+            | HighsModelStatus::ReachedMemoryLimit => SolveStatus::TimeLimit,
+            other => {
+                return Err(SolveError::Solver(format!(
+                    "HiGHS ended with status {other:?}"
+                )))
+            }
+        };
+        if solved.primal_solution_status() != HighsSolutionStatus::Feasible {
+            return Err(SolveError::Solver(
+                "HiGHS stopped before finding any network; raise the time limit".into(),
+            ));
+        }
+        let solution = solved.get_solution();
+        let values = solution.columns();
+        let selected: Vec<bool> = cols
+            .iter()
+            .zip(values)
+            .filter_map(|(c, v)| match c {
+                Col::X(_) => Some(*v > 0.5),
+                _ => None,
+            })
+            .collect();
+        let objective = solved.objective_value();
+        let bound = solved
+            .double_info_value(c"mip_dual_bound")
+            .map_err(|e| SolveError::Solver(format!("HiGHS has no dual bound: {e:?}")))?;
+        let gap = solved.mip_gap();
+        Ok(make_solution(
+            &problem,
+            selected,
+            status,
+            objective,
+            bound,
+            gap,
+            started,
+            self.name(),
+        ))
+    }
+}
+
+/// CBC through good_lp's coin_cbc backend: a second, independent MILP solver used to check
+/// HiGHS in tests. CBC's objective is read back as good_lp evaluates it; its proven bound is
+/// not exposed through good_lp, so `bound` and `gap` are NaN.
+#[cfg(feature = "cbc")]
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Cbc;
+
+#[cfg(feature = "cbc")]
+impl Solver for Cbc {
+    fn name(&self) -> &'static str {
+        "cbc"
+    }
+
+    fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
+        use good_lp::Solution as _;
+        let started = Instant::now();
+        let problem = with_scenario_best(problem, self, options)?;
+        let form = formulate(&problem)?;
+        let Formulation {
+            vars,
+            objective,
+            minimise,
+            constraints,
+            cols,
+        } = form;
+        let x_vars: Vec<Variable> = vars
+            .iter_variables_with_def()
+            .map(|(v, _)| v)
+            .zip(&cols)
+            .filter(|(_, c)| matches!(c, Col::X(_)))
+            .map(|(v, _)| v)
+            .collect();
+        let obj_copy = objective.clone();
+        let unsolved = if minimise {
+            vars.minimise(objective)
+        } else {
+            vars.maximise(objective)
+        };
+        let mut m = unsolved.using(good_lp::solvers::coin_cbc::coin_cbc);
+        m.set_parameter("log", if options.verbose { "1" } else { "0" });
+        m.set_parameter("ratioGap", &options.rel_gap.max(0.0).to_string());
+        if let Some(t) = options.threads {
+            m.set_parameter("threads", &t.to_string());
+        }
+        if let Some(t) = options.time_limit_s {
+            m.set_parameter("seconds", &t.to_string());
+        }
+        for c in constraints {
+            m.add_constraint(c);
+        }
+        let sol = m.solve().map_err(|e| match e {
+            good_lp::ResolutionError::Infeasible => infeasible(&problem),
+            other => SolveError::Solver(other.to_string()),
+        })?;
+        let status = match sol.status() {
+            good_lp::solvers::SolutionStatus::Optimal => SolveStatus::Optimal,
+            good_lp::solvers::SolutionStatus::GapLimit => SolveStatus::GapLimit,
+            good_lp::solvers::SolutionStatus::TimeLimit => SolveStatus::TimeLimit,
+        };
+        let selected = x_vars.iter().map(|&v| sol.value(v) > 0.5).collect();
+        let objective = obj_copy.eval_with(&sol);
+        Ok(make_solution(
+            &problem,
+            selected,
+            status,
+            objective,
+            f64::NAN,
+            f64::NAN,
+            started,
+            self.name(),
+        ))
+    }
+}

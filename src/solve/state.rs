@@ -1,0 +1,323 @@
+//! Incremental network state for the heuristics: cost, area, holdings, per-scenario benefit,
+//! exposed edge and max-gap violations, each updated in time proportional to what one cell
+//! touches. The final answer of every heuristic is re-scored by `model::evaluate`.
+
+use crate::model::compact::neighbour_lists;
+use crate::model::robust::{combine, is_minimisation, scenario_benefits};
+use crate::model::spacing::gap_rows;
+use crate::model::{CellStatus, Objective, Problem};
+
+/// What flipping one cell would change.
+pub(crate) struct Flip {
+    pub d_cost: f64,
+    pub d_area: f64,
+    pub d_exposed: f64,
+    /// Change of Σₖ max(0, Tₖ − heldₖ)/Tₖ (normalised shortfall).
+    pub d_shortfall: f64,
+    /// Change of the number of violated max-gap rows.
+    pub d_violated: i64,
+}
+
+pub(crate) struct State<'a> {
+    pub p: &'a Problem,
+    pub selected: Vec<bool>,
+    cell_feats: Vec<Vec<(u32, f64)>>,
+    /// For each feature, the scenarios it counts in and its coefficient wₖ/Tₖ there.
+    feat_coef: Vec<f64>,
+    feat_scen: Vec<Vec<u32>>,
+    pub held: Vec<f64>,
+    pub benefit: Vec<f64>,
+    pub cost: f64,
+    pub area: f64,
+    pub exposed: f64,
+    pub shortfall: f64,
+    nb: Vec<Vec<(u32, f64)>>,
+    pub weight: f64,
+    // Max gap: rows, their cover counts, position counts.
+    rows_trigger: Vec<Option<usize>>,
+    row_count: Vec<u32>,
+    cell_rows: Vec<Vec<u32>>,
+    pos_of: Vec<Option<usize>>,
+    pos_count: Vec<u32>,
+    pos_row: Vec<Option<u32>>,
+    pub violated: i64,
+    scratch: Vec<f64>,
+}
+
+impl<'a> State<'a> {
+    /// The empty network (nothing chosen, not even required cells).
+    pub fn new(p: &'a Problem) -> Self {
+        let n = p.n_cells();
+        let s_count = p.scenarios.len();
+        let mut cell_feats = vec![Vec::new(); n];
+        for (k, f) in p.features.iter().enumerate() {
+            for &(c, a) in &f.amounts {
+                cell_feats[c as usize].push((k as u32, a));
+            }
+        }
+        let mut feat_coef = vec![0.0; p.features.len()];
+        let mut feat_scen = vec![Vec::new(); p.features.len()];
+        let sb = scenario_benefits(p);
+        let mut benefit = vec![0.0; s_count];
+        for (s, b) in sb.iter().enumerate() {
+            benefit[s] = b.constant;
+            for &(k, coef) in &b.terms {
+                feat_coef[k] = coef;
+                feat_scen[k].push(s as u32);
+            }
+        }
+        let shortfall = p.features.iter().filter(|f| f.target > 0.0).count() as f64;
+        let (nb, weight) = match &p.edge_penalty {
+            Some(pen) => (neighbour_lists(pen, n), pen.weight),
+            None => (vec![Vec::new(); n], 0.0),
+        };
+        let mut st = State {
+            p,
+            selected: vec![false; n],
+            cell_feats,
+            feat_coef,
+            feat_scen,
+            held: vec![0.0; p.features.len()],
+            benefit,
+            cost: 0.0,
+            area: 0.0,
+            exposed: 0.0,
+            shortfall,
+            nb,
+            weight,
+            rows_trigger: Vec::new(),
+            row_count: Vec::new(),
+            cell_rows: vec![Vec::new(); n],
+            pos_of: vec![None; n],
+            pos_count: Vec::new(),
+            pos_row: Vec::new(),
+            violated: 0,
+            scratch: vec![0.0; s_count],
+        };
+        if let Some(sp) = &p.spacing {
+            let (rows, pos_of) = gap_rows(sp, &p.status);
+            let npos = pos_of.iter().flatten().max().map_or(0, |m| m + 1);
+            st.pos_row = vec![None; npos];
+            for (r, row) in rows.iter().enumerate() {
+                for &c in &row.cover {
+                    st.cell_rows[c as usize].push(r as u32);
+                }
+                if let Some(q) = row.trigger {
+                    st.pos_row[q] = Some(r as u32);
+                }
+                st.rows_trigger.push(row.trigger);
+            }
+            st.row_count = vec![0; rows.len()];
+            st.pos_count = vec![0; npos];
+            st.pos_of = pos_of;
+            // Only the start row (≥ 1) is violated by the empty network.
+            st.violated = st.rows_trigger.iter().filter(|t| t.is_none()).count() as i64;
+        }
+        st
+    }
+
+    /// The network holding exactly the required cells.
+    pub fn with_required(p: &'a Problem) -> Self {
+        let mut st = State::new(p);
+        for i in 0..p.n_cells() {
+            if p.status[i] == CellStatus::Required {
+                st.flip(i);
+            }
+        }
+        st
+    }
+
+    /// Start from a given network.
+    pub fn from_selection(p: &'a Problem, selected: &[bool]) -> Self {
+        let mut st = State::new(p);
+        for (i, s) in selected.iter().enumerate() {
+            if *s {
+                st.flip(i);
+            }
+        }
+        st
+    }
+
+    fn credit_delta(&self, k: usize, da: f64) -> (f64, f64) {
+        let t = self.p.features[k].target;
+        let h = self.held[k];
+        if t <= 0.0 {
+            return (0.0, 0.0);
+        }
+        let d_capped = (h + da).min(t) - h.min(t);
+        let d_short = (t - h - da).max(0.0) / t - (t - h).max(0.0) / t;
+        (d_capped, d_short)
+    }
+
+    fn row_violated(&self, r: usize, count: u32, pos_count: &dyn Fn(usize) -> u32) -> bool {
+        match self.rows_trigger[r] {
+            None => count == 0,
+            Some(q) => pos_count(q) > 0 && count == 0,
+        }
+    }
+
+    /// Effect of flipping cell `i`; per-scenario benefit changes are left in `scratch`.
+    pub fn delta(&mut self, i: usize) -> Flip {
+        let sign = if self.selected[i] { -1.0 } else { 1.0 };
+        self.scratch.iter_mut().for_each(|x| *x = 0.0);
+        let mut d_short = 0.0;
+        for idx in 0..self.cell_feats[i].len() {
+            let (k, a) = self.cell_feats[i][idx];
+            let (dc, ds) = self.credit_delta(k as usize, sign * a);
+            d_short += ds;
+            let coef = self.feat_coef[k as usize];
+            for &s in &self.feat_scen[k as usize] {
+                self.scratch[s as usize] += coef * dc;
+            }
+        }
+        let mut shared = 0.0;
+        for &(j, l) in &self.nb[i] {
+            if self.selected[j as usize] {
+                shared += l;
+            }
+        }
+        let alone = self
+            .p
+            .edge_penalty
+            .as_ref()
+            .map_or(0.0, |e| e.exposed_if_alone_km[i]);
+        let d_exposed = sign * (alone - 2.0 * shared);
+        let mut d_violated = 0;
+        if !self.rows_trigger.is_empty() {
+            let step: i64 = if self.selected[i] { -1 } else { 1 };
+            let q_i = self.pos_of[i];
+            let new_pos = |q: usize| -> u32 {
+                let c = self.pos_count[q] as i64;
+                (if Some(q) == q_i { c + step } else { c }) as u32
+            };
+            let old_pos = |q: usize| -> u32 { self.pos_count[q] };
+            let mut touched: Vec<u32> = self.cell_rows[i].clone();
+            if let Some(q) = q_i {
+                if let Some(r) = self.pos_row[q] {
+                    touched.push(r);
+                }
+            }
+            touched.sort_unstable();
+            touched.dedup();
+            for r in touched {
+                let r = r as usize;
+                let old = self.row_count[r];
+                let in_cover = self.cell_rows[i].contains(&(r as u32));
+                let new = if in_cover {
+                    (old as i64 + step) as u32
+                } else {
+                    old
+                };
+                d_violated += self.row_violated(r, new, &new_pos) as i64
+                    - self.row_violated(r, old, &old_pos) as i64;
+            }
+        }
+        Flip {
+            d_cost: sign * self.p.cost[i],
+            d_area: sign * self.p.area_km2[i],
+            d_exposed,
+            d_shortfall: d_short,
+            d_violated,
+        }
+    }
+
+    /// Flip cell `i` in or out of the network.
+    pub fn flip(&mut self, i: usize) {
+        let f = self.delta(i);
+        let sign = if self.selected[i] { -1.0 } else { 1.0 };
+        for (s, d) in self.scratch.iter().enumerate() {
+            self.benefit[s] += d;
+        }
+        for idx in 0..self.cell_feats[i].len() {
+            let (k, a) = self.cell_feats[i][idx];
+            self.held[k as usize] += sign * a;
+        }
+        self.cost += f.d_cost;
+        self.area += f.d_area;
+        self.exposed += f.d_exposed;
+        self.shortfall += f.d_shortfall;
+        self.violated += f.d_violated;
+        if !self.rows_trigger.is_empty() {
+            let step: i64 = if self.selected[i] { -1 } else { 1 };
+            for idx in 0..self.cell_rows[i].len() {
+                let r = self.cell_rows[i][idx] as usize;
+                self.row_count[r] = (self.row_count[r] as i64 + step) as u32;
+            }
+            if let Some(q) = self.pos_of[i] {
+                self.pos_count[q] = (self.pos_count[q] as i64 + step) as u32;
+            }
+        }
+        self.selected[i] = !self.selected[i];
+    }
+
+    /// Objective in the problem's sense for given totals (max-benefit combined by the rule,
+    /// edge penalty added or subtracted), using `benefits` per scenario.
+    pub fn objective_with(&self, cost: f64, exposed: f64, benefits: &[f64]) -> f64 {
+        let pen = self.weight * exposed;
+        match self.p.objective {
+            Objective::MinCost => cost + pen,
+            Objective::MaxBenefit => {
+                let c = combine(self.p, benefits, self.p.scenario_best.as_deref());
+                if is_minimisation(self.p) {
+                    c + pen
+                } else {
+                    c - pen
+                }
+            }
+        }
+    }
+
+    /// Current objective.
+    pub fn objective(&self) -> f64 {
+        self.objective_with(self.cost, self.exposed, &self.benefit)
+    }
+
+    /// Objective after the flip described by `f` (call right after [`State::delta`]).
+    pub fn objective_after(&self, f: &Flip) -> f64 {
+        let benefits: Vec<f64> = self
+            .benefit
+            .iter()
+            .zip(&self.scratch)
+            .map(|(b, d)| b + d)
+            .collect();
+        self.objective_with(self.cost + f.d_cost, self.exposed + f.d_exposed, &benefits)
+    }
+
+    /// Mean per-scenario benefit change of the last delta (tie-break for min/max rules).
+    pub fn mean_scratch(&self) -> f64 {
+        self.scratch.iter().sum::<f64>() / self.scratch.len().max(1) as f64
+    }
+
+    /// Whether cost and area are within the budget after adding `d_cost`, `d_area`.
+    pub fn fits(&self, d_cost: f64, d_area: f64) -> bool {
+        let b = &self.p.budget;
+        let ok = |limit: Option<f64>, used: f64| {
+            limit.is_none_or(|m| used <= m + crate::model::evaluate::TOLERANCE * m.abs().max(1.0))
+        };
+        ok(b.max_cost, self.cost + d_cost) && ok(b.max_area_km2, self.area + d_area)
+    }
+
+    /// Targets still unmet (min-cost), up to the evaluate tolerance.
+    pub fn unmet(&self) -> usize {
+        self.p
+            .features
+            .iter()
+            .zip(&self.held)
+            .filter(|(f, h)| !crate::model::evaluate::at_least(**h, f.target))
+            .count()
+    }
+
+    /// Indices of the max-gap rows currently violated.
+    pub fn violated_rows(&self) -> Vec<usize> {
+        (0..self.rows_trigger.len())
+            .filter(|&r| self.row_violated(r, self.row_count[r], &|q| self.pos_count[q]))
+            .collect()
+    }
+
+    /// Cells of a max-gap row's cover (recomputed from the problem; rows are few).
+    pub fn row_cover(&self, r: usize) -> Vec<u32> {
+        (0..self.p.n_cells() as u32)
+            .filter(|&c| self.cell_rows[c as usize].contains(&(r as u32)))
+            .collect()
+    }
+}
