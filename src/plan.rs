@@ -156,6 +156,18 @@ pub struct SolverPlan {
     pub threads: Option<u32>,
 }
 
+/// Spatial rules of the optimisation (`[optimise]` keys beyond objective and robustness).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct SpatialRules {
+    /// Weight per km of reserve edge exposed to unprotected sea (compactness); `None`: off.
+    pub edge_penalty: Option<f64>,
+    /// Whether coast and region-boundary edges count as exposed edge (default: no, only edges
+    /// facing unprotected sea count).
+    pub count_coast_edges: bool,
+    /// Stepping-stone rule: longest stretch along the poleward axis without a reserve. Units: km.
+    pub max_gap_km: Option<f64>,
+}
+
 /// A validated plan: every path absolute, every value checked.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Plan {
@@ -195,6 +207,8 @@ pub struct Plan {
     pub objective: Objective,
     /// Robustness rule.
     pub robustness: Robustness,
+    /// Edge penalty and max gap.
+    pub rules: SpatialRules,
     /// Solver controls.
     pub solver: SolverPlan,
     /// Derived climate-adaptation features (`[climate]`), if asked for.
@@ -297,6 +311,9 @@ struct RawBudget {
 struct RawOptimise {
     objective: Option<String>,
     robustness: Option<String>,
+    edge_penalty: Option<f64>,
+    count_coast_edges: Option<bool>,
+    max_gap_km: Option<f64>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -901,10 +918,30 @@ impl Plan {
             }
         };
 
+        let mut rules = SpatialRules::default();
         let (objective, robustness) = match &raw.optimise {
             None => (Objective::MinCost, Robustness::EveryScenario),
             Some(o) => {
-                ck.unknown("optimise", &o.extra, &["objective", "robustness"]);
+                ck.unknown(
+                    "optimise",
+                    &o.extra,
+                    &["objective", "robustness", "edge_penalty", "count_coast_edges", "max_gap_km"],
+                );
+                if let Some(w) = o.edge_penalty {
+                    if !(w.is_finite() && w >= 0.0) {
+                        ck.push("optimise.edge_penalty", format!("must be a non-negative weight per km of exposed edge, e.g. `edge_penalty = 1`; got {w}"));
+                    }
+                }
+                if let Some(g) = o.max_gap_km {
+                    if !(g.is_finite() && g > 0.0) {
+                        ck.push("optimise.max_gap_km", format!("must be a positive number of kilometres, e.g. `max_gap_km = 100`; got {g}"));
+                    }
+                }
+                rules = SpatialRules {
+                    edge_penalty: o.edge_penalty.filter(|w| *w > 0.0),
+                    count_coast_edges: o.count_coast_edges.unwrap_or(false),
+                    max_gap_km: o.max_gap_km,
+                };
                 let objective = match o.objective.as_deref() {
                     None | Some("min-cost") => Objective::MinCost,
                     Some("max-benefit") => Objective::MaxBenefit,
@@ -1003,6 +1040,7 @@ impl Plan {
             budget,
             objective,
             robustness,
+            rules,
             solver,
             climate,
         })

@@ -7,6 +7,7 @@
 pub mod atomic;
 mod columns;
 mod dissolve;
+mod features_table;
 pub mod geojson;
 mod rings;
 pub mod summary;
@@ -15,6 +16,7 @@ pub mod table;
 pub use atomic::write_atomic;
 pub use geojson::{cells_csv, cells_geojson, network_geojson};
 pub use summary::{plan_hash, summary_json, Summary};
+pub use features_table::features_csv;
 pub use table::coverage_csv;
 
 use crate::grid::GridError;

@@ -46,8 +46,29 @@ pub struct Summary {
     pub cells: usize,
     /// What these results are and are not.
     pub caution: String,
+    /// Per scenario: benefit, best achievable benefit, regret and targets met.
+    pub scenarios: Vec<ScenarioSummary>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
+}
+
+/// How the network fares in one scenario (from `solve::Solution::scenarios`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScenarioSummary {
+    /// Scenario name.
+    pub name: String,
+    /// Weighted targets met (partly met ones count their share). Units: weighted targets.
+    pub benefit: f64,
+    /// The most the benefit can be (all targets met).
+    pub benefit_max: f64,
+    /// Best benefit this scenario alone allows, when computed (least-regret runs).
+    pub best: Option<f64>,
+    /// best − benefit, when best is known.
+    pub regret: Option<f64>,
+    /// Targets met in this scenario.
+    pub targets_met: usize,
+    /// Targets in this scenario.
+    pub targets: usize,
 }
 
 impl Summary {
@@ -79,6 +100,19 @@ impl Summary {
             cells_selected: assessment.cells_selected,
             cells: grid_cells,
             caution: CAUTION.to_string(),
+            scenarios: solution
+                .scenarios
+                .iter()
+                .map(|r| ScenarioSummary {
+                    name: r.name.clone(),
+                    benefit: r.benefit,
+                    benefit_max: r.benefit_max,
+                    best: r.best,
+                    regret: r.regret,
+                    targets_met: r.targets_met,
+                    targets: r.targets,
+                })
+                .collect(),
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }
@@ -104,6 +138,7 @@ pub fn summary_json(summary: &Summary) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::model::ScenarioResult;
     use crate::solve::SolveStatus;
 
     #[test]
@@ -129,6 +164,16 @@ mod tests {
             gap: f64::NAN,
             seconds: 0.25,
             solver: "greedy".into(),
+            scenarios: vec![ScenarioResult {
+                name: "s1".into(),
+                benefit: 2.5,
+                benefit_max: 3.0,
+                best: Some(3.0),
+                regret: Some(0.5),
+                targets_met: 2,
+                targets: 3,
+            }],
+            scenario_best: None,
         };
         let a = Assessment {
             coverage: vec![],
@@ -145,6 +190,7 @@ mod tests {
         let text = summary_json(&s);
         let v: serde_json::Value = serde_json::from_str(&text).unwrap();
         assert!(v["bound"].is_null());
+        assert_eq!(v["scenarios"][0]["regret"], 0.5);
         assert_eq!(v["status"], "heuristic");
         assert_eq!(v["cells"], 2);
         assert!(v["caution"]
