@@ -556,7 +556,14 @@ pub(crate) fn validate(
                         },
                     }
                 }
-                (s, _) => {
+                (s, b) => {
+                    // Check the layer that is given, too, so all problems show at once.
+                    if let Some(s) = s {
+                        scenario_layer(ck, "climate.velocity.speed", s, ctx);
+                    }
+                    if let Some(b) = b {
+                        scenario_layer(ck, "climate.velocity.bearing", b, ctx);
+                    }
                     let missing = if s.is_none() { "speed" } else { "bearing" };
                     ck.push(
                         format!("climate.velocity.{missing}"),
@@ -636,6 +643,18 @@ pub(crate) fn validate(
         .trailing_edge
         .as_ref()
         .map(|e| edge(ck, "climate.trailing-edge", e, 0.05));
+
+    if let (Some(l), Some(t)) = (&leading_edge, &trailing_edge) {
+        if t.quantile >= l.quantile {
+            ck.push(
+                "climate.trailing-edge.quantile",
+                format!(
+                    "the trailing-edge quantile ({}) must be below the leading-edge quantile ({}), e.g. 0.05 and 0.95",
+                    t.quantile, l.quantile
+                ),
+            );
+        }
+    }
 
     let refugium = raw.refugium.as_ref().map(|r| {
         let key = "climate.refugium";
