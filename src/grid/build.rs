@@ -633,7 +633,7 @@ fn finish_cell(lat: &Lattice, col: u32, row: u32, rings: &[Ring]) -> Option<RawC
                 v.push(c);
             }
         }
-        (v.len() >= 4).then(|| LineString(v))
+        (v.len() >= 4).then_some(LineString(v))
     };
     let polys: Vec<Polygon<f64>> = clean
         .0
@@ -706,7 +706,9 @@ mod tests {
         let sq = vec![c(0.0, 0.0), c(1.0, 0.0), c(1.0, 1.0), c(0.0, 1.0)];
         let lo = clip_ring(&sq, Axis::X, 0.25, true);
         let hi = clip_ring(&sq, Axis::X, 0.25, false);
-        assert!((0.5 * twice_signed_area(&[lo.clone()], c(0.0, 0.0)) - 0.25).abs() < 1e-15);
+        assert!(
+            (0.5 * twice_signed_area(std::slice::from_ref(&lo), c(0.0, 0.0)) - 0.25).abs() < 1e-15
+        );
         assert!((0.5 * twice_signed_area(&[hi], c(0.0, 0.0)) - 0.75).abs() < 1e-15);
         // New vertices lie exactly on the cut line.
         assert!(lo.iter().all(|p| p.x <= 0.25));

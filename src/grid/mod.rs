@@ -31,6 +31,10 @@ pub struct GridSpec {
     /// Projection to build the grid in.
     pub crs: CrsChoice,
     /// Cells whose sea share of a full cell is below this are dropped as slivers (0–1).
+    ///
+    /// A square is kept when its sea area ≥ `min_sea_share` × the full cell area; shares
+    /// under 1e-9 are numerical noise and always dropped. The plan's default, 0.1, drops
+    /// coastal crumbs whose edge-to-area ratio would distort edge penalties.
     pub min_sea_share: f64,
 }
 
@@ -143,7 +147,7 @@ pub enum GridError {
     #[error("the region is empty: {0}")]
     EmptyRegion(String),
     /// The region crosses the antimeridian (180° longitude).
-    #[error("the region spans longitudes {west}..{east}, crossing the antimeridian (180°); regions across the antimeridian are not supported yet")]
+    #[error("the region spans longitudes {west}..{east}: it crosses the antimeridian (180°) or is wider than 180°; regions across the antimeridian are not supported yet (split the plan into one region each side)")]
     Antimeridian {
         /// Westernmost longitude found (degrees).
         west: f64,
