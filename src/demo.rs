@@ -435,7 +435,193 @@ pub fn generate() -> Vec<(PathBuf, String)> {
     }
 
     files.push((PathBuf::from("scenarios").join("demo.toml"), plan_toml()));
+
+    // Climate-adaptation inputs and the plan that uses them.
+    files.push((data.join("merrow-front.geojson"), front_geojson()));
+    files.push((data.join("genetic-samples.geojson"), samples_geojson()));
+    files.push((
+        PathBuf::from("scenarios").join("demo-climate.toml"),
+        climate_plan_toml(),
+    ));
     files
+}
+
+/// Latitude (degrees) of the invented Merrow Front: the 0.5°-wide window of latitudes that
+/// holds the most species range edges (5th and 95th habitat-weighted percentiles of latitude,
+/// weights suitability × cos lat on the CSV lattice) in the first year of the middle scenario.
+/// Windows are centred every 0.05° from 1° inside the region's southern edge to 1° inside its
+/// northern edge, because the edges of ranges cut off by the region's limits pile up there;
+/// the first of equally full windows wins.
+fn front_lat() -> f64 {
+    let (_, rate) = SCENARIOS[1];
+    let pts = lattice();
+    let mut edges = Vec::new();
+    for s in &SPECIES {
+        let pairs: Vec<(f64, f64)> = pts
+            .iter()
+            .filter_map(|&(lon, lat)| {
+                let v = suitability(s, sst_c(lon, lat, rate, YEARS[0]), depth_m(lon, lat));
+                (v > 0.0).then(|| (lat, v * lat.to_radians().cos()))
+            })
+            .collect();
+        for q in [0.05, 0.95] {
+            if let Some(e) = crate::climate::weighted_quantile(&pairs, q) {
+                edges.push(e);
+            }
+        }
+    }
+    let (mut best, mut best_count) = (0.5 * (SOUTH + NORTH), 0usize);
+    let n = ((NORTH - SOUTH - 2.0) / 0.05).round() as usize;
+    for i in 0..=n {
+        let centre = SOUTH + 1.0 + i as f64 * 0.05;
+        let count = edges.iter().filter(|e| (*e - centre).abs() <= 0.25).count();
+        if count > best_count {
+            best = centre;
+            best_count = count;
+        }
+    }
+    round(best, 2)
+}
+
+/// The Merrow Front (invented): a biogeographic boundary line from the coast out to the
+/// region's eastern edge at [`front_lat`], with a gentle meander. One GeoJSON LineString.
+fn front_geojson() -> String {
+    let lat0 = front_lat();
+    let start = coast_lon(lat0) - 0.05;
+    let end = EAST + 0.1;
+    let n = 40;
+    let pts: Vec<(f64, f64)> = (0..=n)
+        .map(|i| {
+            let lon = start + (end - start) * i as f64 / n as f64;
+            (lon, lat0 + 0.08 * (2.0 * PI * (lon - start) / 1.5).sin())
+        })
+        .collect();
+    format!(
+        "{{\"type\":\"FeatureCollection\",\"features\":[\n{{\"type\":\"Feature\",\"properties\":{{\"name\":\"Merrow Front (invented)\",\"kind\":\"biogeographic boundary\"}},\"geometry\":{{\"type\":\"LineString\",\"coordinates\":{}}}}}\n]}}\n",
+        ring_json(&pts)
+    )
+}
+
+/// Genetic sampling sites (invented): lon, lat and the frequency of one allele of an invented
+/// locus. Frequencies follow a cline across the front; the two island populations and the
+/// upwelling population are set apart (isolation and local retention, invented).
+fn sample_sites() -> Vec<(String, f64, f64, f64)> {
+    let front = front_lat();
+    let shelf = |lat: f64| coast_lon(lat) + 20.0 / (KM_PER_DEG * lat.to_radians().cos());
+    let cline = |lat: f64| 0.5 + 0.3 * ((lat - front) / 0.6).tanh();
+    let mut sites = Vec::new();
+    for (k, lat) in [-34.5, -35.9, -37.0, -37.6, -39.2].into_iter().enumerate() {
+        sites.push((format!("shelf-{}", k + 1), shelf(lat), lat, cline(lat)));
+    }
+    let (ilon, ilat, r) = ISLANDS[0];
+    sites.push(("tarn-isle".into(), ilon + r + 0.1, ilat, cline(ilat) - 0.35));
+    let (ilon, ilat, r) = ISLANDS[1];
+    sites.push((
+        "little-skerrow".into(),
+        ilon + r + 0.1,
+        ilat,
+        cline(ilat) + 0.3,
+    ));
+    let up = (coast_lon(UPWELLING.1) + UPWELLING.0, UPWELLING.1);
+    sites.push(("upwelling".into(), up.0, up.1, 0.08));
+    sites
+        .into_iter()
+        .map(|(n, lon, lat, p)| (n, lon, lat, p.clamp(0.0, 1.0)))
+        .collect()
+}
+
+/// Genetic samples as GeoJSON points with `gst`: Nei's G_ST (Nei 1973) between the site and
+/// the pooled sample (mean allele frequency over all sites), a measure of how distinct the
+/// site's population is.
+fn samples_geojson() -> String {
+    let sites = sample_sites();
+    let mean = sites.iter().map(|s| s.3).sum::<f64>() / sites.len() as f64;
+    let mut out = String::from("{\"type\":\"FeatureCollection\",\"features\":[\n");
+    for (k, (name, lon, lat, p)) in sites.iter().enumerate() {
+        // Frequencies in [0, 1] summing to 1 by construction, so G_ST is defined.
+        let gst =
+            crate::features::distinctness::nei_gst(&[vec![*p, 1.0 - p], vec![mean, 1.0 - mean]])
+                .expect("two valid allele-frequency rows");
+        let _ = writeln!(
+            out,
+            "{{\"type\":\"Feature\",\"properties\":{{\"site\":\"{name}\",\"allele_freq\":{},\"gst\":{}}},\"geometry\":{{\"type\":\"Point\",\"coordinates\":[{},{}]}}}}{}",
+            round(*p, 4),
+            round(gst, 4),
+            round(*lon, 6),
+            round(*lat, 6),
+            if k + 1 < sites.len() { "," } else { "" }
+        );
+    }
+    out.push_str("]}\n");
+    out
+}
+
+/// The demo plan with climate-adaptation features: targets on leading edges, refugia, the
+/// front and distinct populations; weights on corridors and trailing edges.
+fn climate_plan_toml() -> String {
+    let base = plan_toml()
+        .replacen(
+            "# driftplan demo plan: the Merrow Coast",
+            "# driftplan climate demo plan: the Merrow Coast",
+            1,
+        )
+        .replacen(
+            "name = \"merrow-coast-demo\"",
+            "name = \"merrow-coast-climate-demo\"",
+            1,
+        );
+    base + r#"
+# ---------------------------------------------------------------- climate-adaptation features
+# Inspect every derived layer with `driftplan features scenarios/demo-climate.toml --out DIR`.
+
+[climate.velocity]
+# Computed from [temperature] by the gradient method; flat water is floored at this gradient.
+min_gradient_c_per_km = 0.0005
+
+[climate.trajectories]
+horizon_years = 60        # 2030 to 2090
+step_years = 1
+
+[climate.corridor]
+# Water that climate trajectories cross between today's and 2090's habitat: weight only.
+min_habitat_share = 0.1
+weight = 1
+
+[climate.leading-edge]
+# Habitat within 60 km of each species' poleward (southern) range edge, every year.
+band_km = 60
+quantile = 0.95
+target = 0.3
+
+[climate.trailing-edge]
+band_km = 60
+quantile = 0.05
+weight = 0.5
+
+[climate.refugium]
+# The quarter of the sea where isotherms move slowest (the upwelling cell and steep fronts).
+metric = "speed"
+low_quantile = 0.25
+target = 0.3
+
+[climate.boundary]
+# The Merrow Front, where many range edges meet.
+lines = "../demo-data/merrow-front.geojson"
+band_km = 30
+decay = "linear"
+target = 0.2
+
+[climate.distinctness]
+# Genetically distinct populations (Nei's G_ST against the pooled sample), spread 40 km.
+points = "../demo-data/genetic-samples.geojson"
+attribute = "gst"
+radius_km = 40
+method = "idw"
+target = 0.3
+
+[climate.time]
+weights = "equal"
+"#
 }
 
 /// The demo plan file (lives in `scenarios/`, so data paths start with `../demo-data/`).
@@ -534,6 +720,76 @@ mod tests {
         // 0.018 °C/yr over 60 years outside the upwelling cell: +1.08 °C (hand computation).
         let warm = sst_c(lon, -34.5, 0.018, 2090) - sst_c(lon, -34.5, 0.018, 2030);
         assert!((warm - 1.08).abs() < 1e-9, "{warm}");
+    }
+
+    #[test]
+    fn samples_carry_nei_gst_against_the_pooled_sample() {
+        // Closed form for one biallelic locus, site frequency p and pooled mean m:
+        // H_S = (2p(1−p) + 2m(1−m))/2, H_T = 2p̄(1−p̄) with p̄ = (p + m)/2 (Nei 1973).
+        let sites = sample_sites();
+        let m = sites.iter().map(|s| s.3).sum::<f64>() / sites.len() as f64;
+        let text = samples_geojson();
+        for (name, _, _, p) in &sites {
+            let hs = (2.0 * p * (1.0 - p) + 2.0 * m * (1.0 - m)) / 2.0;
+            let pb = 0.5 * (p + m);
+            let ht = 2.0 * pb * (1.0 - pb);
+            let want = round((ht - hs) / ht, 4);
+            assert!(
+                text.contains(&format!(
+                    "\"site\":\"{name}\",\"allele_freq\":{},\"gst\":{want}}}",
+                    round(*p, 4)
+                )),
+                "{name}: {want}"
+            );
+        }
+        // The upwelling population is the most distinct (set apart on purpose): farthest
+        // from the pooled frequency, so the largest G_ST.
+        let far = sites
+            .iter()
+            .max_by(|a, b| (a.3 - m).abs().total_cmp(&(b.3 - m).abs()))
+            .unwrap();
+        assert_eq!(far.0, "upwelling");
+    }
+
+    #[test]
+    fn front_holds_the_most_range_edges() {
+        // Brute force, independently of `front_lat`'s loop: the edges within ±0.25° of the
+        // front are at least as many as around any latitude on a 0.01° grid inside the
+        // searched span, and the line runs from land out past the region's eastern edge.
+        let (_, rate) = SCENARIOS[1];
+        let mut edges = Vec::new();
+        for s in &SPECIES {
+            let pairs: Vec<(f64, f64)> = lattice()
+                .into_iter()
+                .filter_map(|(lon, lat)| {
+                    let v = suitability(s, sst_c(lon, lat, rate, YEARS[0]), depth_m(lon, lat));
+                    (v > 0.0).then(|| (lat, v * lat.to_radians().cos()))
+                })
+                .collect();
+            edges.push(crate::climate::weighted_quantile(&pairs, 0.05).unwrap());
+            edges.push(crate::climate::weighted_quantile(&pairs, 0.95).unwrap());
+        }
+        let count = |c: f64| {
+            edges
+                .iter()
+                .filter(|e| (*e - c).abs() <= 0.25 + 1e-9)
+                .count()
+        };
+        let front = front_lat();
+        assert!((SOUTH + 1.0..=NORTH - 1.0).contains(&front));
+        let best = (0..=350)
+            .map(|i| count(SOUTH + 1.0 + i as f64 * 0.01))
+            .max()
+            .unwrap();
+        // A 0.01° grid can catch a window the 0.05° search steps over by at most one edge.
+        assert!(
+            count(front) + 1 >= best && count(front) >= 3,
+            "{} vs {best}",
+            count(front)
+        );
+        let line = front_geojson();
+        assert!(line.contains("\"LineString\""));
+        assert!(depth_m(coast_lon(front) - 0.05, front) < 0.0);
     }
 
     #[test]

@@ -76,6 +76,10 @@ pub enum ClimateError {
     /// Projection failure (from the grid's CRS).
     #[error(transparent)]
     Grid(#[from] GridError),
+    /// A supplied input (velocity, refugium, boundary, distinctness layer) could not be read;
+    /// the layer error names the file and where in it.
+    #[error(transparent)]
+    Layer(#[from] crate::layers::LayerError),
 }
 
 /// Checks that a dense per-cell vector has one value per cell.

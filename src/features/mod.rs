@@ -4,6 +4,7 @@
 pub mod boundary;
 pub mod corridor;
 pub mod distinctness;
+pub mod derive;
 pub mod edges;
 pub mod time;
 
