@@ -59,11 +59,20 @@ fn peak_mib() -> f64 {
         .unwrap_or(f64::NAN)
 }
 
-fn timed<T>(figures: &mut Vec<StageFigure>, stage: &str, f: impl FnOnce() -> Result<(T, String), RunError>) -> Result<T, RunError> {
+fn timed<T>(
+    figures: &mut Vec<StageFigure>,
+    stage: &str,
+    f: impl FnOnce() -> Result<(T, String), RunError>,
+) -> Result<T, RunError> {
     reset_peak();
     let t = Instant::now();
     let (value, note) = f()?;
-    figures.push(StageFigure { stage: stage.into(), seconds: t.elapsed().as_secs_f64(), peak_mib: peak_mib(), note });
+    figures.push(StageFigure {
+        stage: stage.into(),
+        seconds: t.elapsed().as_secs_f64(),
+        peak_mib: peak_mib(),
+        note,
+    });
     Ok(value)
 }
 
@@ -77,27 +86,51 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     let dlon = side_km / (111.2 * lat0.to_radians().cos());
     let (w, s) = (150.0 - dlon / 2.0, lat0 - dlat / 2.0);
     let (e, n) = (w + dlon, s + dlat);
-    let region = MultiPolygon(vec![polygon![(x: w, y: s), (x: e, y: s), (x: e, y: n), (x: w, y: n), (x: w, y: s)]]);
+    let region = MultiPolygon(vec![
+        polygon![(x: w, y: s), (x: e, y: s), (x: e, y: n), (x: w, y: n), (x: w, y: s)],
+    ]);
     // A land block covering the middle ninth: cells along its edge are clipped.
     let (lw, le) = (w + dlon / 3.0 + 0.013, e - dlon / 3.0 - 0.007);
     let (ls, ln) = (s + dlat / 3.0 + 0.011, n - dlat / 3.0 - 0.009);
-    let land = MultiPolygon(vec![polygon![(x: lw, y: ls), (x: le, y: ls), (x: le, y: ln), (x: lw, y: ln), (x: lw, y: ls)]]);
+    let land = MultiPolygon(vec![
+        polygon![(x: lw, y: ls), (x: le, y: ls), (x: le, y: ln), (x: lw, y: ln), (x: lw, y: ls)],
+    ]);
 
     let mut figures = Vec::new();
     progress(&format!("bench {} cells: grid", spec.cells));
     let grid = timed(&mut figures, "grid", || {
-        let g = build_grid(&GridSpec { cell_size_km: cell_km, crs: CrsChoice::Auto, min_sea_share: 0.1 }, &region, Some(&land))?;
+        let g = build_grid(
+            &GridSpec {
+                cell_size_km: cell_km,
+                crs: CrsChoice::Auto,
+                min_sea_share: 0.1,
+            },
+            &region,
+            Some(&land),
+        )?;
         let note = format!("{} cells", g.len());
         Ok((g, note))
     })?;
 
     // Synthetic CSV point grids (one file per scenario-year, one column per species).
-    let dir = std::env::temp_dir().join(format!("driftplan-bench-{}-{}", std::process::id(), spec.cells));
-    std::fs::create_dir_all(&dir).map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(format!("bench temp dir {}: {e}", dir.display()))))?;
+    let dir = std::env::temp_dir().join(format!(
+        "driftplan-bench-{}-{}",
+        std::process::id(),
+        spec.cells
+    ));
+    std::fs::create_dir_all(&dir).map_err(|e| {
+        RunError::Grid(crate::grid::GridError::Invalid(format!(
+            "bench temp dir {}: {e}",
+            dir.display()
+        )))
+    })?;
     let scenarios = [("low", 0.01), ("mid", 0.02), ("high", 0.035)];
     let years = [2030, 2050, 2070, 2090];
     let step = 0.05;
-    let (nx, ny) = ((dlon / step).ceil() as usize + 2, (dlat / step).ceil() as usize + 2);
+    let (nx, ny) = (
+        (dlon / step).ceil() as usize + 2,
+        (dlat / step).ceil() as usize + 2,
+    );
     for (name, rate) in scenarios {
         for year in years {
             let mut csv = String::from("lon,lat");
@@ -111,22 +144,29 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                     let _ = write!(csv, "{lon:.4},{lat:.4}");
                     for k in 0..spec.species {
                         // Band centre moves south (poleward) with warming.
-                        let centre = n - dlat * (0.2 + 0.6 * k as f64 / spec.species.max(1) as f64) - rate * (year - 2020) as f64 * 0.5;
+                        let centre = n
+                            - dlat * (0.2 + 0.6 * k as f64 / spec.species.max(1) as f64)
+                            - rate * (year - 2020) as f64 * 0.5;
                         let v = (-((lat - centre) / (dlat * 0.08)).powi(2)).exp();
                         let _ = write!(csv, ",{:.3}", if v < 0.02 { 0.0 } else { v });
                     }
                     csv.push('\n');
                 }
             }
-            std::fs::write(dir.join(format!("{name}_{year}.csv")), csv)
-                .map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(format!("bench file: {e}"))))?;
+            std::fs::write(dir.join(format!("{name}_{year}.csv")), csv).map_err(|e| {
+                RunError::Grid(crate::grid::GridError::Invalid(format!("bench file: {e}")))
+            })?;
         }
     }
 
     progress("bench: layers and features");
     let cache = SourceCache::default();
     let features = timed(&mut figures, "layers+features", || {
-        let mut table = FeatureTable { scenarios: scenarios.iter().map(|s| s.0.to_string()).collect(), years: years.to_vec(), features: vec![] };
+        let mut table = FeatureTable {
+            scenarios: scenarios.iter().map(|s| s.0.to_string()).collect(),
+            years: years.to_vec(),
+            features: vec![],
+        };
         for (ci, (name, _)) in scenarios.iter().enumerate() {
             for year in years {
                 for k in 0..spec.species {
@@ -142,7 +182,15 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                     let sp = format!("sp{k}");
                     table.features.push(habitat_feature(
                         &grid,
-                        &HabitatLayer { species: &sp, scenario: ci, scenario_name: name, year, share: &layer.values, target_share: 0.3, weight: 1.0 },
+                        &HabitatLayer {
+                            species: &sp,
+                            scenario: ci,
+                            scenario_name: name,
+                            year,
+                            share: &layer.values,
+                            target_share: 0.3,
+                            weight: 1.0,
+                        },
                     ));
                 }
             }
@@ -155,14 +203,30 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
 
     let problem = timed(&mut figures, "model", || {
         let p = Problem {
-            cost: grid.cells.iter().map(|c| c.sea_area_km2 * (1.0 + (c.centre[0] / 50_000.0).sin().abs())).collect(),
+            cost: grid
+                .cells
+                .iter()
+                .map(|c| c.sea_area_km2 * (1.0 + (c.centre[0] / 50_000.0).sin().abs()))
+                .collect(),
             area_km2: grid.cells.iter().map(|c| c.sea_area_km2).collect(),
             status: vec![CellStatus::Free; grid.len()],
-            scenarios: scenarios.iter().map(|s| Scenario { name: s.0.into(), weight: 1.0 }).collect(),
+            scenarios: scenarios
+                .iter()
+                .map(|s| Scenario {
+                    name: s.0.into(),
+                    weight: 1.0,
+                })
+                .collect(),
             features: features
                 .features
                 .iter()
-                .map(|f| ModelFeature { name: f.name.clone(), scenario: f.scenario, amounts: f.amounts.clone(), target: f.target.amount(f.total), weight: 1.0 })
+                .map(|f| ModelFeature {
+                    name: f.name.clone(),
+                    scenario: f.scenario,
+                    amounts: f.amounts.clone(),
+                    target: f.target.amount(f.total),
+                    weight: 1.0,
+                })
                 .collect(),
             objective: Objective::MinCost,
             robustness: Robustness::EveryScenario,
@@ -171,11 +235,24 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             spacing: None,
             scenario_best: None,
         };
-        Ok((p, format!("{} cells × {} feature rows", grid.len(), features.features.len())))
+        Ok((
+            p,
+            format!(
+                "{} cells × {} feature rows",
+                grid.len(),
+                features.features.len()
+            ),
+        ))
     })?;
 
     progress("bench: solve (HiGHS)");
-    let options = SolveOptions { time_limit_s: Some(spec.time_limit_s), rel_gap: spec.gap, threads: None, verbose: false, seed: 1 };
+    let options = SolveOptions {
+        time_limit_s: Some(spec.time_limit_s),
+        rel_gap: spec.gap,
+        threads: None,
+        verbose: false,
+        seed: 1,
+    };
     let solution = timed(&mut figures, "solve", || {
         let sol = crate::solve::ilp::Highs::default().solve(&problem, &options)?;
         let note = format!("{}, gap {:.3}%", sol.status.as_str(), 100.0 * sol.gap);
@@ -184,12 +261,18 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
 
     let assessment = timed(&mut figures, "assess", || {
         let a = crate::assess::assess(&grid, &features, &problem.cost, &solution.selected);
-        let note = format!("{} reserves, {}/{} targets met", a.reserves.len(), a.targets_met, a.coverage.len());
+        let note = format!(
+            "{} reserves, {}/{} targets met",
+            a.reserves.len(),
+            a.targets_met,
+            a.coverage.len()
+        );
         Ok((a, note))
     })?;
 
     timed(&mut figures, "export network.geojson", || {
-        let text = crate::export::geojson::network_geojson(&grid, &assessment).map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(e.to_string())))?;
+        let text = crate::export::geojson::network_geojson(&grid, &assessment)
+            .map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(e.to_string())))?;
         Ok(((), format!("{:.1} MB", text.len() as f64 / 1e6)))
     })?;
     Ok(figures)

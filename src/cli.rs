@@ -173,7 +173,10 @@ pub fn run(args: Args) -> Result<()> {
             let empty = driftplan::features::FeatureTable::default();
             let none = vec![false; grid.len()];
             let files = vec![
-                ("grid.geojson", export::cells_geojson(&grid, &[], &empty, &none)?),
+                (
+                    "grid.geojson",
+                    export::cells_geojson(&grid, &[], &empty, &none)?,
+                ),
                 ("grid.csv", export::cells_csv(&grid, &[], &empty, &none)?),
             ];
             export::write_outputs(&out, &files)?;
@@ -199,17 +202,9 @@ pub fn run(args: Args) -> Result<()> {
                 ),
                 (
                     "cells.csv",
-                    export::cells_csv(
-                        &inputs.grid,
-                        &inputs.layers,
-                        &inputs.features,
-                        &none,
-                    )?,
+                    export::cells_csv(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
                 ),
-                (
-                    "features.csv",
-                    export::features_csv(&inputs.features)?,
-                ),
+                ("features.csv", export::features_csv(&inputs.features)?),
             ];
             export::write_outputs(&out, &files)?;
             progress.say(&format!(
@@ -219,13 +214,29 @@ pub fn run(args: Args) -> Result<()> {
             Ok(())
         }
         Command::Solve { plan, out, solver } => solve(&plan, &out, &solver, &progress),
-        Command::Bench { cells, species, time_limit, gap } => {
-            println!("{:>9}  {:<24} {:>9} {:>10}  note", "cells", "stage", "seconds", "peak MiB");
+        Command::Bench {
+            cells,
+            species,
+            time_limit,
+            gap,
+        } => {
+            println!(
+                "{:>9}  {:<24} {:>9} {:>10}  note",
+                "cells", "stage", "seconds", "peak MiB"
+            );
             for n in cells {
                 anyhow::ensure!(n >= 100, "--cells values must be at least 100, got {n}");
-                let spec = driftplan::bench::BenchSpec { cells: n, species, time_limit_s: time_limit, gap };
+                let spec = driftplan::bench::BenchSpec {
+                    cells: n,
+                    species,
+                    time_limit_s: time_limit,
+                    gap,
+                };
                 for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
-                    println!("{n:>9}  {:<24} {:>9.2} {:>10.1}  {}", f.stage, f.seconds, f.peak_mib, f.note);
+                    println!(
+                        "{n:>9}  {:<24} {:>9.2} {:>10.1}  {}",
+                        f.stage, f.seconds, f.peak_mib, f.note
+                    );
                 }
             }
             Ok(())
@@ -302,7 +313,13 @@ fn write_solution(
     assessment: &driftplan::assess::Assessment,
     out: &Path,
 ) -> Result<()> {
-    let summary = export::Summary::new(&plan.name, &plan.hash, solution, assessment, inputs.grid.len());
+    let summary = export::Summary::new(
+        &plan.name,
+        &plan.hash,
+        solution,
+        assessment,
+        inputs.grid.len(),
+    );
     let files = vec![
         (
             "network.geojson",
@@ -365,8 +382,14 @@ fn print_summary(
     println!("  reserves    {}", a.reserves.len());
     println!("  targets met {} of {}", a.targets_met, n_targets);
     for s in &solution.scenarios {
-        let regret = s.regret.map(|r| format!(", regret {r:.3}")).unwrap_or_default();
-        println!("    {:<12} {} of {} targets met, benefit {:.3} of {:.0}{regret}", s.name, s.targets_met, s.targets, s.benefit, s.benefit_max);
+        let regret = s
+            .regret
+            .map(|r| format!(", regret {r:.3}"))
+            .unwrap_or_default();
+        println!(
+            "    {:<12} {} of {} targets met, benefit {:.3} of {:.0}{regret}",
+            s.name, s.targets_met, s.targets, s.benefit, s.benefit_max
+        );
     }
     println!("  outputs     {}", out.display());
     println!("Decision support only: results rest on projections with large uncertainty; siting decisions rest with the planning authority, local law and consultation with those who use the sea.");

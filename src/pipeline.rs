@@ -3,11 +3,11 @@
 //! callback the caller supplies).
 
 use crate::assess::{assess, Assessment};
+use crate::features::edges::meridian_distance_km;
 use crate::features::habitat::{habitat_feature, HabitatLayer};
 use crate::features::FeatureTable;
 use crate::grid::{build_grid, Grid, GridError};
 use crate::layers::{read_multipolygon, sample, Layer, LayerError, SourceCache};
-use crate::features::edges::meridian_distance_km;
 use crate::model::{Budget, CellStatus, EdgePenalty, ModelFeature, Problem, Scenario, Spacing};
 use crate::plan::{CostPlan, Plan};
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
@@ -285,9 +285,17 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             max_cost: plan.budget.max_cost,
             max_area_km2: plan.budget.max_share.map(|s| s * inputs.grid.sea_area_km2),
         },
-        edge_penalty: plan.rules.edge_penalty.map(|w| edge_penalty(&inputs.grid, w, plan.rules.count_coast_edges)),
+        edge_penalty: plan
+            .rules
+            .edge_penalty
+            .map(|w| edge_penalty(&inputs.grid, w, plan.rules.count_coast_edges)),
         spacing: plan.rules.max_gap_km.map(|g| Spacing {
-            position_km: inputs.grid.cells.iter().map(|c| meridian_distance_km(c.lonlat[1])).collect(),
+            position_km: inputs
+                .grid
+                .cells
+                .iter()
+                .map(|c| meridian_distance_km(c.lonlat[1]))
+                .collect(),
             max_gap_km: g,
         }),
         scenario_best: None,
@@ -307,9 +315,17 @@ pub fn edge_penalty(grid: &Grid, weight: f64, count_coast_edges: bool) -> EdgePe
                 pairs.push((i as u32, n.cell, n.shared_km));
             }
         }
-        alone.push(if count_coast_edges { shared + grid.boundary_km(i as u32) } else { shared });
+        alone.push(if count_coast_edges {
+            shared + grid.boundary_km(i as u32)
+        } else {
+            shared
+        });
     }
-    EdgePenalty { weight, pairs, exposed_if_alone_km: alone }
+    EdgePenalty {
+        weight,
+        pairs,
+        exposed_if_alone_km: alone,
+    }
 }
 
 /// Solver options from the plan, with CLI overrides already applied by the caller.
@@ -342,13 +358,23 @@ mod tests {
     fn edge_penalty_pairs_and_alone_edges_from_the_grid() {
         // 2×2 grid of 10 km squares (hand computation): 4 neighbouring pairs of 10 km; each cell
         // shares 20 km with its two neighbours and has 20 km of outer boundary.
-        let grid = Grid::full_rectangle(Crs::auto_laea(150.0, -40.0), 10_000.0, [0.0, 0.0], 2, 2).unwrap();
+        let grid =
+            Grid::full_rectangle(Crs::auto_laea(150.0, -40.0), 10_000.0, [0.0, 0.0], 2, 2).unwrap();
         let open_sea = edge_penalty(&grid, 2.0, false);
         assert_eq!(open_sea.pairs.len(), 4);
-        assert!(open_sea.pairs.iter().all(|p| p.0 < p.1 && (p.2 - 10.0).abs() < 1e-9));
-        assert!(open_sea.exposed_if_alone_km.iter().all(|e| (e - 20.0).abs() < 1e-9));
+        assert!(open_sea
+            .pairs
+            .iter()
+            .all(|p| p.0 < p.1 && (p.2 - 10.0).abs() < 1e-9));
+        assert!(open_sea
+            .exposed_if_alone_km
+            .iter()
+            .all(|e| (e - 20.0).abs() < 1e-9));
         let coast = edge_penalty(&grid, 2.0, true);
-        assert!(coast.exposed_if_alone_km.iter().all(|e| (e - 40.0).abs() < 1e-9));
+        assert!(coast
+            .exposed_if_alone_km
+            .iter()
+            .all(|e| (e - 40.0).abs() < 1e-9));
         // The whole block chosen: exposed = Σ P − 2 Σ l = 4·40 − 2·4·10 = 80 km, its perimeter.
         let all = vec![true; 4];
         assert!((crate::model::compact::exposed_edge_km(&coast, &all) - 80.0).abs() < 1e-9);

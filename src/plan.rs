@@ -925,7 +925,13 @@ impl Plan {
                 ck.unknown(
                     "optimise",
                     &o.extra,
-                    &["objective", "robustness", "edge_penalty", "count_coast_edges", "max_gap_km"],
+                    &[
+                        "objective",
+                        "robustness",
+                        "edge_penalty",
+                        "count_coast_edges",
+                        "max_gap_km",
+                    ],
                 );
                 if let Some(w) = o.edge_penalty {
                     if !(w.is_finite() && w >= 0.0) {
@@ -1015,7 +1021,16 @@ impl Plan {
 
         let species_names: Vec<&str> = species.iter().map(|s| s.name.as_str()).collect();
         let climate = raw.climate.as_ref().and_then(|c| {
-            climate::validate(c, &mut ck, &climate::Context { scenarios: &scenarios, years: &years, species: &species_names, has_temperature: temperature.is_some() })
+            climate::validate(
+                c,
+                &mut ck,
+                &climate::Context {
+                    scenarios: &scenarios,
+                    years: &years,
+                    species: &species_names,
+                    has_temperature: temperature.is_some(),
+                },
+            )
         });
 
         if !ck.issues.is_empty() {

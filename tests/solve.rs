@@ -94,7 +94,10 @@ fn tiny_instance_min_set() {
     assert!((h.objective - 7.0).abs() < 1e-9);
     assert!((h.bound - 7.0).abs() < 1e-6);
     let chosen = ids(&h.selected);
-    assert!(chosen == vec![2, 4] || chosen == vec![0, 4, 5], "{chosen:?}");
+    assert!(
+        chosen == vec![2, 4] || chosen == vec![0, 4, 5],
+        "{chosen:?}"
+    );
     assert_eq!(BruteForce.solve(&p, &opts()).unwrap().objective, 7.0);
 }
 
@@ -176,7 +179,12 @@ fn random_instance(seed: u64) -> Problem {
                 })
                 .collect();
             // Targets are a share of what the allowed cells hold, so min-cost is often feasible.
-            let total: f64 = dense.iter().enumerate().filter(|(i, _)| *i != exc).map(|(_, a)| a).sum();
+            let total: f64 = dense
+                .iter()
+                .enumerate()
+                .filter(|(i, _)| *i != exc)
+                .map(|(_, a)| a)
+                .sum();
             let mut f = feature(
                 &format!("f{s}.{k}"),
                 (s < n_scen).then_some(s),
@@ -205,7 +213,8 @@ fn random_instance(seed: u64) -> Problem {
     // other sides are coast or region boundary the plan does not count).
     for (i, e) in pen.exposed_if_alone_km.iter_mut().enumerate() {
         let (r, c) = (i / cols, i % cols);
-        let neighbours = (r > 0) as u8 + (r + 1 < rows) as u8 + (c > 0) as u8 + (c + 1 < cols) as u8;
+        let neighbours =
+            (r > 0) as u8 + (r + 1 < rows) as u8 + (c > 0) as u8 + (c + 1 < cols) as u8;
         *e = neighbours as f64 + (r == 0) as u8 as f64;
     }
     pen.weight = rng.gen_range(1..=4) as f64 * 0.25;
@@ -258,7 +267,9 @@ fn highs_matches_brute_force_on_random_instances() {
                                 p.budget = Budget::default();
                             }
                         }
-                        let what = format!("seed {seed} {objective:?} {robustness:?} edge {edge} gap {gap}");
+                        let what = format!(
+                            "seed {seed} {objective:?} {robustness:?} edge {edge} gap {gap}"
+                        );
                         let prepared = match with_scenario_best(&p, &Highs::default(), &opts()) {
                             Ok(q) => q,
                             Err(SolveError::Model(_)) => {
@@ -275,10 +286,14 @@ fn highs_matches_brute_force_on_random_instances() {
                             }
                             Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => {
                                 // Bₛ* of some scenario has no network: brute force agrees.
-                                assert!(matches!(
-                                    BruteForce.solve(&p, &opts()),
-                                    Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))
-                                ), "{what}");
+                                assert!(
+                                    matches!(
+                                        BruteForce.solve(&p, &opts()),
+                                        Err(SolveError::Infeasible(_)
+                                            | SolveError::JointlyInfeasible(_))
+                                    ),
+                                    "{what}"
+                                );
                                 continue;
                             }
                             Err(e) => panic!("{what}: {e}"),
@@ -302,10 +317,20 @@ fn highs_matches_brute_force_on_random_instances() {
                         match (&h, &b) {
                             (Ok(h), Ok(b)) => {
                                 assert_eq!(h.status, SolveStatus::Optimal, "{what}");
-                                assert!(close(h.objective, b.objective), "{what}: {} vs {}", h.objective, b.objective);
+                                assert!(
+                                    close(h.objective, b.objective),
+                                    "{what}: {} vs {}",
+                                    h.objective,
+                                    b.objective
+                                );
                                 let e = evaluate(&prepared, &h.selected);
                                 assert!(e.feasible, "{what}");
-                                assert!(close(e.objective, h.objective), "{what}: evaluate {} vs {}", e.objective, h.objective);
+                                assert!(
+                                    close(e.objective, h.objective),
+                                    "{what}: evaluate {} vs {}",
+                                    e.objective,
+                                    h.objective
+                                );
                                 assert!(close(h.bound, h.objective), "{what}");
                                 if objective == Objective::MinCost {
                                     assert!(e.met.iter().all(|m| *m), "{what}");
@@ -313,7 +338,12 @@ fn highs_matches_brute_force_on_random_instances() {
                                 // The heuristics keep the rules and cannot beat the optimum.
                                 let minimise = objective == Objective::MinCost
                                     || robustness == Robustness::LeastRegret;
-                                for heuristic in [&Greedy as &dyn Solver, &Anneal { iterations: Some(3000) }] {
+                                for heuristic in [
+                                    &Greedy as &dyn Solver,
+                                    &Anneal {
+                                        iterations: Some(3000),
+                                    },
+                                ] {
                                     if let Ok(s) = heuristic.solve(&prepared, &opts()) {
                                         let e = evaluate(&prepared, &s.selected);
                                         assert!(e.feasible, "{what} {}", s.solver);
@@ -327,10 +357,15 @@ fn highs_matches_brute_force_on_random_instances() {
                                     }
                                 }
                                 checked += 1;
-                                optima.insert((seed, objective as u8, robustness as u8, edge, gap), h.objective);
+                                optima.insert(
+                                    (seed, objective as u8, robustness as u8, edge, gap),
+                                    h.objective,
+                                );
                             }
-                            (Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
-                             Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))) => {}
+                            (
+                                Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
+                                Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
+                            ) => {}
                             _ => panic!("{what}: highs {h:?} brute {b:?}"),
                         }
                     }
@@ -343,10 +378,15 @@ fn highs_matches_brute_force_on_random_instances() {
     let binding_gap = optima
         .iter()
         .filter(|((s, o, r, e, g), v)| {
-            *g && optima.get(&(*s, *o, *r, *e, false)).is_some_and(|w| !close(**v, *w))
+            *g && optima
+                .get(&(*s, *o, *r, *e, false))
+                .is_some_and(|w| !close(**v, *w))
         })
         .count();
-    assert!(binding_gap >= 5, "max gap changed only {binding_gap} optima");
+    assert!(
+        binding_gap >= 5,
+        "max gap changed only {binding_gap} optima"
+    );
 }
 
 #[test]
@@ -411,7 +451,10 @@ fn max_gap_costs_a_stepping_stone() {
     assert!(g.met);
     assert_eq!(g.longest_gap_km, 20.0);
     p.spacing.as_mut().unwrap().max_gap_km = 15.0;
-    assert!(close(Highs::default().solve(&p, &opts()).unwrap().objective, 11.0));
+    assert!(close(
+        Highs::default().solve(&p, &opts()).unwrap().objective,
+        11.0
+    ));
     // Greedy also meets the rule (by its gap repair).
     let gr = Greedy.solve(&p, &opts()).unwrap();
     assert!(evaluate(&p, &gr.selected).gap.unwrap().met);
@@ -459,7 +502,10 @@ fn least_regret_differs_from_worst_case_and_expected() {
     let best = rs.scenario_best.clone().unwrap();
     assert!(best.iter().zip([7.0, 6.0, 3.0]).all(|(a, b)| close(*a, b)));
     let regrets: Vec<f64> = rs.scenarios.iter().map(|s| s.regret.unwrap()).collect();
-    assert!(regrets.iter().zip([2.0, 1.0, 1.0]).all(|(a, b)| close(*a, b)));
+    assert!(regrets
+        .iter()
+        .zip([2.0, 1.0, 1.0])
+        .all(|(a, b)| close(*a, b)));
 }
 
 #[test]
@@ -513,7 +559,13 @@ fn medium(seed: u64, rows: usize, cols: usize, n_feat: usize, edge: f64) -> Prob
     let features = (0..n_feat)
         .map(|k| {
             let dense: Vec<f64> = (0..n)
-                .map(|_| if rng.gen_bool(0.1) { rng.gen_range(0.5..5.0) } else { 0.0 })
+                .map(|_| {
+                    if rng.gen_bool(0.1) {
+                        rng.gen_range(0.5..5.0)
+                    } else {
+                        0.0
+                    }
+                })
                 .collect();
             let total: f64 = dense.iter().sum();
             feature(&format!("f{k}"), None, &dense, 0.3 * total)
@@ -556,9 +608,14 @@ fn tiny_time_limit_reports_time_limit_or_optimal() {
 fn heuristics_are_deterministic() {
     // Same seed → same network (ChaCha8 stream); the greedy has no randomness at all.
     let p = medium(5, 8, 8, 6, 0.2);
-    let a = Anneal { iterations: Some(5000) };
+    let a = Anneal {
+        iterations: Some(5000),
+    };
     let o = SolveOptions { seed: 42, ..opts() };
-    assert_eq!(a.solve(&p, &o).unwrap().selected, a.solve(&p, &o).unwrap().selected);
+    assert_eq!(
+        a.solve(&p, &o).unwrap().selected,
+        a.solve(&p, &o).unwrap().selected
+    );
     assert_eq!(
         Greedy.solve(&p, &o).unwrap().selected,
         Greedy.solve(&p, &o).unwrap().selected

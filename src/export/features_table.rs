@@ -7,11 +7,21 @@ use crate::features::FeatureTable;
 pub fn features_csv(table: &FeatureTable) -> Result<String, ExportError> {
     let mut w = csv::Writer::from_writer(Vec::new());
     // Writing into memory cannot fail for I/O reasons; any error is still reported, not unwrapped.
-    let fail = |reason: String| ExportError::Io { path: "features.csv".into(), source: std::io::Error::other(reason) };
+    let fail = |reason: String| ExportError::Io {
+        path: "features.csv".into(),
+        source: std::io::Error::other(reason),
+    };
     let csv_err = |e: csv::Error| fail(e.to_string());
-    w.write_record(["feature", "kind", "species", "scenario", "year", "unit", "cells", "total", "target"]).map_err(csv_err)?;
+    w.write_record([
+        "feature", "kind", "species", "scenario", "year", "unit", "cells", "total", "target",
+    ])
+    .map_err(csv_err)?;
     for f in &table.features {
-        let scenario = f.scenario.and_then(|s| table.scenarios.get(s)).cloned().unwrap_or_default();
+        let scenario = f
+            .scenario
+            .and_then(|s| table.scenarios.get(s))
+            .cloned()
+            .unwrap_or_default();
         w.write_record([
             f.name.clone(),
             f.kind.as_str().to_string(),
@@ -54,6 +64,9 @@ mod tests {
         };
         let text = features_csv(&table).unwrap();
         // Target 25% of 8 km² = 2 km² (hand computation).
-        assert_eq!(text.lines().nth(1).unwrap(), "habitat/a/s1/2050,habitat,a,s1,2050,km2,2,8.000000,2.000000");
+        assert_eq!(
+            text.lines().nth(1).unwrap(),
+            "habitat/a/s1/2050,habitat,a,s1,2050,km2,2,8.000000,2.000000"
+        );
     }
 }

@@ -14,9 +14,9 @@ pub mod summary;
 pub mod table;
 
 pub use atomic::write_atomic;
+pub use features_table::features_csv;
 pub use geojson::{cells_csv, cells_geojson, network_geojson};
 pub use summary::{plan_hash, summary_json, Summary};
-pub use features_table::features_csv;
 pub use table::coverage_csv;
 
 use crate::grid::GridError;

@@ -3,8 +3,8 @@
 
 pub mod boundary;
 pub mod corridor;
-pub mod distinctness;
 pub mod derive;
+pub mod distinctness;
 pub mod edges;
 pub mod time;
 

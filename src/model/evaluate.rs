@@ -137,7 +137,10 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         .as_ref()
         .map(|sp| check_gaps(sp, &problem.status, selected));
     let within_budget = problem.budget.max_cost.is_none_or(|m| at_least(m, cost))
-        && problem.budget.max_area_km2.is_none_or(|m| at_least(m, area_km2));
+        && problem
+            .budget
+            .max_area_km2
+            .is_none_or(|m| at_least(m, area_km2));
     let status_respected = problem.status.iter().zip(selected).all(|(st, s)| match st {
         CellStatus::Free => true,
         CellStatus::Required => *s,

@@ -93,7 +93,13 @@ pub fn scenario_shares(problem: &Problem) -> Vec<f64> {
     problem
         .scenarios
         .iter()
-        .map(|s| if total > 0.0 { s.weight / total } else { 1.0 / n })
+        .map(|s| {
+            if total > 0.0 {
+                s.weight / total
+            } else {
+                1.0 / n
+            }
+        })
         .collect()
 }
 
@@ -156,15 +162,14 @@ mod tests {
     use crate::model::{Budget, CellStatus, ModelFeature, Scenario};
 
     fn two_scenarios() -> Problem {
-        let f = |name: &str, s: Option<usize>, amounts: Vec<(u32, f64)>, target, weight| {
-            ModelFeature {
+        let f =
+            |name: &str, s: Option<usize>, amounts: Vec<(u32, f64)>, target, weight| ModelFeature {
                 name: name.into(),
                 scenario: s,
                 amounts,
                 target,
                 weight,
-            }
-        };
+            };
         Problem {
             cost: vec![1.0, 1.0],
             area_km2: vec![1.0, 1.0],
@@ -219,7 +224,10 @@ mod tests {
         assert_eq!(effective_robustness(&q), Robustness::EveryScenario);
         let sub = scenario_problem(&p, 1);
         assert_eq!(
-            sub.features.iter().map(|f| f.name.as_str()).collect::<Vec<_>>(),
+            sub.features
+                .iter()
+                .map(|f| f.name.as_str())
+                .collect::<Vec<_>>(),
             vec!["q", "r"]
         );
         assert_eq!(sub.features[0].scenario, Some(0));

@@ -93,9 +93,12 @@ pub fn check_gaps(spacing: &Spacing, status: &[CellStatus], selected: &[bool]) -
         .collect();
     chosen.sort_by(f64::total_cmp);
     chosen.dedup();
-    let (Some(&first), Some(&last), Some(&p1), Some(&pm)) =
-        (chosen.first(), chosen.last(), allowed.first(), allowed.last())
-    else {
+    let (Some(&first), Some(&last), Some(&p1), Some(&pm)) = (
+        chosen.first(),
+        chosen.last(),
+        allowed.first(),
+        allowed.last(),
+    ) else {
         return GapReport {
             longest_gap_km: f64::INFINITY,
             met: allowed.is_empty(),
@@ -137,9 +140,7 @@ pub fn gap_rows(spacing: &Spacing, status: &[CellStatus]) -> (Vec<GapRow>, Vec<O
         .position_km
         .iter()
         .zip(status)
-        .map(|(p, s)| {
-            (*s != CellStatus::Excluded).then(|| allowed.partition_point(|&a| a < *p))
-        })
+        .map(|(p, s)| (*s != CellStatus::Excluded).then(|| allowed.partition_point(|&a| a < *p)))
         .collect();
     let (Some(&p1), Some(&pm)) = (allowed.first(), allowed.last()) else {
         return (Vec::new(), position_of);
@@ -246,7 +247,11 @@ mod tests {
                 });
                 let direct = check_gaps(&s, &st, &sel).met;
                 if npos > 0 {
-                    assert_eq!(rows_ok, direct, "pos {pos:?} st {st:?} g {} sel {sel:?}", s.max_gap_km);
+                    assert_eq!(
+                        rows_ok, direct,
+                        "pos {pos:?} st {st:?} g {} sel {sel:?}",
+                        s.max_gap_km
+                    );
                 }
             }
         }

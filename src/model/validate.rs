@@ -185,7 +185,12 @@ impl Problem {
             }
         }
         if let Some(best) = &self.scenario_best {
-            check_len("scenario_best", best.len(), self.scenarios.len(), "scenarios")?;
+            check_len(
+                "scenario_best",
+                best.len(),
+                self.scenarios.len(),
+                "scenarios",
+            )?;
         }
         if self.objective == Objective::MinCost && self.robustness == Robustness::Expected {
             return Err(ModelError::Combination(

@@ -24,12 +24,7 @@ use super::Shortfall;
 
 /// LP-knapsack bound: the most of `amount` (per cell) a network can hold with `weight` (per
 /// cell) at most `limit`, required cells included, excluded cells left out.
-fn knapsack_bound(
-    problem: &Problem,
-    amount: &[(u32, f64)],
-    weight: &[f64],
-    limit: f64,
-) -> f64 {
+fn knapsack_bound(problem: &Problem, amount: &[(u32, f64)], weight: &[f64], limit: f64) -> f64 {
     let mut room = limit;
     let mut held = 0.0;
     for (i, st) in problem.status.iter().enumerate() {
@@ -99,7 +94,12 @@ pub fn diagnose(problem: &Problem) -> Vec<Shortfall> {
             bound = bound.min(knapsack_bound(problem, &f.amounts, &problem.cost, limit));
         }
         if let Some(limit) = problem.budget.max_area_km2 {
-            bound = bound.min(knapsack_bound(problem, &f.amounts, &problem.area_km2, limit));
+            bound = bound.min(knapsack_bound(
+                problem,
+                &f.amounts,
+                &problem.area_km2,
+                limit,
+            ));
         }
         if !at_least(bound, f.target) {
             out.push(shortfall(bound, "budget"));
@@ -148,7 +148,10 @@ mod tests {
         let mut st = free.clone();
         st[2] = CellStatus::Excluded;
         let d = diagnose(&problem(st, 8.0, Budget::default()));
-        assert_eq!((d[0].achievable, d[0].binding.as_str()), (5.0, "excluded cells"));
+        assert_eq!(
+            (d[0].achievable, d[0].binding.as_str()),
+            (5.0, "excluded cells")
+        );
         // Cost budget 3: ratios a/c = 1 (cell 0), 2 (cell 1), 1 (cell 2). Hand LP knapsack:
         // take cell 1 (cost 2, 4), then cell 0 (cost 1, 1): 5 with the budget used → 5 < 8.
         let b = Budget {

@@ -69,10 +69,11 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
     let n = problem.n_cells();
     let mut vars = ProblemVariables::new();
     let mut cols = Vec::new();
-    let mut add = |vars: &mut ProblemVariables, def: good_lp::VariableDefinition, col: Col| -> Variable {
-        cols.push(col);
-        vars.add(def)
-    };
+    let mut add =
+        |vars: &mut ProblemVariables, def: good_lp::VariableDefinition, col: Col| -> Variable {
+            cols.push(col);
+            vars.add(def)
+        };
     let x: Vec<Variable> = (0..n)
         .map(|i| {
             let def = match problem.status[i] {
@@ -266,7 +267,10 @@ impl Formulation {
                 Col::X(i) => xv(i),
                 Col::Y(k) => e.held[k].min(problem.features[k].target),
                 Col::Z(q) => {
-                    let (i, j, _) = problem.edge_penalty.as_ref().map_or((0, 0, 0.0), |p| p.pairs[q]);
+                    let (i, j, _) = problem
+                        .edge_penalty
+                        .as_ref()
+                        .map_or((0, 0, 0.0), |p| p.pairs[q]);
                     xv(i as usize) * xv(j as usize)
                 }
                 Col::U(q) => {

@@ -138,11 +138,14 @@ pub fn with_scenario_best(
 ) -> Result<Problem, SolveError> {
     problem.validate()?;
     let mut out = problem.clone();
-    if effective_robustness(problem) == Robustness::LeastRegret && problem.scenario_best.is_none()
-    {
+    if effective_robustness(problem) == Robustness::LeastRegret && problem.scenario_best.is_none() {
         let mut best = Vec::with_capacity(problem.scenarios.len());
         for s in 0..problem.scenarios.len() {
-            best.push(solver.solve(&scenario_problem(problem, s), options)?.objective);
+            best.push(
+                solver
+                    .solve(&scenario_problem(problem, s), options)?
+                    .objective,
+            );
         }
         out.scenario_best = Some(best);
     }
