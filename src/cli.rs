@@ -205,6 +205,10 @@ pub fn run(args: Args) -> Result<()> {
                     export::cells_csv(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
                 ),
                 ("features.csv", export::features_csv(&inputs.features)?),
+                (
+                    "edge-shifts.csv",
+                    export::edge_shifts_csv(&inputs.edge_shifts)?,
+                ),
             ];
             export::write_outputs(&out, &files)?;
             progress.say(&format!(
@@ -345,6 +349,11 @@ fn write_solution(
         ),
         ("coverage.csv", export::coverage_csv(assessment)),
         ("summary.json", export::summary_json(&summary)),
+        ("features.csv", export::features_csv(&inputs.features)?),
+        (
+            "edge-shifts.csv",
+            export::edge_shifts_csv(&inputs.edge_shifts)?,
+        ),
     ];
     export::write_outputs(out, &files)?;
     Ok(())

@@ -41,6 +41,9 @@ pub enum RunError {
         /// Its latitude.
         lat: f64,
     },
+    /// Derived climate features could not be built.
+    #[error(transparent)]
+    Climate(#[from] crate::climate::ClimateError),
     /// The optimiser failed or the targets cannot be met.
     #[error(transparent)]
     Solve(#[from] SolveError),
@@ -59,6 +62,8 @@ pub struct Inputs {
     pub status: Vec<CellStatus>,
     /// All features with their targets.
     pub features: FeatureTable,
+    /// Range-edge shifts per species and scenario (empty without a `[climate]` section).
+    pub edge_shifts: Vec<crate::features::derive::EdgeShift>,
 }
 
 /// Builds the grid of a plan.
@@ -179,16 +184,23 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
     let required = share_of(&plan.required, "required");
     let excluded = share_of(&plan.excluded, "excluded");
 
+    // temperature[scenario][year][cell], °C.
+    let mut temperature: Vec<Vec<Vec<f64>>> = Vec::new();
     if let Some(t) = &plan.temperature {
         progress("sampling sea temperature");
         for scenario in &plan.scenarios {
+            let mut series = Vec::new();
             for &year in &plan.years {
                 let name = format!("sst_c/{scenario}/{year}");
                 match sample(&name, &t.resolve("", scenario, year), &grid, &cache) {
-                    Ok(l) => layers.push(l),
+                    Ok(l) => {
+                        series.push(l.values.clone());
+                        layers.push(l);
+                    }
                     Err(e) => errors.push(e),
                 }
             }
+            temperature.push(series);
         }
     }
     if !errors.is_empty() {
@@ -240,6 +252,22 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
             values: cost.clone(),
         },
     );
+    let mut edge_shifts = Vec::new();
+    if let Some(climate) = &plan.climate {
+        progress("deriving climate features (velocity, trajectories, edges, refugia, ...)");
+        let derived = crate::features::derive::derive_climate_features(
+            climate,
+            &grid,
+            &plan.scenarios,
+            &plan.years,
+            &temperature,
+            &features,
+            &cache,
+        )?;
+        features.features.extend(derived.features);
+        layers.extend(derived.layers);
+        edge_shifts = derived.edge_shifts;
+    }
     progress(&format!("features: {}", features.features.len()));
     Ok(Inputs {
         grid,
@@ -247,6 +275,7 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         cost,
         status,
         features,
+        edge_shifts,
     })
 }
 

@@ -172,3 +172,52 @@ fn bad_inputs_give_clear_errors() {
     std::fs::write(&csv, lines.join("\n") + "\n").unwrap();
     check_fails_with(&plan2, &["static.csv", "6"]);
 }
+
+#[test]
+fn climate_demo_holds_leading_edge_and_refugium_targets_in_every_scenario() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = driftplan()
+        .args(["solve", "--quiet", "scenarios/demo-climate.toml", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let mut rdr = csv::Reader::from_path(dir.path().join("coverage.csv")).unwrap();
+    let headers = rdr.headers().unwrap().clone();
+    let col = |name: &str| headers.iter().position(|h| h == name).unwrap();
+    let (kind, scen, held, target) = (col("kind"), col("scenario"), col("held"), col("target"));
+    let mut seen = std::collections::BTreeSet::new();
+    for rec in rdr.records() {
+        let rec = rec.unwrap();
+        if ["leading-edge", "refugium"].contains(&&rec[kind]) {
+            let (h, t): (f64, f64) = (rec[held].parse().unwrap(), rec[target].parse().unwrap());
+            assert!(t > 0.0 && h >= t * (1.0 - 1e-6), "not held: {rec:?}");
+            seen.insert((rec[kind].to_string(), rec[scen].to_string()));
+        }
+    }
+    // Both kinds in all three scenarios.
+    assert_eq!(seen.len(), 6, "{seen:?}");
+    // Leading edges shift poleward (positive) in every scenario of the demo.
+    let shifts = std::fs::read_to_string(dir.path().join("edge-shifts.csv")).unwrap();
+    let mut rdr = csv::Reader::from_reader(shifts.as_bytes());
+    let mut mean = std::collections::BTreeMap::<String, (f64, usize)>::new();
+    for rec in rdr.records() {
+        let rec = rec.unwrap();
+        if let Ok(v) = rec[2].parse::<f64>() {
+            let e = mean.entry(rec[1].to_string()).or_default();
+            e.0 += v;
+            e.1 += 1;
+        }
+    }
+    for (scenario, (sum, n)) in &mean {
+        assert!(
+            sum / *n as f64 > 0.0,
+            "{scenario}: mean leading-edge shift {}",
+            sum / *n as f64
+        );
+    }
+}

@@ -39,6 +39,37 @@ pub fn features_csv(table: &FeatureTable) -> Result<String, ExportError> {
     String::from_utf8(bytes).map_err(|e| fail(e.to_string()))
 }
 
+/// `edge-shifts.csv`: per species × scenario, leading and trailing edge shifts (km per decade,
+/// poleward positive; empty where a species has too little habitat to place an edge).
+pub fn edge_shifts_csv(
+    shifts: &[crate::features::derive::EdgeShift],
+) -> Result<String, ExportError> {
+    let fail = |reason: String| ExportError::Io {
+        path: "edge-shifts.csv".into(),
+        source: std::io::Error::other(reason),
+    };
+    let mut w = csv::Writer::from_writer(Vec::new());
+    w.write_record([
+        "species",
+        "scenario",
+        "leading_km_per_decade",
+        "trailing_km_per_decade",
+    ])
+    .map_err(|e| fail(e.to_string()))?;
+    let num = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_default();
+    for s in shifts {
+        w.write_record([
+            s.species.clone(),
+            s.scenario.clone(),
+            num(s.leading_km_per_decade),
+            num(s.trailing_km_per_decade),
+        ])
+        .map_err(|e| fail(e.to_string()))?;
+    }
+    let bytes = w.into_inner().map_err(|e| fail(e.to_string()))?;
+    String::from_utf8(bytes).map_err(|e| fail(e.to_string()))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

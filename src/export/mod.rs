@@ -14,7 +14,7 @@ pub mod summary;
 pub mod table;
 
 pub use atomic::write_atomic;
-pub use features_table::features_csv;
+pub use features_table::{edge_shifts_csv, features_csv};
 pub use geojson::{cells_csv, cells_geojson, network_geojson};
 pub use summary::{plan_hash, summary_json, Summary};
 pub use table::coverage_csv;
