@@ -277,13 +277,16 @@ fn ring_json(ring: &[(f64, f64)]) -> String {
     format!("[{}]", pts.join(","))
 }
 
-fn feature_collection(features: &[(String, Vec<Vec<(f64, f64)>>)]) -> String {
+/// One polygon feature: its properties (a JSON object) and its rings.
+type PolygonFeature = (String, Vec<Vec<(f64, f64)>>);
+
+fn feature_collection(features: &[PolygonFeature]) -> String {
     let mut out = String::from("{\"type\":\"FeatureCollection\",\"features\":[\n");
     for (k, (props, rings)) in features.iter().enumerate() {
         let rings: Vec<String> = rings.iter().map(|r| ring_json(r)).collect();
-        let _ = write!(
+        let _ = writeln!(
             out,
-            "{{\"type\":\"Feature\",\"properties\":{props},\"geometry\":{{\"type\":\"Polygon\",\"coordinates\":[{}]}}}}{}\n",
+            "{{\"type\":\"Feature\",\"properties\":{props},\"geometry\":{{\"type\":\"Polygon\",\"coordinates\":[{}]}}}}{}",
             rings.join(","),
             if k + 1 < features.len() { "," } else { "" }
         );

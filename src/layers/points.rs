@@ -59,7 +59,8 @@ fn regular_axis(values: &[f64]) -> Option<(f64, f64, usize)> {
     v.sort_by(f64::total_cmp);
     let (first, last) = (*v.first()?, *v.last()?);
     let range = last - first;
-    if !(range > 0.0) {
+    // Written so that a NaN range also returns.
+    if range.is_nan() || range <= 0.0 {
         return None;
     }
     let mut lines = vec![first];

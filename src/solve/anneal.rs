@@ -31,16 +31,10 @@ use super::{
 };
 
 /// Simulated annealing (module doc).
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone, Copy, Default)]
 pub struct Anneal {
     /// Number of moves; `None`: 2000 per free cell, at least 20 000.
     pub iterations: Option<u64>,
-}
-
-impl Default for Anneal {
-    fn default() -> Self {
-        Anneal { iterations: None }
-    }
 }
 
 struct Energy {
