@@ -201,6 +201,66 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     })?;
     let _ = std::fs::remove_dir_all(&dir);
 
+    // Climate stages on one scenario: velocity from a synthetic temperature field that cools
+    // poleward and warms with time, trajectories along it, and range edges of every species.
+    let climate_err = |e: crate::climate::ClimateError| RunError::Climate(e);
+    let temperature: Vec<Vec<f64>> = years
+        .iter()
+        .map(|&y| {
+            grid.cells
+                .iter()
+                .map(|c| 20.0 + 0.9 * (c.lonlat[1] - lat0) + 0.02 * (y - 2020) as f64)
+                .collect()
+        })
+        .collect();
+    let velocity = timed(&mut figures, "climate velocity", || {
+        let v = crate::climate::velocity::climate_velocity(
+            &grid,
+            &years,
+            &temperature,
+            &Default::default(),
+        )
+        .map_err(climate_err)?;
+        Ok((v, "1 scenario".to_string()))
+    })?;
+    timed(&mut figures, "trajectories + classes", || {
+        let params = crate::climate::trajectory::TrajectoryParams::default();
+        let set = crate::climate::trajectory::trace_all(&grid, &velocity, &params)
+            .map_err(climate_err)?;
+        let (_, classes) =
+            crate::climate::trajectory::classify_flow(&grid, &set, &params).map_err(climate_err)?;
+        Ok(((), format!("{} trajectories", classes.len())))
+    })?;
+    timed(&mut figures, "range edges", || {
+        let axis = crate::features::edges::axis_positions(
+            &grid,
+            &crate::features::edges::PolewardAxis::Meridian,
+        )
+        .map_err(climate_err)?;
+        for k in 0..spec.species {
+            let by_year: Vec<&[(u32, f64)]> = features
+                .features
+                .iter()
+                .filter(|f| {
+                    f.scenario == Some(0) && f.species.as_deref() == Some(&format!("sp{k}"))
+                })
+                .map(|f| f.amounts.as_slice())
+                .collect();
+            crate::features::edges::range_edges(
+                &grid,
+                &axis,
+                &years,
+                &by_year,
+                &Default::default(),
+            )
+            .map_err(climate_err)?;
+        }
+        Ok((
+            (),
+            format!("{} species × {} years", spec.species, years.len()),
+        ))
+    })?;
+
     let problem = timed(&mut figures, "model", || {
         let p = Problem {
             cost: grid
