@@ -11,6 +11,7 @@
 #![deny(missing_docs)]
 
 pub mod assess;
+pub mod bench;
 pub mod climate;
 pub mod demo;
 pub mod export;

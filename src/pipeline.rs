@@ -1,1 +1,411 @@
-//! Wires the stages together for the CLI.
+//! Wires the stages together: plan → grid → layers → features → model → solve → assess.
+//! The CLI calls these; each returns a value and prints nothing (progress goes through a
+//! callback the caller supplies).
+
+use crate::assess::{assess, Assessment};
+use crate::features::edges::meridian_distance_km;
+use crate::features::habitat::{habitat_feature, HabitatLayer};
+use crate::features::FeatureTable;
+use crate::grid::{build_grid, Grid, GridError};
+use crate::layers::{read_multipolygon, sample, Layer, LayerError, SourceCache};
+use crate::model::{Budget, CellStatus, EdgePenalty, ModelFeature, Problem, Scenario, Spacing};
+use crate::plan::{CostPlan, Plan};
+use crate::solve::{Solution, SolveError, SolveOptions, Solver};
+use rayon::prelude::*;
+
+/// Errors of a run, by stage.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    /// The grid could not be built.
+    #[error(transparent)]
+    Grid(#[from] GridError),
+    /// An input layer could not be read.
+    #[error(transparent)]
+    Layer(#[from] LayerError),
+    /// Several input layers could not be read.
+    #[error("{} input problems:\n  - {}", .0.len(), .0.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "))]
+    Layers(Vec<LayerError>),
+    /// Cells that are both required and excluded.
+    #[error("{count} cells are both required (by {required}) and excluded (by {excluded}), e.g. cell {example} at lon/lat {lon:.4}, {lat:.4}; fix the polygons or the `min_share` values")]
+    Conflict {
+        /// How many cells.
+        count: usize,
+        /// Required-areas file.
+        required: String,
+        /// Excluded-areas file.
+        excluded: String,
+        /// First such cell.
+        example: u32,
+        /// Its longitude.
+        lon: f64,
+        /// Its latitude.
+        lat: f64,
+    },
+    /// Derived climate features could not be built.
+    #[error(transparent)]
+    Climate(#[from] crate::climate::ClimateError),
+    /// The optimiser failed or the targets cannot be met.
+    #[error(transparent)]
+    Solve(#[from] SolveError),
+}
+
+/// Everything the optimiser and the outputs need, derived from a plan.
+#[derive(Debug, Clone)]
+pub struct Inputs {
+    /// The planning grid.
+    pub grid: Grid,
+    /// Per-cell layers worth showing in `cells.geojson` (cost, status, temperature, ...).
+    pub layers: Vec<Layer>,
+    /// Cost of each cell.
+    pub cost: Vec<f64>,
+    /// Free / required / excluded per cell.
+    pub status: Vec<CellStatus>,
+    /// All features with their targets.
+    pub features: FeatureTable,
+    /// Range-edge shifts per species and scenario (empty without a `[climate]` section).
+    pub edge_shifts: Vec<crate::features::derive::EdgeShift>,
+}
+
+/// Builds the grid of a plan.
+pub fn grid(plan: &Plan) -> Result<Grid, RunError> {
+    let region = read_multipolygon(&plan.region)?;
+    let land = plan.land.as_deref().map(read_multipolygon).transpose()?;
+    Ok(build_grid(&plan.grid, &region, land.as_ref())?)
+}
+
+/// Builds grid, layers and features; `progress` hears one line per stage.
+pub fn prepare(plan: &Plan, progress: &dyn Fn(&str)) -> Result<Inputs, RunError> {
+    progress("building the equal-area grid");
+    let grid = grid(plan)?;
+    progress(&format!(
+        "grid: {} cells, {:.0} km² of sea",
+        grid.len(),
+        grid.sea_area_km2
+    ));
+    prepare_on(plan, grid, progress)
+}
+
+/// Layers and features of a plan on a grid already built.
+pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<Inputs, RunError> {
+    let cache = SourceCache::default();
+    progress("sampling habitat layers");
+    let mut jobs = Vec::new();
+    for (si, sp) in plan.species.iter().enumerate() {
+        for (ci, scenario) in plan.scenarios.iter().enumerate() {
+            for &year in &plan.years {
+                jobs.push((si, ci, year, sp.habitat.resolve(&sp.name, scenario, year)));
+            }
+        }
+    }
+    let sampled: Vec<Result<Layer, LayerError>> = jobs
+        .par_iter()
+        .map(|(si, ci, year, spec)| {
+            let name = format!(
+                "habitat/{}/{}/{}",
+                plan.species[*si].name, plan.scenarios[*ci], year
+            );
+            sample(&name, spec, &grid, &cache)
+        })
+        .collect();
+    let mut errors = Vec::new();
+    let mut features = FeatureTable {
+        scenarios: plan.scenarios.clone(),
+        years: plan.years.clone(),
+        features: Vec::new(),
+    };
+    for ((si, ci, year, _), layer) in jobs.iter().zip(sampled) {
+        match layer {
+            Ok(layer) => {
+                let sp = &plan.species[*si];
+                features.features.push(habitat_feature(
+                    &grid,
+                    &HabitatLayer {
+                        species: &sp.name,
+                        scenario: *ci,
+                        scenario_name: &plan.scenarios[*ci],
+                        year: *year,
+                        share: &layer.values,
+                        target_share: plan.target_share(sp),
+                        weight: sp.weight,
+                    },
+                ));
+            }
+            Err(e) => errors.push(e),
+        }
+    }
+
+    progress("sampling cost, protected areas and exclusions");
+    let mut layers = Vec::new();
+    let cost = match &plan.cost {
+        CostPlan::Area => grid
+            .cells
+            .iter()
+            .map(|c| c.sea_area_km2)
+            .collect::<Vec<_>>(),
+        CostPlan::Layer { layer, per_km2 } => match sample("cost", &layer.fixed(), &grid, &cache) {
+            Ok(l) => {
+                let cost = l
+                    .values
+                    .iter()
+                    .zip(&grid.cells)
+                    .map(|(v, c)| if *per_km2 { v * c.sea_area_km2 } else { *v })
+                    .collect();
+                layers.push(Layer {
+                    name: "cost_input".into(),
+                    values: l.values,
+                });
+                cost
+            }
+            Err(e) => {
+                errors.push(e);
+                vec![0.0; grid.len()]
+            }
+        },
+    };
+    let mut share_of = |rule: &Option<crate::plan::AreaRule>, name: &str| -> Vec<bool> {
+        match rule {
+            None => vec![false; grid.len()],
+            Some(r) => match sample(name, &r.layer.fixed(), &grid, &cache) {
+                Ok(l) => {
+                    let flags = l.values.iter().map(|v| *v >= r.min_share).collect();
+                    layers.push(Layer {
+                        name: format!("{name}_share"),
+                        values: l.values,
+                    });
+                    flags
+                }
+                Err(e) => {
+                    errors.push(e);
+                    vec![false; grid.len()]
+                }
+            },
+        }
+    };
+    let required = share_of(&plan.required, "required");
+    let excluded = share_of(&plan.excluded, "excluded");
+
+    // temperature[scenario][year][cell], °C.
+    let mut temperature: Vec<Vec<Vec<f64>>> = Vec::new();
+    if let Some(t) = &plan.temperature {
+        progress("sampling sea temperature");
+        for scenario in &plan.scenarios {
+            let mut series = Vec::new();
+            for &year in &plan.years {
+                let name = format!("sst_c/{scenario}/{year}");
+                match sample(&name, &t.resolve("", scenario, year), &grid, &cache) {
+                    Ok(l) => {
+                        series.push(l.values.clone());
+                        layers.push(l);
+                    }
+                    Err(e) => errors.push(e),
+                }
+            }
+            temperature.push(series);
+        }
+    }
+    if !errors.is_empty() {
+        return Err(if errors.len() == 1 {
+            RunError::Layer(errors.remove(0))
+        } else {
+            RunError::Layers(errors)
+        });
+    }
+
+    let both: Vec<u32> = (0..grid.len())
+        .filter(|&i| required[i] && excluded[i])
+        .map(|i| i as u32)
+        .collect();
+    if let Some(&example) = both.first() {
+        let ll = grid.cells[example as usize].lonlat;
+        return Err(RunError::Conflict {
+            count: both.len(),
+            required: plan
+                .required
+                .as_ref()
+                .map(|r| r.layer.path.clone())
+                .unwrap_or_default(),
+            excluded: plan
+                .excluded
+                .as_ref()
+                .map(|r| r.layer.path.clone())
+                .unwrap_or_default(),
+            example,
+            lon: ll[0],
+            lat: ll[1],
+        });
+    }
+    let status = (0..grid.len())
+        .map(|i| {
+            if required[i] {
+                CellStatus::Required
+            } else if excluded[i] {
+                CellStatus::Excluded
+            } else {
+                CellStatus::Free
+            }
+        })
+        .collect();
+    layers.insert(
+        0,
+        Layer {
+            name: "cost".into(),
+            values: cost.clone(),
+        },
+    );
+    let mut edge_shifts = Vec::new();
+    if let Some(climate) = &plan.climate {
+        progress("deriving climate features (velocity, trajectories, edges, refugia, ...)");
+        let derived = crate::features::derive::derive_climate_features(
+            climate,
+            &grid,
+            &plan.scenarios,
+            &plan.years,
+            &temperature,
+            &features,
+            &cache,
+        )?;
+        features.features.extend(derived.features);
+        layers.extend(derived.layers);
+        edge_shifts = derived.edge_shifts;
+    }
+    progress(&format!("features: {}", features.features.len()));
+    Ok(Inputs {
+        grid,
+        layers,
+        cost,
+        status,
+        features,
+        edge_shifts,
+    })
+}
+
+/// The solver-neutral problem a plan asks for.
+pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
+    let features = inputs
+        .features
+        .features
+        .iter()
+        .map(|f| ModelFeature {
+            name: f.name.clone(),
+            scenario: f.scenario,
+            amounts: f.amounts.clone(),
+            target: f.target.amount(f.total),
+            weight: f.weight,
+        })
+        .collect();
+    let scenarios = plan
+        .scenarios
+        .iter()
+        .zip(&plan.scenario_weights)
+        .map(|(name, w)| Scenario {
+            name: name.clone(),
+            weight: *w,
+        })
+        .collect();
+    Problem {
+        cost: inputs.cost.clone(),
+        area_km2: inputs.grid.cells.iter().map(|c| c.sea_area_km2).collect(),
+        status: inputs.status.clone(),
+        scenarios,
+        features,
+        objective: plan.objective,
+        robustness: plan.robustness,
+        budget: Budget {
+            max_cost: plan.budget.max_cost,
+            max_area_km2: plan.budget.max_share.map(|s| s * inputs.grid.sea_area_km2),
+        },
+        edge_penalty: plan
+            .rules
+            .edge_penalty
+            .map(|w| edge_penalty(&inputs.grid, w, plan.rules.count_coast_edges)),
+        spacing: plan.rules.max_gap_km.map(|g| Spacing {
+            position_km: inputs
+                .grid
+                .cells
+                .iter()
+                .map(|c| meridian_distance_km(c.lonlat[1]))
+                .collect(),
+            max_gap_km: g,
+        }),
+        scenario_best: None,
+    }
+}
+
+/// Edge-penalty data from the grid: each neighbouring pair once, and each cell's edge that
+/// counts when it stands alone (its shared edges, plus coast/boundary edge if asked).
+pub fn edge_penalty(grid: &Grid, weight: f64, count_coast_edges: bool) -> EdgePenalty {
+    let mut pairs = Vec::new();
+    let mut alone = Vec::with_capacity(grid.len());
+    for (i, list) in grid.neighbours.iter().enumerate() {
+        let mut shared = 0.0;
+        for n in list {
+            shared += n.shared_km;
+            if (i as u32) < n.cell {
+                pairs.push((i as u32, n.cell, n.shared_km));
+            }
+        }
+        alone.push(if count_coast_edges {
+            shared + grid.boundary_km(i as u32)
+        } else {
+            shared
+        });
+    }
+    EdgePenalty {
+        weight,
+        pairs,
+        exposed_if_alone_km: alone,
+    }
+}
+
+/// Solver options from the plan, with CLI overrides already applied by the caller.
+pub fn solve_options(plan: &Plan) -> SolveOptions {
+    SolveOptions {
+        time_limit_s: plan.solver.time_limit_s,
+        rel_gap: plan.solver.gap,
+        threads: plan.solver.threads,
+        verbose: false,
+        seed: 1,
+    }
+}
+
+/// Solves the problem exactly with HiGHS.
+pub fn optimise(problem: &Problem, options: &SolveOptions) -> Result<Solution, RunError> {
+    Ok(crate::solve::ilp::Highs::default().solve(problem, options)?)
+}
+
+/// Assesses a network under the plan's features.
+pub fn assess_network(inputs: &Inputs, selected: &[bool]) -> Assessment {
+    assess(&inputs.grid, &inputs.features, &inputs.cost, selected)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::grid::Crs;
+
+    #[test]
+    fn edge_penalty_pairs_and_alone_edges_from_the_grid() {
+        // 2×2 grid of 10 km squares (hand computation): 4 neighbouring pairs of 10 km; each cell
+        // shares 20 km with its two neighbours and has 20 km of outer boundary.
+        let grid =
+            Grid::full_rectangle(Crs::auto_laea(150.0, -40.0), 10_000.0, [0.0, 0.0], 2, 2).unwrap();
+        let open_sea = edge_penalty(&grid, 2.0, false);
+        assert_eq!(open_sea.pairs.len(), 4);
+        assert!(open_sea
+            .pairs
+            .iter()
+            .all(|p| p.0 < p.1 && (p.2 - 10.0).abs() < 1e-9));
+        assert!(open_sea
+            .exposed_if_alone_km
+            .iter()
+            .all(|e| (e - 20.0).abs() < 1e-9));
+        let coast = edge_penalty(&grid, 2.0, true);
+        assert!(coast
+            .exposed_if_alone_km
+            .iter()
+            .all(|e| (e - 40.0).abs() < 1e-9));
+        // The whole block chosen: exposed = Σ P − 2 Σ l = 4·40 − 2·4·10 = 80 km, its perimeter.
+        let all = vec![true; 4];
+        assert!((crate::model::compact::exposed_edge_km(&coast, &all) - 80.0).abs() < 1e-9);
+    }
+}

@@ -13,6 +13,8 @@ use std::collections::BTreeMap;
 use std::fmt;
 use std::path::{Path, PathBuf};
 
+pub mod climate;
+
 /// One problem found in a plan: where (`key`) and what was expected.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PlanIssue {
@@ -92,7 +94,9 @@ impl LayerTemplate {
     /// True when the path or field depends on the scenario or year.
     pub fn varies_by_scenario_or_year(&self) -> bool {
         let f = self.field.as_deref().unwrap_or("");
-        ["{scenario}", "{year}"].iter().any(|t| self.path.contains(t) || f.contains(t))
+        ["{scenario}", "{year}"]
+            .iter()
+            .any(|t| self.path.contains(t) || f.contains(t))
     }
 }
 
@@ -115,7 +119,12 @@ pub enum CostPlan {
     /// Cost is sea area (km²).
     Area,
     /// Cost read from a layer (e.g. forgone fishing value).
-    Layer(LayerTemplate),
+    Layer {
+        /// The cost source.
+        layer: LayerTemplate,
+        /// True when values are per km² (a cell costs value × sea area); false when per cell.
+        per_km2: bool,
+    },
 }
 
 /// Polygons that lock cells in or out; a cell counts when this share of its sea is covered.
@@ -145,6 +154,18 @@ pub struct SolverPlan {
     pub gap: f64,
     /// Solver threads.
     pub threads: Option<u32>,
+}
+
+/// Spatial rules of the optimisation (`[optimise]` keys beyond objective and robustness).
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct SpatialRules {
+    /// Weight per km of reserve edge exposed to unprotected sea (compactness); `None`: off.
+    pub edge_penalty: Option<f64>,
+    /// Whether coast and region-boundary edges count as exposed edge (default: no, only edges
+    /// facing unprotected sea count).
+    pub count_coast_edges: bool,
+    /// Stepping-stone rule: longest stretch along the poleward axis without a reserve. Units: km.
+    pub max_gap_km: Option<f64>,
 }
 
 /// A validated plan: every path absolute, every value checked.
@@ -186,13 +207,17 @@ pub struct Plan {
     pub objective: Objective,
     /// Robustness rule.
     pub robustness: Robustness,
+    /// Edge penalty and max gap.
+    pub rules: SpatialRules,
     /// Solver controls.
     pub solver: SolverPlan,
+    /// Derived climate-adaptation features (`[climate]`), if asked for.
+    pub climate: Option<climate::ClimatePlan>,
 }
 
 // ---------------------------------------------------------------- raw, as written in TOML
 
-type Extra = BTreeMap<String, toml::Value>;
+pub(crate) type Extra = BTreeMap<String, toml::Value>;
 
 #[derive(Deserialize, Default)]
 struct RawPlan {
@@ -211,6 +236,7 @@ struct RawPlan {
     budget: Option<RawBudget>,
     optimise: Option<RawOptimise>,
     solver: Option<RawSolver>,
+    climate: Option<climate::RawClimate>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -233,8 +259,9 @@ struct RawScenarios {
     extra: Extra,
 }
 
+/// A layer source as written in TOML (shared by every section that reads a layer).
 #[derive(Deserialize, Clone)]
-struct RawLayer {
+pub(crate) struct RawLayer {
     path: Option<String>,
     column: Option<String>,
     attribute: Option<String>,
@@ -243,6 +270,7 @@ struct RawLayer {
     min: Option<f64>,
     max: Option<f64>,
     missing: Option<String>,
+    per: Option<String>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -283,6 +311,9 @@ struct RawBudget {
 struct RawOptimise {
     objective: Option<String>,
     robustness: Option<String>,
+    edge_penalty: Option<f64>,
+    count_coast_edges: Option<bool>,
+    max_gap_km: Option<f64>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -299,24 +330,34 @@ struct RawSolver {
 // ---------------------------------------------------------------- validation
 
 /// Collects problems while validating.
-struct Checker {
+pub(crate) struct Checker {
     dir: PathBuf,
     issues: Vec<PlanIssue>,
 }
 
 impl Checker {
-    fn push(&mut self, key: impl Into<String>, message: impl Into<String>) {
-        self.issues.push(PlanIssue { key: key.into(), message: message.into() });
+    pub(crate) fn push(&mut self, key: impl Into<String>, message: impl Into<String>) {
+        self.issues.push(PlanIssue {
+            key: key.into(),
+            message: message.into(),
+        });
     }
 
-    fn unknown(&mut self, table: &str, extra: &Extra, known: &[&str]) {
+    pub(crate) fn unknown(&mut self, table: &str, extra: &Extra, known: &[&str]) {
         for key in extra.keys() {
-            let full = if table.is_empty() { key.clone() } else { format!("{table}.{key}") };
-            self.push(full, format!("unknown key; expected one of: {}", known.join(", ")));
+            let full = if table.is_empty() {
+                key.clone()
+            } else {
+                format!("{table}.{key}")
+            };
+            self.push(
+                full,
+                format!("unknown key; expected one of: {}", known.join(", ")),
+            );
         }
     }
 
-    fn resolve(&self, rel: &str) -> PathBuf {
+    pub(crate) fn resolve(&self, rel: &str) -> PathBuf {
         let p = Path::new(rel);
         if p.is_absolute() {
             p.to_path_buf()
@@ -325,29 +366,65 @@ impl Checker {
         }
     }
 
-    fn existing_file(&mut self, key: &str, rel: &str) -> PathBuf {
+    pub(crate) fn existing_file(&mut self, key: &str, rel: &str) -> PathBuf {
         let path = self.resolve(rel);
         if !path.is_file() {
-            self.push(key, format!("file not found: {} (paths are relative to the plan file)", path.display()));
+            self.push(
+                key,
+                format!(
+                    "file not found: {} (paths are relative to the plan file)",
+                    path.display()
+                ),
+            );
         }
         path
     }
 
-    fn share(&mut self, key: &str, v: f64, allow_zero: bool) -> f64 {
+    pub(crate) fn share(&mut self, key: &str, v: f64, allow_zero: bool) -> f64 {
         let ok = v.is_finite() && v <= 1.0 && (v > 0.0 || (allow_zero && v == 0.0));
         if !ok {
             self.push(
                 key,
-                format!("must be a share between {} and 1 (e.g. 0.3 for 30%), got {v}", if allow_zero { "0" } else { "0 (exclusive)" }),
+                format!(
+                    "must be a share between {} and 1 (e.g. 0.3 for 30%), got {v}",
+                    if allow_zero { "0" } else { "0 (exclusive)" }
+                ),
             );
         }
         v
     }
 
-    fn layer(&mut self, key: &str, raw: &RawLayer, default_missing: Missing) -> Option<LayerTemplate> {
-        self.unknown(key, &raw.extra, &["path", "column", "attribute", "sampling", "crs", "min", "max", "missing"]);
+    pub(crate) fn layer(
+        &mut self,
+        key: &str,
+        raw: &RawLayer,
+        default_missing: Missing,
+    ) -> Option<LayerTemplate> {
+        self.unknown(
+            key,
+            &raw.extra,
+            &[
+                "path",
+                "column",
+                "attribute",
+                "sampling",
+                "crs",
+                "min",
+                "max",
+                "missing",
+            ],
+        );
+        if raw.per.is_some() && key != "cost" {
+            self.push(
+                format!("{key}.per"),
+                "`per` is only for `[cost]` (`per = \"km2\"` or `per = \"cell\"`)",
+            );
+        }
         let Some(rel) = raw.path.as_deref() else {
-            self.push(format!("{key}.path"), "missing: the file to read, e.g. `path = \"habitat.csv\"`");
+            self.push(
+                format!("{key}.path"),
+                "missing: the file to read, e.g. `path = \"habitat.csv\"`",
+            );
             return None;
         };
         let path = self.resolve(rel).to_string_lossy().into_owned();
@@ -355,7 +432,10 @@ impl Checker {
         let is_csv = lower.ends_with(".csv");
         let is_geojson = lower.ends_with(".geojson") || lower.ends_with(".json");
         if !is_csv && !is_geojson {
-            self.push(format!("{key}.path"), format!("`{rel}`: expected a .csv point grid or a .geojson/.json file"));
+            self.push(
+                format!("{key}.path"),
+                format!("`{rel}`: expected a .csv point grid or a .geojson/.json file"),
+            );
         }
         let sampling = match raw.sampling.as_deref() {
             None if is_csv => Sampling::Interpolate,
@@ -376,23 +456,38 @@ impl Checker {
             }
         };
         if is_csv && sampling != Sampling::Interpolate {
-            self.push(format!("{key}.sampling"), "a CSV point grid can only be sampled with `interpolate`");
+            self.push(
+                format!("{key}.sampling"),
+                "a CSV point grid can only be sampled with `interpolate`",
+            );
         }
         if is_geojson && sampling == Sampling::Interpolate {
-            self.push(format!("{key}.sampling"), "`interpolate` needs a CSV `lon,lat,value` point grid");
+            self.push(
+                format!("{key}.sampling"),
+                "`interpolate` needs a CSV `lon,lat,value` point grid",
+            );
         }
         let field = raw.column.clone().or_else(|| raw.attribute.clone());
-        let needs_field = matches!(sampling, Sampling::Interpolate | Sampling::AreaMean | Sampling::PointSum | Sampling::PointMean);
+        let needs_field = matches!(
+            sampling,
+            Sampling::Interpolate | Sampling::AreaMean | Sampling::PointSum | Sampling::PointMean
+        );
         if needs_field && field.is_none() {
             let which = if is_csv { "column" } else { "attribute" };
-            self.push(format!("{key}.{which}"), format!("missing: which {which} holds the values, e.g. `{which} = \"value\"`"));
+            self.push(
+                format!("{key}.{which}"),
+                format!("missing: which {which} holds the values, e.g. `{which} = \"value\"`"),
+            );
         }
         let valid_range = match (raw.min, raw.max) {
             (None, None) => None,
             (lo, hi) => {
                 let (lo, hi) = (lo.unwrap_or(f64::NEG_INFINITY), hi.unwrap_or(f64::INFINITY));
                 if lo.is_nan() || hi.is_nan() || lo > hi {
-                    self.push(format!("{key}.min"), format!("`min` ({lo}) must not exceed `max` ({hi})"));
+                    self.push(
+                        format!("{key}.min"),
+                        format!("`min` ({lo}) must not exceed `max` ({hi})"),
+                    );
                 }
                 Some((lo, hi))
             }
@@ -402,25 +497,57 @@ impl Checker {
             Some("error") => Missing::Error,
             Some("zero") => Missing::Zero,
             Some(other) => {
-                self.push(format!("{key}.missing"), format!("`{other}`: expected `error` or `zero`"));
+                self.push(
+                    format!("{key}.missing"),
+                    format!("`{other}`: expected `error` or `zero`"),
+                );
                 default_missing
             }
         };
-        Some(LayerTemplate { path, sampling, field, crs: raw.crs.clone(), valid_range, missing })
+        Some(LayerTemplate {
+            path,
+            sampling,
+            field,
+            crs: raw.crs.clone(),
+            valid_range,
+            missing,
+        })
     }
 
     /// Every file a template expands to must exist.
-    fn template_files(&mut self, key: &str, t: &LayerTemplate, species: &[&str], scenarios: &[String], years: &[i32]) {
+    pub(crate) fn template_files(
+        &mut self,
+        key: &str,
+        t: &LayerTemplate,
+        species: &[&str],
+        scenarios: &[String],
+        years: &[i32],
+    ) {
         let mut seen = std::collections::BTreeSet::new();
-        let sp: Vec<&str> = if species.is_empty() { vec![""] } else { species.to_vec() };
-        let sc: Vec<&str> = if scenarios.is_empty() { vec![""] } else { scenarios.iter().map(String::as_str).collect() };
-        let yr: Vec<i32> = if years.is_empty() { vec![0] } else { years.to_vec() };
+        let sp: Vec<&str> = if species.is_empty() {
+            vec![""]
+        } else {
+            species.to_vec()
+        };
+        let sc: Vec<&str> = if scenarios.is_empty() {
+            vec![""]
+        } else {
+            scenarios.iter().map(String::as_str).collect()
+        };
+        let yr: Vec<i32> = if years.is_empty() {
+            vec![0]
+        } else {
+            years.to_vec()
+        };
         for s in &sp {
             for c in &sc {
                 for y in &yr {
                     let p = t.resolve(s, c, *y).path;
                     if seen.insert(p.clone()) && !p.is_file() {
-                        self.push(format!("{key}.path"), format!("file not found: {}", p.display()));
+                        self.push(
+                            format!("{key}.path"),
+                            format!("file not found: {}", p.display()),
+                        );
                     }
                 }
             }
@@ -429,7 +556,9 @@ impl Checker {
 }
 
 fn valid_name(s: &str) -> bool {
-    !s.is_empty() && s.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_' || c == '.')
+    !s.is_empty()
+        && s.chars()
+            .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_' || c == '.')
 }
 
 impl Plan {
@@ -437,21 +566,37 @@ impl Plan {
     pub fn load(path: &Path) -> Result<Plan, PlanError> {
         let bytes = std::fs::read(path).map_err(|e| PlanError {
             file: path.to_path_buf(),
-            issues: vec![PlanIssue { key: "(file)".into(), message: format!("cannot read the plan file: {e}") }],
+            issues: vec![PlanIssue {
+                key: "(file)".into(),
+                message: format!("cannot read the plan file: {e}"),
+            }],
         })?;
         let text = String::from_utf8(bytes.clone()).map_err(|_| PlanError {
             file: path.to_path_buf(),
-            issues: vec![PlanIssue { key: "(file)".into(), message: "the plan file is not UTF-8 text".into() }],
+            issues: vec![PlanIssue {
+                key: "(file)".into(),
+                message: "the plan file is not UTF-8 text".into(),
+            }],
         })?;
         let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
-        let dir = if dir.as_os_str().is_empty() { PathBuf::from(".") } else { dir };
-        let hash = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect::<String>();
+        let dir = if dir.as_os_str().is_empty() {
+            PathBuf::from(".")
+        } else {
+            dir
+        };
+        let hash = Sha256::digest(&bytes)
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect::<String>();
         Plan::from_toml(&text, path, &dir, hash)
     }
 
     /// Validates plan text; `dir` is where relative paths start.
     pub fn from_toml(text: &str, file: &Path, dir: &Path, hash: String) -> Result<Plan, PlanError> {
-        let fail = |issues| PlanError { file: file.to_path_buf(), issues };
+        let fail = |issues| PlanError {
+            file: file.to_path_buf(),
+            issues,
+        };
         let raw: RawPlan = toml::from_str(text).map_err(|e| {
             let (line, col) = e.span().map(|s| line_col(text, s.start)).unwrap_or((0, 0));
             fail(vec![PlanIssue {
@@ -459,14 +604,35 @@ impl Plan {
                 message: format!("not valid plan TOML: {}", e.message()),
             }])
         })?;
-        let mut ck = Checker { dir: dir.to_path_buf(), issues: Vec::new() };
+        let mut ck = Checker {
+            dir: dir.to_path_buf(),
+            issues: Vec::new(),
+        };
         ck.unknown(
             "",
             &raw.extra,
-            &["name", "region", "land", "grid", "scenarios", "species", "temperature", "cost", "required", "excluded", "targets", "budget", "optimise", "solver"],
+            &[
+                "name",
+                "region",
+                "land",
+                "grid",
+                "scenarios",
+                "species",
+                "temperature",
+                "cost",
+                "required",
+                "excluded",
+                "targets",
+                "budget",
+                "optimise",
+                "solver",
+                "climate",
+            ],
         );
         let name = raw.name.clone().unwrap_or_else(|| {
-            file.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "plan".into())
+            file.file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "plan".into())
         });
         let region = match raw.region.as_deref() {
             Some(r) => ck.existing_file("region", r),
@@ -480,8 +646,15 @@ impl Plan {
         // Grid.
         let grid = match &raw.grid {
             None => {
-                ck.push("grid", "missing table `[grid]` with at least `cell_size_km = 5`");
-                GridSpec { cell_size_km: 1.0, crs: CrsChoice::Auto, min_sea_share: 0.1 }
+                ck.push(
+                    "grid",
+                    "missing table `[grid]` with at least `cell_size_km = 5`",
+                );
+                GridSpec {
+                    cell_size_km: 1.0,
+                    crs: CrsChoice::Auto,
+                    min_sea_share: 0.1,
+                }
             }
             Some(g) => {
                 ck.unknown("grid", &g.extra, &["cell_size_km", "crs", "min_sea_share"]);
@@ -492,7 +665,10 @@ impl Plan {
                         1.0
                     }
                     None => {
-                        ck.push("grid.cell_size_km", "missing: a positive number of kilometres, e.g. `cell_size_km = 5`");
+                        ck.push(
+                            "grid.cell_size_km",
+                            "missing: a positive number of kilometres, e.g. `cell_size_km = 5`",
+                        );
                         1.0
                     }
                 };
@@ -500,35 +676,57 @@ impl Plan {
                     None | Some("auto") => CrsChoice::Auto,
                     Some(s) => CrsChoice::Given(s.to_string()),
                 };
-                let min_sea_share = g.min_sea_share.map(|v| ck.share("grid.min_sea_share", v, true)).unwrap_or(0.1);
-                GridSpec { cell_size_km: cell, crs, min_sea_share }
+                let min_sea_share = g
+                    .min_sea_share
+                    .map(|v| ck.share("grid.min_sea_share", v, true))
+                    .unwrap_or(0.1);
+                GridSpec {
+                    cell_size_km: cell,
+                    crs,
+                    min_sea_share,
+                }
             }
         };
 
         // Scenarios and years.
         let (scenarios, years, scenario_weights) = match &raw.scenarios {
             None => {
-                ck.push("scenarios", "missing table `[scenarios]` with `names = [...]` and `years = [...]`");
+                ck.push(
+                    "scenarios",
+                    "missing table `[scenarios]` with `names = [...]` and `years = [...]`",
+                );
                 (vec![], vec![], vec![])
             }
             Some(s) => {
                 ck.unknown("scenarios", &s.extra, &["names", "years", "weights"]);
                 let names = s.names.clone().unwrap_or_default();
                 if names.is_empty() {
-                    ck.push("scenarios.names", "needs at least one scenario name, e.g. `names = [\"ssp2-4.5\"]`");
+                    ck.push(
+                        "scenarios.names",
+                        "needs at least one scenario name, e.g. `names = [\"ssp2-4.5\"]`",
+                    );
                 }
                 let mut uniq = std::collections::BTreeSet::new();
                 for (i, n) in names.iter().enumerate() {
                     if !valid_name(n) {
-                        ck.push(format!("scenarios.names[{i}]"), format!("`{n}`: use letters, digits, `-`, `_` or `.`"));
+                        ck.push(
+                            format!("scenarios.names[{i}]"),
+                            format!("`{n}`: use letters, digits, `-`, `_` or `.`"),
+                        );
                     }
                     if !uniq.insert(n.clone()) {
-                        ck.push(format!("scenarios.names[{i}]"), format!("`{n}` is listed twice"));
+                        ck.push(
+                            format!("scenarios.names[{i}]"),
+                            format!("`{n}` is listed twice"),
+                        );
                     }
                 }
                 let mut years = s.years.clone().unwrap_or_default();
                 if years.is_empty() {
-                    ck.push("scenarios.years", "needs at least one year, e.g. `years = [2030, 2050]`");
+                    ck.push(
+                        "scenarios.years",
+                        "needs at least one year, e.g. `years = [2030, 2050]`",
+                    );
                 }
                 if years.windows(2).any(|w| w[0] >= w[1]) {
                     ck.push("scenarios.years", "years must be strictly increasing");
@@ -538,10 +736,22 @@ impl Plan {
                     None => vec![1.0; names.len()],
                     Some(w) => {
                         if w.len() != names.len() {
-                            ck.push("scenarios.weights", format!("needs one weight per scenario ({}), got {}", names.len(), w.len()));
+                            ck.push(
+                                "scenarios.weights",
+                                format!(
+                                    "needs one weight per scenario ({}), got {}",
+                                    names.len(),
+                                    w.len()
+                                ),
+                            );
                         }
-                        if w.iter().any(|x| !(x.is_finite() && *x >= 0.0)) || w.iter().sum::<f64>() <= 0.0 {
-                            ck.push("scenarios.weights", "weights must be non-negative numbers, not all zero");
+                        if w.iter().any(|x| !(x.is_finite() && *x >= 0.0))
+                            || w.iter().sum::<f64>() <= 0.0
+                        {
+                            ck.push(
+                                "scenarios.weights",
+                                "weights must be non-negative numbers, not all zero",
+                            );
                         }
                         w.clone()
                     }
@@ -555,13 +765,18 @@ impl Plan {
             None => 0.3,
             Some(t) => {
                 ck.unknown("targets", &t.extra, &["default"]);
-                t.default.map(|v| ck.share("targets.default", v, false)).unwrap_or(0.3)
+                t.default
+                    .map(|v| ck.share("targets.default", v, false))
+                    .unwrap_or(0.3)
             }
         };
 
         // Species.
         if raw.species.is_empty() {
-            ck.push("species", "needs at least one `[[species]]` with `name` and `habitat`");
+            ck.push(
+                "species",
+                "needs at least one `[[species]]` with `name` and `habitat`",
+            );
         }
         let mut species = Vec::new();
         let mut names = std::collections::BTreeSet::new();
@@ -570,17 +785,31 @@ impl Plan {
             ck.unknown(&key, &s.extra, &["name", "habitat", "target", "weight"]);
             let name = s.name.clone().unwrap_or_default();
             if !valid_name(&name) {
-                ck.push(format!("{key}.name"), format!("`{name}`: a species needs a name of letters, digits, `-`, `_` or `.`"));
+                ck.push(
+                    format!("{key}.name"),
+                    format!("`{name}`: a species needs a name of letters, digits, `-`, `_` or `.`"),
+                );
             } else if !names.insert(name.clone()) {
-                ck.push(format!("{key}.name"), format!("species `{name}` is listed twice"));
+                ck.push(
+                    format!("{key}.name"),
+                    format!("species `{name}` is listed twice"),
+                );
             }
-            let target = s.target.map(|v| ck.share(&format!("{key}.target"), v, true));
+            let target = s
+                .target
+                .map(|v| ck.share(&format!("{key}.target"), v, true));
             let weight = s.weight.unwrap_or(1.0);
             if !(weight.is_finite() && weight >= 0.0) {
-                ck.push(format!("{key}.weight"), format!("must be a non-negative number, got {weight}"));
+                ck.push(
+                    format!("{key}.weight"),
+                    format!("must be a non-negative number, got {weight}"),
+                );
             }
             let Some(h) = &s.habitat else {
-                ck.push(format!("{key}.habitat"), "missing: `habitat = { path = \"...\", column = \"...\" }`");
+                ck.push(
+                    format!("{key}.habitat"),
+                    "missing: `habitat = { path = \"...\", column = \"...\" }`",
+                );
                 continue;
             };
             if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, Missing::Error) {
@@ -589,7 +818,12 @@ impl Plan {
                     t.valid_range = Some((0.0, 1.0));
                 }
                 ck.template_files(&format!("{key}.habitat"), &t, &[&name], &scenarios, &years);
-                species.push(SpeciesPlan { name, habitat: t, target, weight });
+                species.push(SpeciesPlan {
+                    name,
+                    habitat: t,
+                    target,
+                    weight,
+                });
             }
         }
 
@@ -613,7 +847,15 @@ impl Plan {
                             t.valid_range = Some((0.0, f64::INFINITY));
                         }
                         ck.template_files("cost", &t, &[], &[], &[]);
-                        CostPlan::Layer(t)
+                        let per_km2 = match rl.per.as_deref() {
+                            None | Some("km2") => true,
+                            Some("cell") => false,
+                            Some(x) => {
+                                ck.push("cost.per", format!("`{x}`: expected `km2` (value per km², the default) or `cell`"));
+                                true
+                            }
+                        };
+                        CostPlan::Layer { layer: t, per_km2 }
                     }
                     None => CostPlan::Area,
                 },
@@ -623,7 +865,10 @@ impl Plan {
                 }
             },
             Some(_) => {
-                ck.push("cost", "expected `cost = \"area\"` or a table `[cost]` with `path` and `column`");
+                ck.push(
+                    "cost",
+                    "expected `cost = \"area\"` or a table `[cost]` with `path` and `column`",
+                );
                 CostPlan::Area
             }
         };
@@ -632,11 +877,20 @@ impl Plan {
             raw.as_ref().and_then(|r| {
                 let t = ck.layer(key, &r.layer, Missing::Zero)?;
                 if t.sampling != Sampling::AreaShare {
-                    ck.push(format!("{key}.sampling"), "required/excluded areas must be GeoJSON polygons (area-share)");
+                    ck.push(
+                        format!("{key}.sampling"),
+                        "required/excluded areas must be GeoJSON polygons (area-share)",
+                    );
                 }
                 ck.template_files(key, &t, &[], &[], &[]);
-                let min_share = r.min_share.map(|v| ck.share(&format!("{key}.min_share"), v, false)).unwrap_or(default_share);
-                Some(AreaRule { layer: t, min_share })
+                let min_share = r
+                    .min_share
+                    .map(|v| ck.share(&format!("{key}.min_share"), v, false))
+                    .unwrap_or(default_share);
+                Some(AreaRule {
+                    layer: t,
+                    min_share,
+                })
             })
         };
         // A cell is required when at least half of it is protected already; any overlap with a
@@ -650,23 +904,58 @@ impl Plan {
                 ck.unknown("budget", &b.extra, &["max_cost", "max_share"]);
                 if let Some(c) = b.max_cost {
                     if !(c.is_finite() && c >= 0.0) {
-                        ck.push("budget.max_cost", format!("must be a non-negative number in cost units, got {c}"));
+                        ck.push(
+                            "budget.max_cost",
+                            format!("must be a non-negative number in cost units, got {c}"),
+                        );
                     }
                 }
                 let max_share = b.max_share.map(|v| ck.share("budget.max_share", v, false));
-                BudgetPlan { max_cost: b.max_cost, max_share }
+                BudgetPlan {
+                    max_cost: b.max_cost,
+                    max_share,
+                }
             }
         };
 
+        let mut rules = SpatialRules::default();
         let (objective, robustness) = match &raw.optimise {
             None => (Objective::MinCost, Robustness::EveryScenario),
             Some(o) => {
-                ck.unknown("optimise", &o.extra, &["objective", "robustness"]);
+                ck.unknown(
+                    "optimise",
+                    &o.extra,
+                    &[
+                        "objective",
+                        "robustness",
+                        "edge_penalty",
+                        "count_coast_edges",
+                        "max_gap_km",
+                    ],
+                );
+                if let Some(w) = o.edge_penalty {
+                    if !(w.is_finite() && w >= 0.0) {
+                        ck.push("optimise.edge_penalty", format!("must be a non-negative weight per km of exposed edge, e.g. `edge_penalty = 1`; got {w}"));
+                    }
+                }
+                if let Some(g) = o.max_gap_km {
+                    if !(g.is_finite() && g > 0.0) {
+                        ck.push("optimise.max_gap_km", format!("must be a positive number of kilometres, e.g. `max_gap_km = 100`; got {g}"));
+                    }
+                }
+                rules = SpatialRules {
+                    edge_penalty: o.edge_penalty.filter(|w| *w > 0.0),
+                    count_coast_edges: o.count_coast_edges.unwrap_or(false),
+                    max_gap_km: o.max_gap_km,
+                };
                 let objective = match o.objective.as_deref() {
                     None | Some("min-cost") => Objective::MinCost,
                     Some("max-benefit") => Objective::MaxBenefit,
                     Some(x) => {
-                        ck.push("optimise.objective", format!("`{x}`: expected `min-cost` or `max-benefit`"));
+                        ck.push(
+                            "optimise.objective",
+                            format!("`{x}`: expected `min-cost` or `max-benefit`"),
+                        );
                         Objective::MinCost
                     }
                 };
@@ -686,29 +975,63 @@ impl Plan {
                 (objective, robustness)
             }
         };
-        if objective == Objective::MaxBenefit && budget.max_cost.is_none() && budget.max_share.is_none() {
-            ck.push("budget", "`max-benefit` needs a budget: `max_cost` and/or `max_share`");
+        if objective == Objective::MaxBenefit
+            && budget.max_cost.is_none()
+            && budget.max_share.is_none()
+        {
+            ck.push(
+                "budget",
+                "`max-benefit` needs a budget: `max_cost` and/or `max_share`",
+            );
         }
 
         let solver = match &raw.solver {
-            None => SolverPlan { time_limit_s: None, gap: 0.0, threads: None },
+            None => SolverPlan {
+                time_limit_s: None,
+                gap: 0.0,
+                threads: None,
+            },
             Some(s) => {
                 ck.unknown("solver", &s.extra, &["time_limit_s", "gap", "threads"]);
                 if let Some(t) = s.time_limit_s {
                     if !(t.is_finite() && t > 0.0) {
-                        ck.push("solver.time_limit_s", format!("must be a positive number of seconds, got {t}"));
+                        ck.push(
+                            "solver.time_limit_s",
+                            format!("must be a positive number of seconds, got {t}"),
+                        );
                     }
                 }
                 let gap = s.gap.unwrap_or(0.0);
                 if !(gap.is_finite() && (0.0..1.0).contains(&gap)) {
-                    ck.push("solver.gap", format!("must be a relative gap in [0, 1), e.g. 0.01 for 1%; got {gap}"));
+                    ck.push(
+                        "solver.gap",
+                        format!("must be a relative gap in [0, 1), e.g. 0.01 for 1%; got {gap}"),
+                    );
                 }
                 if s.threads == Some(0) {
                     ck.push("solver.threads", "must be at least 1");
                 }
-                SolverPlan { time_limit_s: s.time_limit_s, gap, threads: s.threads }
+                SolverPlan {
+                    time_limit_s: s.time_limit_s,
+                    gap,
+                    threads: s.threads,
+                }
             }
         };
+
+        let species_names: Vec<&str> = species.iter().map(|s| s.name.as_str()).collect();
+        let climate = raw.climate.as_ref().and_then(|c| {
+            climate::validate(
+                c,
+                &mut ck,
+                &climate::Context {
+                    scenarios: &scenarios,
+                    years: &years,
+                    species: &species_names,
+                    has_temperature: temperature.is_some(),
+                },
+            )
+        });
 
         if !ck.issues.is_empty() {
             return Err(fail(ck.issues));
@@ -732,7 +1055,9 @@ impl Plan {
             budget,
             objective,
             robustness,
+            rules,
             solver,
+            climate,
         })
     }
 
@@ -746,6 +1071,11 @@ impl Plan {
 fn line_col(text: &str, offset: usize) -> (usize, usize) {
     let before = &text[..offset.min(text.len())];
     let line = before.matches('\n').count() + 1;
-    let col = before.rsplit('\n').next().map(|l| l.chars().count()).unwrap_or(0) + 1;
+    let col = before
+        .rsplit('\n')
+        .next()
+        .map(|l| l.chars().count())
+        .unwrap_or(0)
+        + 1;
     (line, col)
 }

@@ -1,6 +1,13 @@
 //! Features stage: turns layers (and derived climate layers) into a [`FeatureTable`] of sparse
 //! per-cell amounts, each with its scenario, year, kind and target.
 
+pub mod boundary;
+pub mod corridor;
+pub mod derive;
+pub mod distinctness;
+pub mod edges;
+pub mod time;
+
 /// What kind of thing a feature is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum FeatureKind {
@@ -89,3 +96,5 @@ pub struct FeatureTable {
     /// The features.
     pub features: Vec<Feature>,
 }
+
+pub mod habitat;

@@ -1,7 +1,26 @@
 //! Layers stage: reads GeoJSON polygons/points and CSV `lon,lat,value` point grids and
 //! returns dense per-cell values on a [`crate::grid::Grid`].
+//!
+//! Takes a [`LayerSpec`] (file, sampling rule, field, CRS, valid range, missing-cell policy)
+//! and a grid; returns a [`Layer`] with one value per cell id. Parsed files are shared
+//! between layers through a [`SourceCache`], so the twelve columns of one CSV are parsed once.
+//!
+//! Geometry is done in the grid's projected equal-area CRS: inputs are reprojected with PROJ
+//! on the way in (see [`crate::grid::Projector`]).
 
 use std::path::PathBuf;
+
+mod area;
+mod cache;
+mod csv;
+mod geojson;
+mod points;
+mod sample;
+
+pub use cache::SourceCache;
+pub use geojson::{read_lines, read_multipolygon, read_points};
+pub use points::NEAREST_MAX_SPACINGS;
+pub use sample::sample;
 
 /// How a source file becomes one value per cell.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -20,7 +39,25 @@ pub enum Sampling {
     Interpolate,
 }
 
+impl Sampling {
+    /// The name used in plan files and messages (`area-share`, `interpolate`, ...).
+    pub fn name(self) -> &'static str {
+        match self {
+            Sampling::AreaShare => "area-share",
+            Sampling::AreaMean => "area-mean",
+            Sampling::PointCount => "point-count",
+            Sampling::PointSum => "point-sum",
+            Sampling::PointMean => "point-mean",
+            Sampling::Interpolate => "interpolate",
+        }
+    }
+}
+
 /// What to do with cells the source does not cover.
+///
+/// A cell is *uncovered* when the source says nothing about it: no polygon overlaps it
+/// (area samplings), no point falls in it (point samplings), or it lies outside the data
+/// lattice / beyond the nearest-point distance ([`Sampling::Interpolate`]).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Missing {
     /// Report them as an error (the default: never use missing data silently).
@@ -53,4 +90,116 @@ pub struct Layer {
     pub name: String,
     /// One value per cell id.
     pub values: Vec<f64>,
+}
+
+/// Errors of the layers stage. Each names the file and where in it the problem is
+/// (feature index, property, CSV line and column) and the form that was expected.
+#[derive(Debug, thiserror::Error)]
+pub enum LayerError {
+    /// The file cannot be opened or read.
+    #[error("{path}: cannot read file: {source}")]
+    Io {
+        /// The file.
+        path: PathBuf,
+        /// The operating system's error.
+        source: std::io::Error,
+    },
+    /// The file is not valid JSON / GeoJSON.
+    #[error("{path}: line {line}, column {column}: {message} (expected a GeoJSON FeatureCollection, Feature or Geometry, RFC 7946)")]
+    Json {
+        /// The file.
+        path: PathBuf,
+        /// 1-based line serde reports.
+        line: usize,
+        /// 1-based column serde reports.
+        column: usize,
+        /// serde's message.
+        message: String,
+    },
+    /// A geometry is of the wrong kind or has invalid coordinates or rings.
+    #[error("{path}: feature {feature}: {message}")]
+    Geometry {
+        /// The file.
+        path: PathBuf,
+        /// 0-based feature index (0 for a bare Geometry).
+        feature: usize,
+        /// What is wrong and what was expected.
+        message: String,
+    },
+    /// A feature property is missing or not a number.
+    #[error("{path}: feature {feature}: property `{property}`: {message}")]
+    Property {
+        /// The file.
+        path: PathBuf,
+        /// 0-based feature index.
+        feature: usize,
+        /// The property name.
+        property: String,
+        /// What is wrong and what was expected.
+        message: String,
+    },
+    /// The CSV header lacks a needed column.
+    #[error("{path}: line 1 (header): {message}")]
+    CsvHeader {
+        /// The file.
+        path: PathBuf,
+        /// What is missing and what was expected.
+        message: String,
+    },
+    /// A CSV value is unparsable, NaN or infinite, or a row is malformed.
+    #[error("{path}: line {line}, column `{column}`: {message}")]
+    Csv {
+        /// The file.
+        path: PathBuf,
+        /// 1-based line number in the file (the header is line 1).
+        line: u64,
+        /// The column name (or `?` when the row itself is malformed).
+        column: String,
+        /// What is wrong and what was expected.
+        message: String,
+    },
+    /// A value lies outside the layer's `valid_range`.
+    #[error("{path}: {location}: value {value} is outside the valid range [{min}, {max}]")]
+    OutOfRange {
+        /// The file.
+        path: PathBuf,
+        /// Where: `feature 3`, `line 17`, or `cell 12 (lon, lat)` for a derived value.
+        location: String,
+        /// The offending value.
+        value: f64,
+        /// Lower bound of the valid range.
+        min: f64,
+        /// Upper bound of the valid range.
+        max: f64,
+    },
+    /// Some cells are not covered and the policy is [`Missing::Error`].
+    #[error("{path}: {count} of {total} cells are not covered by this {sampling} layer, e.g. {examples}; fix the data or set `missing = \"zero\"`")]
+    Uncovered {
+        /// The file.
+        path: PathBuf,
+        /// How the layer was sampled.
+        sampling: &'static str,
+        /// Number of uncovered cells.
+        count: usize,
+        /// Number of cells in the grid.
+        total: usize,
+        /// The first few uncovered cells with their lon/lat.
+        examples: String,
+    },
+    /// The spec is inconsistent (e.g. a needed `field` is absent, a CSV sampled as polygons).
+    #[error("{path}: {message}")]
+    Spec {
+        /// The file.
+        path: PathBuf,
+        /// What is wrong and what was expected.
+        message: String,
+    },
+    /// A CRS is unknown to PROJ or a coordinate cannot be transformed.
+    #[error("{path}: {source}")]
+    Projection {
+        /// The file.
+        path: PathBuf,
+        /// The grid stage's projection error.
+        source: crate::grid::GridError,
+    },
 }

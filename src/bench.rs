@@ -1,0 +1,339 @@
+//! Scaling benchmark: builds synthetic regions of a given number of cells and times each
+//! pipeline stage, with the peak resident memory during it. Figures are printed by the CLI
+//! (`driftplan bench`); nothing here asserts on time.
+
+use crate::features::habitat::{habitat_feature, HabitatLayer};
+use crate::features::FeatureTable;
+use crate::grid::{build_grid, CrsChoice, GridSpec};
+use crate::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
+use crate::model::{Budget, CellStatus, ModelFeature, Objective, Problem, Robustness, Scenario};
+use crate::pipeline::RunError;
+use crate::solve::{SolveOptions, Solver};
+use geo::{polygon, MultiPolygon};
+use std::fmt::Write as _;
+use std::time::Instant;
+
+/// Time and memory of one stage.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StageFigure {
+    /// Stage name.
+    pub stage: String,
+    /// Wall-clock time. Units: s.
+    pub seconds: f64,
+    /// Peak resident memory of the process during the stage. Units: MiB (NaN if unknown).
+    pub peak_mib: f64,
+    /// A short note (counts, solver status).
+    pub note: String,
+}
+
+/// Settings of one benchmark run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BenchSpec {
+    /// About how many cells the synthetic region should have.
+    pub cells: usize,
+    /// Species in the synthetic data (each gets scenarios × years features).
+    pub species: usize,
+    /// Solver time limit. Units: s.
+    pub time_limit_s: f64,
+    /// Solver relative gap.
+    pub gap: f64,
+}
+
+/// Resets the kernel's peak-RSS counter (Linux `clear_refs` value 5), so each stage's peak is
+/// its own; silently does nothing elsewhere.
+fn reset_peak() {
+    let _ = std::fs::write("/proc/self/clear_refs", "5");
+}
+
+/// Peak resident set (VmHWM) in MiB from `/proc/self/status`; NaN where unavailable.
+fn peak_mib() -> f64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|s| {
+            s.lines()
+                .find(|l| l.starts_with("VmHWM:"))
+                .and_then(|l| l.split_whitespace().nth(1))
+                .and_then(|kb| kb.parse::<f64>().ok())
+        })
+        .map(|kb| kb / 1024.0)
+        .unwrap_or(f64::NAN)
+}
+
+fn timed<T>(
+    figures: &mut Vec<StageFigure>,
+    stage: &str,
+    f: impl FnOnce() -> Result<(T, String), RunError>,
+) -> Result<T, RunError> {
+    reset_peak();
+    let t = Instant::now();
+    let (value, note) = f()?;
+    figures.push(StageFigure {
+        stage: stage.into(),
+        seconds: t.elapsed().as_secs_f64(),
+        peak_mib: peak_mib(),
+        note,
+    });
+    Ok(value)
+}
+
+/// Runs every stage on a synthetic square region near 40°S with a land block in its middle and
+/// species whose suitability bands move south with time.
+pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>, RunError> {
+    let cell_km = 2.0;
+    let side_km = (spec.cells as f64).sqrt() * cell_km;
+    let lat0: f64 = -40.0;
+    let dlat = side_km / 111.2;
+    let dlon = side_km / (111.2 * lat0.to_radians().cos());
+    let (w, s) = (150.0 - dlon / 2.0, lat0 - dlat / 2.0);
+    let (e, n) = (w + dlon, s + dlat);
+    let region = MultiPolygon(vec![
+        polygon![(x: w, y: s), (x: e, y: s), (x: e, y: n), (x: w, y: n), (x: w, y: s)],
+    ]);
+    // A land block covering the middle ninth: cells along its edge are clipped.
+    let (lw, le) = (w + dlon / 3.0 + 0.013, e - dlon / 3.0 - 0.007);
+    let (ls, ln) = (s + dlat / 3.0 + 0.011, n - dlat / 3.0 - 0.009);
+    let land = MultiPolygon(vec![
+        polygon![(x: lw, y: ls), (x: le, y: ls), (x: le, y: ln), (x: lw, y: ln), (x: lw, y: ls)],
+    ]);
+
+    let mut figures = Vec::new();
+    progress(&format!("bench {} cells: grid", spec.cells));
+    let grid = timed(&mut figures, "grid", || {
+        let g = build_grid(
+            &GridSpec {
+                cell_size_km: cell_km,
+                crs: CrsChoice::Auto,
+                min_sea_share: 0.1,
+            },
+            &region,
+            Some(&land),
+        )?;
+        let note = format!("{} cells", g.len());
+        Ok((g, note))
+    })?;
+
+    // Synthetic CSV point grids (one file per scenario-year, one column per species).
+    let dir = std::env::temp_dir().join(format!(
+        "driftplan-bench-{}-{}",
+        std::process::id(),
+        spec.cells
+    ));
+    std::fs::create_dir_all(&dir).map_err(|e| {
+        RunError::Grid(crate::grid::GridError::Invalid(format!(
+            "bench temp dir {}: {e}",
+            dir.display()
+        )))
+    })?;
+    let scenarios = [("low", 0.01), ("mid", 0.02), ("high", 0.035)];
+    let years = [2030, 2050, 2070, 2090];
+    let step = 0.05;
+    let (nx, ny) = (
+        (dlon / step).ceil() as usize + 2,
+        (dlat / step).ceil() as usize + 2,
+    );
+    for (name, rate) in scenarios {
+        for year in years {
+            let mut csv = String::from("lon,lat");
+            for k in 0..spec.species {
+                let _ = write!(csv, ",sp{k}");
+            }
+            csv.push('\n');
+            for j in 0..ny {
+                for i in 0..nx {
+                    let (lon, lat) = (w - step + i as f64 * step, s - step + j as f64 * step);
+                    let _ = write!(csv, "{lon:.4},{lat:.4}");
+                    for k in 0..spec.species {
+                        // Band centre moves south (poleward) with warming.
+                        let centre = n
+                            - dlat * (0.2 + 0.6 * k as f64 / spec.species.max(1) as f64)
+                            - rate * (year - 2020) as f64 * 0.5;
+                        let v = (-((lat - centre) / (dlat * 0.08)).powi(2)).exp();
+                        let _ = write!(csv, ",{:.3}", if v < 0.02 { 0.0 } else { v });
+                    }
+                    csv.push('\n');
+                }
+            }
+            std::fs::write(dir.join(format!("{name}_{year}.csv")), csv).map_err(|e| {
+                RunError::Grid(crate::grid::GridError::Invalid(format!("bench file: {e}")))
+            })?;
+        }
+    }
+
+    progress("bench: layers and features");
+    let cache = SourceCache::default();
+    let features = timed(&mut figures, "layers+features", || {
+        let mut table = FeatureTable {
+            scenarios: scenarios.iter().map(|s| s.0.to_string()).collect(),
+            years: years.to_vec(),
+            features: vec![],
+        };
+        for (ci, (name, _)) in scenarios.iter().enumerate() {
+            for year in years {
+                for k in 0..spec.species {
+                    let layer_spec = LayerSpec {
+                        path: dir.join(format!("{name}_{year}.csv")),
+                        sampling: Sampling::Interpolate,
+                        field: Some(format!("sp{k}")),
+                        crs: None,
+                        valid_range: Some((0.0, 1.0)),
+                        missing: Missing::Error,
+                    };
+                    let layer = sample(&format!("sp{k}"), &layer_spec, &grid, &cache)?;
+                    let sp = format!("sp{k}");
+                    table.features.push(habitat_feature(
+                        &grid,
+                        &HabitatLayer {
+                            species: &sp,
+                            scenario: ci,
+                            scenario_name: name,
+                            year,
+                            share: &layer.values,
+                            target_share: 0.3,
+                            weight: 1.0,
+                        },
+                    ));
+                }
+            }
+        }
+        let nnz: usize = table.features.iter().map(|f| f.amounts.len()).sum();
+        let note = format!("{} features, {nnz} non-zero amounts", table.features.len());
+        Ok((table, note))
+    })?;
+    let _ = std::fs::remove_dir_all(&dir);
+
+    // Climate stages on one scenario: velocity from a synthetic temperature field that cools
+    // poleward and warms with time, trajectories along it, and range edges of every species.
+    let climate_err = |e: crate::climate::ClimateError| RunError::Climate(e);
+    let temperature: Vec<Vec<f64>> = years
+        .iter()
+        .map(|&y| {
+            grid.cells
+                .iter()
+                .map(|c| 20.0 + 0.9 * (c.lonlat[1] - lat0) + 0.02 * (y - 2020) as f64)
+                .collect()
+        })
+        .collect();
+    let velocity = timed(&mut figures, "climate velocity", || {
+        let v = crate::climate::velocity::climate_velocity(
+            &grid,
+            &years,
+            &temperature,
+            &Default::default(),
+        )
+        .map_err(climate_err)?;
+        Ok((v, "1 scenario".to_string()))
+    })?;
+    timed(&mut figures, "trajectories + classes", || {
+        let params = crate::climate::trajectory::TrajectoryParams::default();
+        let set = crate::climate::trajectory::trace_all(&grid, &velocity, &params)
+            .map_err(climate_err)?;
+        let (_, classes) =
+            crate::climate::trajectory::classify_flow(&grid, &set, &params).map_err(climate_err)?;
+        Ok(((), format!("{} trajectories", classes.len())))
+    })?;
+    timed(&mut figures, "range edges", || {
+        let axis = crate::features::edges::axis_positions(
+            &grid,
+            &crate::features::edges::PolewardAxis::Meridian,
+        )
+        .map_err(climate_err)?;
+        for k in 0..spec.species {
+            let by_year: Vec<&[(u32, f64)]> = features
+                .features
+                .iter()
+                .filter(|f| {
+                    f.scenario == Some(0) && f.species.as_deref() == Some(&format!("sp{k}"))
+                })
+                .map(|f| f.amounts.as_slice())
+                .collect();
+            crate::features::edges::range_edges(
+                &grid,
+                &axis,
+                &years,
+                &by_year,
+                &Default::default(),
+            )
+            .map_err(climate_err)?;
+        }
+        Ok((
+            (),
+            format!("{} species × {} years", spec.species, years.len()),
+        ))
+    })?;
+
+    let problem = timed(&mut figures, "model", || {
+        let p = Problem {
+            cost: grid
+                .cells
+                .iter()
+                .map(|c| c.sea_area_km2 * (1.0 + (c.centre[0] / 50_000.0).sin().abs()))
+                .collect(),
+            area_km2: grid.cells.iter().map(|c| c.sea_area_km2).collect(),
+            status: vec![CellStatus::Free; grid.len()],
+            scenarios: scenarios
+                .iter()
+                .map(|s| Scenario {
+                    name: s.0.into(),
+                    weight: 1.0,
+                })
+                .collect(),
+            features: features
+                .features
+                .iter()
+                .map(|f| ModelFeature {
+                    name: f.name.clone(),
+                    scenario: f.scenario,
+                    amounts: f.amounts.clone(),
+                    target: f.target.amount(f.total),
+                    weight: 1.0,
+                })
+                .collect(),
+            objective: Objective::MinCost,
+            robustness: Robustness::EveryScenario,
+            budget: Budget::default(),
+            edge_penalty: None,
+            spacing: None,
+            scenario_best: None,
+        };
+        Ok((
+            p,
+            format!(
+                "{} cells × {} feature rows",
+                grid.len(),
+                features.features.len()
+            ),
+        ))
+    })?;
+
+    progress("bench: solve (HiGHS)");
+    let options = SolveOptions {
+        time_limit_s: Some(spec.time_limit_s),
+        rel_gap: spec.gap,
+        threads: None,
+        verbose: false,
+        seed: 1,
+    };
+    let solution = timed(&mut figures, "solve", || {
+        let sol = crate::solve::ilp::Highs::default().solve(&problem, &options)?;
+        let note = format!("{}, gap {:.3}%", sol.status.as_str(), 100.0 * sol.gap);
+        Ok((sol, note))
+    })?;
+
+    let assessment = timed(&mut figures, "assess", || {
+        let a = crate::assess::assess(&grid, &features, &problem.cost, &solution.selected);
+        let note = format!(
+            "{} reserves, {}/{} targets met",
+            a.reserves.len(),
+            a.targets_met,
+            a.coverage.len()
+        );
+        Ok((a, note))
+    })?;
+
+    timed(&mut figures, "export network.geojson", || {
+        let text = crate::export::geojson::network_geojson(&grid, &assessment)
+            .map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(e.to_string())))?;
+        Ok(((), format!("{:.1} MB", text.len() as f64 / 1e6)))
+    })?;
+    Ok(figures)
+}

@@ -1,0 +1,207 @@
+//! `summary.json`: the facts of one run, for people and for scripts.
+
+use super::CAUTION;
+use crate::assess::Assessment;
+use crate::solve::Solution;
+use serde::Serialize;
+use sha2::{Digest, Sha256};
+
+/// The facts of one run. Field order is the key order of `summary.json`. Non-finite numbers
+/// (e.g. a heuristic's bound and gap) are written as `null`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Summary {
+    /// Plan name (from the plan file).
+    pub plan: String,
+    /// SHA-256 of the plan file's bytes, lower-case hex: ties outputs to the exact plan.
+    pub plan_sha256: String,
+    /// Solver that produced the network (`highs`, `greedy`, ...).
+    pub solver: String,
+    /// How the solve ended (`optimal`, `gap-limit`, `time-limit`, `heuristic`).
+    pub status: String,
+    /// Objective value of the network, in the problem's own sense.
+    pub objective: f64,
+    /// Best proven bound on the objective.
+    pub bound: f64,
+    /// Relative gap between objective and bound (0–1).
+    pub gap: f64,
+    /// Solve wall-clock time. Units: s.
+    pub seconds: f64,
+    /// Total cost of the network.
+    pub cost: f64,
+    /// Sea area of the network. Units: km².
+    pub area_km2: f64,
+    /// Network area over the region's sea area (0–1).
+    pub share_of_region: f64,
+    /// Number of reserves (connected pieces).
+    pub reserves: usize,
+    /// Reserve edge facing unprotected sea. Units: km.
+    pub exposed_edge_km: f64,
+    /// Targets met.
+    pub targets_met: usize,
+    /// Targets in the plan.
+    pub targets_total: usize,
+    /// Cells in the network.
+    pub cells_selected: usize,
+    /// Cells in the grid.
+    pub cells: usize,
+    /// What these results are and are not.
+    pub caution: String,
+    /// Per scenario: benefit, best achievable benefit, regret and targets met.
+    pub scenarios: Vec<ScenarioSummary>,
+    /// driftplan version that wrote the file.
+    pub driftplan_version: String,
+}
+
+/// How the network fares in one scenario (from `solve::Solution::scenarios`).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScenarioSummary {
+    /// Scenario name.
+    pub name: String,
+    /// Weighted targets met (partly met ones count their share). Units: weighted targets.
+    pub benefit: f64,
+    /// The most the benefit can be (all targets met).
+    pub benefit_max: f64,
+    /// Best benefit this scenario alone allows, when computed (least-regret runs).
+    pub best: Option<f64>,
+    /// best − benefit, when best is known.
+    pub regret: Option<f64>,
+    /// Targets met in this scenario.
+    pub targets_met: usize,
+    /// Targets in this scenario.
+    pub targets: usize,
+}
+
+impl Summary {
+    /// Gathers the summary of a run from its solution and assessment. `plan_sha256` is
+    /// [`plan_hash`] of the plan file; `grid_cells` the number of grid cells.
+    pub fn new(
+        plan: &str,
+        plan_sha256: &str,
+        solution: &Solution,
+        assessment: &Assessment,
+        grid_cells: usize,
+    ) -> Summary {
+        Summary {
+            plan: plan.to_string(),
+            plan_sha256: plan_sha256.to_string(),
+            solver: solution.solver.clone(),
+            status: solution.status.as_str().to_string(),
+            objective: solution.objective,
+            bound: solution.bound,
+            gap: solution.gap,
+            seconds: solution.seconds,
+            cost: assessment.cost,
+            area_km2: assessment.area_km2,
+            share_of_region: assessment.share_of_region,
+            reserves: assessment.reserves.len(),
+            exposed_edge_km: assessment.exposed_edge_km,
+            targets_met: assessment.targets_met,
+            targets_total: assessment.coverage.len(),
+            cells_selected: assessment.cells_selected,
+            cells: grid_cells,
+            caution: CAUTION.to_string(),
+            scenarios: solution
+                .scenarios
+                .iter()
+                .map(|r| ScenarioSummary {
+                    name: r.name.clone(),
+                    benefit: r.benefit,
+                    benefit_max: r.benefit_max,
+                    best: r.best,
+                    regret: r.regret,
+                    targets_met: r.targets_met,
+                    targets: r.targets,
+                })
+                .collect(),
+            driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
+        }
+    }
+}
+
+/// SHA-256 of `bytes` as 64 lower-case hex digits.
+pub fn plan_hash(bytes: &[u8]) -> String {
+    Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// `summary.json`: pretty-printed, keys in [`Summary`] field order, trailing newline.
+pub fn summary_json(summary: &Summary) -> String {
+    // A struct of strings and numbers always serialises (serde_json writes non-finite floats
+    // as null rather than failing).
+    let mut s = serde_json::to_string_pretty(summary).unwrap_or_default();
+    s.push('\n');
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::ScenarioResult;
+    use crate::solve::SolveStatus;
+
+    #[test]
+    fn sha256_known_vectors() {
+        // FIPS 180-2, Appendix B.1 ("abc") and the empty-message digest.
+        assert_eq!(
+            plan_hash(b"abc"),
+            "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+        );
+        assert_eq!(
+            plan_hash(b""),
+            "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"
+        );
+    }
+
+    #[test]
+    fn json_has_stable_keys_and_null_for_nan() {
+        let sol = Solution {
+            selected: vec![true, false],
+            status: SolveStatus::Heuristic,
+            objective: 7.0,
+            bound: f64::NAN,
+            gap: f64::NAN,
+            seconds: 0.25,
+            solver: "greedy".into(),
+            scenarios: vec![ScenarioResult {
+                name: "s1".into(),
+                benefit: 2.5,
+                benefit_max: 3.0,
+                best: Some(3.0),
+                regret: Some(0.5),
+                targets_met: 2,
+                targets: 3,
+            }],
+            scenario_best: None,
+        };
+        let a = Assessment {
+            coverage: vec![],
+            cost: 7.0,
+            area_km2: 100.0,
+            share_of_region: 0.5,
+            reserves: vec![],
+            exposed_edge_km: 40.0,
+            targets_met: 0,
+            boundary_edge_km: 0.0,
+            cells_selected: 1,
+        };
+        let s = Summary::new("demo", &plan_hash(b"abc"), &sol, &a, 2);
+        let text = summary_json(&s);
+        let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+        assert!(v["bound"].is_null());
+        assert_eq!(v["scenarios"][0]["regret"], 0.5);
+        assert_eq!(v["status"], "heuristic");
+        assert_eq!(v["cells"], 2);
+        assert!(v["caution"]
+            .as_str()
+            .unwrap()
+            .starts_with("Decision support only"));
+        // Key order follows the struct: `plan` first, `driftplan_version` last.
+        let first = text.find("\"plan\"").unwrap();
+        let last = text.find("\"driftplan_version\"").unwrap();
+        assert!(
+            first < text.find("\"solver\"").unwrap() && text.find("\"caution\"").unwrap() < last
+        );
+    }
+}

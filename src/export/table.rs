@@ -1,0 +1,85 @@
+//! `coverage.csv`: one row per feature with its total, held amount, target and shortfall.
+
+use crate::assess::Assessment;
+
+/// Column names of `coverage.csv`, in order.
+pub const COVERAGE_COLUMNS: [&str; 10] = [
+    "feature",
+    "kind",
+    "species",
+    "scenario",
+    "year",
+    "total",
+    "held",
+    "target",
+    "shortfall",
+    "met",
+];
+
+/// `coverage.csv`: columns [`COVERAGE_COLUMNS`], one row per feature in assessment order.
+/// Missing species/scenario/year are empty fields; amounts are in each feature's own unit,
+/// written in shortest round-trip form; `met` is `true`/`false`.
+pub fn coverage_csv(assessment: &Assessment) -> String {
+    let mut w = csv::Writer::from_writer(Vec::new());
+    // Writing records to an in-memory Vec cannot fail (the csv crate only reports I/O errors
+    // and, for mismatched record lengths, which a fixed 10-column layout rules out).
+    let _ = w.write_record(COVERAGE_COLUMNS);
+    for c in &assessment.coverage {
+        let _ = w.write_record([
+            c.feature.clone(),
+            c.kind.clone(),
+            c.species.clone().unwrap_or_default(),
+            c.scenario.clone().unwrap_or_default(),
+            c.year.map(|y| y.to_string()).unwrap_or_default(),
+            c.total.to_string(),
+            c.held.to_string(),
+            c.target.to_string(),
+            c.shortfall.to_string(),
+            c.met.to_string(),
+        ]);
+    }
+    let bytes = w
+        .into_inner()
+        .map_err(|e| e.into_error())
+        .unwrap_or_default();
+    // The writer only ever received UTF-8 strings.
+    String::from_utf8(bytes).unwrap_or_default()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::assess::Coverage;
+
+    #[test]
+    fn quotes_names_with_commas() {
+        let a = Assessment {
+            coverage: vec![Coverage {
+                feature: "habitat/cod, juvenile".into(),
+                kind: "habitat".into(),
+                species: None,
+                scenario: Some("ssp2-4.5".into()),
+                year: Some(2050),
+                total: 10.0,
+                held: 2.5,
+                target: 3.0,
+                shortfall: 0.5,
+                met: false,
+            }],
+            cost: 0.0,
+            area_km2: 0.0,
+            share_of_region: 0.0,
+            reserves: vec![],
+            exposed_edge_km: 0.0,
+            targets_met: 0,
+            boundary_edge_km: 0.0,
+            cells_selected: 0,
+        };
+        // Expected text written out by hand following RFC 4180 quoting.
+        assert_eq!(
+            coverage_csv(&a),
+            "feature,kind,species,scenario,year,total,held,target,shortfall,met\n\
+             \"habitat/cod, juvenile\",habitat,,ssp2-4.5,2050,10,2.5,3,0.5,false\n"
+        );
+    }
+}

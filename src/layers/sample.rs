@@ -1,0 +1,395 @@
+//! Sampling one layer source onto the grid: dispatch on [`Sampling`], reprojection, valid-range
+//! checks and the missing-cell policy.
+
+use super::area::PolygonIndex;
+use super::cache::SourceCache;
+use super::csv::{self as csvfile, CsvTable};
+use super::geojson::{self as gj, Coords, GeoFile};
+use super::points::{nearest, RegularLattice, Weights};
+use super::{Layer, LayerError, LayerSpec, Missing, Sampling};
+use crate::grid::{Crs, Grid, Projector};
+use geo::MultiPolygon;
+use rayon::prelude::*;
+use std::path::Path;
+
+/// How many uncovered cells an [`LayerError::Uncovered`] message lists.
+const EXAMPLES: usize = 5;
+
+/// Samples the source `spec` onto `grid` and returns the layer `name`, one value per cell id.
+///
+/// Polygons and points are reprojected into the grid's CRS (from `spec.crs`, or WGS84 lon/lat);
+/// CSV lattices are interpolated in their own coordinates. Values outside `spec.valid_range` —
+/// in the file or after sampling — are errors; uncovered cells follow `spec.missing`.
+/// Parsed files are taken from / put into `cache`.
+pub fn sample(
+    name: &str,
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Layer, LayerError> {
+    let values = match spec.sampling {
+        Sampling::AreaShare => area_share(spec, grid, cache)?,
+        Sampling::AreaMean => area_mean(spec, grid, cache)?,
+        Sampling::PointCount | Sampling::PointSum | Sampling::PointMean => {
+            points(spec, grid, cache)?
+        }
+        Sampling::Interpolate => interpolate(spec, grid, cache)?,
+    };
+    if let Some((min, max)) = spec.valid_range {
+        for (id, v) in values.iter().enumerate() {
+            if let Some(v) = *v {
+                if !(min..=max).contains(&v) {
+                    return Err(LayerError::OutOfRange {
+                        path: spec.path.clone(),
+                        location: format!("sampled value of {}", describe_cell(grid, id)),
+                        value: v,
+                        min,
+                        max,
+                    });
+                }
+            }
+        }
+    }
+    let uncovered: Vec<usize> = values
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.is_none())
+        .map(|(i, _)| i)
+        .collect();
+    if spec.missing == Missing::Error && !uncovered.is_empty() {
+        let examples: Vec<String> = uncovered
+            .iter()
+            .take(EXAMPLES)
+            .map(|&id| describe_cell(grid, id))
+            .collect();
+        return Err(LayerError::Uncovered {
+            path: spec.path.clone(),
+            sampling: spec.sampling.name(),
+            count: uncovered.len(),
+            total: grid.len(),
+            examples: examples.join(", "),
+        });
+    }
+    Ok(Layer {
+        name: name.to_string(),
+        values: values.into_iter().map(|v| v.unwrap_or(0.0)).collect(),
+    })
+}
+
+fn describe_cell(grid: &Grid, id: usize) -> String {
+    let [lon, lat] = grid.cells[id].lonlat;
+    format!("cell {id} (lon {lon:.4}, lat {lat:.4})")
+}
+
+fn coords(spec: &LayerSpec) -> Coords {
+    if spec.crs.is_some() {
+        Coords::Projected
+    } else {
+        Coords::LonLat
+    }
+}
+
+fn field(spec: &LayerSpec) -> Result<&str, LayerError> {
+    spec.field.as_deref().ok_or_else(|| LayerError::Spec {
+        path: spec.path.clone(),
+        message: format!(
+            "{} sampling needs the property/column that holds the values (expected e.g. `column = \"value\"`)",
+            spec.sampling.name()
+        ),
+    })
+}
+
+fn check_range(
+    spec: &LayerSpec,
+    location: impl FnOnce() -> String,
+    value: f64,
+) -> Result<(), LayerError> {
+    match spec.valid_range {
+        Some((min, max)) if !(min..=max).contains(&value) => Err(LayerError::OutOfRange {
+            path: spec.path.clone(),
+            location: location(),
+            value,
+            min,
+            max,
+        }),
+        _ => Ok(()),
+    }
+}
+
+/// A key that identifies the grid's lattice, for cache entries prepared for one grid.
+fn grid_key(grid: &Grid) -> String {
+    format!(
+        "{}|{}|{:?}|{}x{}|{}",
+        grid.crs.definition,
+        grid.cell_size_m,
+        grid.origin,
+        grid.n_cols,
+        grid.n_rows,
+        grid.len()
+    )
+}
+
+/// Moves source coordinates into the grid's CRS.
+struct ToGrid<'a> {
+    path: &'a Path,
+    /// `None` when the source is already in the grid's CRS.
+    grid: Option<Projector>,
+    /// The source CRS, `None` for WGS84 lon/lat.
+    source: Option<Projector>,
+    /// Densify projected edges to at most this length before unprojecting. Units: m.
+    step_m: f64,
+    /// Densify lon/lat edges to at most this length before projecting. Units: degrees.
+    step_deg: f64,
+}
+
+impl<'a> ToGrid<'a> {
+    fn new(spec: &'a LayerSpec, grid: &Grid) -> Result<ToGrid<'a>, LayerError> {
+        let err = |source| LayerError::Projection {
+            path: spec.path.clone(),
+            source,
+        };
+        let same = spec.crs.as_deref() == Some(grid.crs.definition.as_str());
+        let source = match (&spec.crs, same) {
+            (Some(def), false) => Some(
+                Projector::new(&Crs {
+                    definition: def.clone(),
+                })
+                .map_err(err)?,
+            ),
+            _ => None,
+        };
+        let grid_proj = if same {
+            None
+        } else {
+            Some(Projector::new(&grid.crs).map_err(err)?)
+        };
+        // Half a cell keeps the curvature of long edges well below a cell's size; 1e-5° ≈ 1 m
+        // floors it for tiny test cells.
+        let step_m = grid.cell_size_m / 2.0;
+        let step_deg = (grid.cell_size_m / 2.0 / 111_320.0).clamp(1e-5, 0.25);
+        Ok(ToGrid {
+            path: &spec.path,
+            grid: grid_proj,
+            source,
+            step_m,
+            step_deg,
+        })
+    }
+
+    fn err(&self, source: crate::grid::GridError) -> LayerError {
+        LayerError::Projection {
+            path: self.path.to_path_buf(),
+            source,
+        }
+    }
+
+    fn point(&self, p: [f64; 2]) -> Result<[f64; 2], LayerError> {
+        let Some(g) = &self.grid else { return Ok(p) };
+        let ll = match &self.source {
+            Some(s) => s.to_lonlat(p[0], p[1]).map_err(|e| self.err(e))?,
+            None => p,
+        };
+        g.to_xy(ll[0], ll[1]).map_err(|e| self.err(e))
+    }
+
+    fn polygon(&self, mp: &MultiPolygon<f64>) -> Result<MultiPolygon<f64>, LayerError> {
+        let Some(g) = &self.grid else {
+            return Ok(mp.clone());
+        };
+        let ll = match &self.source {
+            Some(s) => s
+                .polygon_to_lonlat(mp, self.step_m)
+                .map_err(|e| self.err(e))?,
+            None => mp.clone(),
+        };
+        g.polygon_to_xy(&ll, self.step_deg).map_err(|e| self.err(e))
+    }
+}
+
+fn geo_file(spec: &LayerSpec, cache: &SourceCache) -> Result<std::sync::Arc<GeoFile>, LayerError> {
+    cache.get_or_load(&spec.path, "geojson", || gj::parse_file(&spec.path))
+}
+
+/// The polygon file projected into the grid's CRS and cut on its lattice; one entry per
+/// feature, in file order.
+fn polygon_index(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<(std::sync::Arc<GeoFile>, std::sync::Arc<PolygonIndex>), LayerError> {
+    let file = geo_file(spec, cache)?;
+    let kind = format!("polygons|{:?}|{}", spec.crs, grid_key(grid));
+    let index = cache.get_or_load(&spec.path, &kind, || {
+        let to_grid = ToGrid::new(spec, grid)?;
+        let projected = file
+            .polygons(coords(spec))?
+            .iter()
+            .map(|(_, mp)| to_grid.polygon(mp))
+            .collect::<Result<Vec<_>, _>>()?;
+        Ok(PolygonIndex::build(grid, &projected))
+    })?;
+    Ok((file, index))
+}
+
+fn area_share(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
+    let (_, index) = polygon_index(spec, grid, cache)?;
+    Ok((0..grid.len() as u32)
+        .into_par_iter()
+        .map(|id| index.share(grid, id))
+        .collect())
+}
+
+fn area_mean(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
+    let field = field(spec)?;
+    let (file, index) = polygon_index(spec, grid, cache)?;
+    // Feature k of the file is polygon k of the index (`polygons` keeps one entry per feature).
+    let mut values = Vec::with_capacity(file.features.len());
+    for f in &file.features {
+        let v = file.number(f.index, field)?;
+        if let Some(v) = v {
+            check_range(
+                spec,
+                || format!("feature {}, property `{field}`", f.index),
+                v,
+            )?;
+        }
+        values.push(v);
+    }
+    Ok((0..grid.len() as u32)
+        .into_par_iter()
+        .map(|id| {
+            // Area-weighted mean: Σ vᵢ·aᵢ / Σ aᵢ over polygons with data; overlapping polygons
+            // each weigh with their own covered area.
+            let (mut num, mut den) = (0.0, 0.0);
+            for (p, a) in index.covered_by_each(grid, id) {
+                if let Some(v) = values[p as usize] {
+                    num += v * a;
+                    den += a;
+                }
+            }
+            (den > 0.0).then(|| num / den)
+        })
+        .collect())
+}
+
+fn points(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
+    let file = geo_file(spec, cache)?;
+    let field = match spec.sampling {
+        Sampling::PointCount => None,
+        _ => Some(field(spec)?),
+    };
+    let to_grid = ToGrid::new(spec, grid)?;
+    let mut sum = vec![0.0; grid.len()];
+    let mut count = vec![0u32; grid.len()];
+    for (index, p) in file.points(coords(spec))? {
+        let v = match field {
+            None => 1.0,
+            Some(f) => match file.number(index, f)? {
+                Some(v) => v,
+                None => continue, // JSON null: no data at this point.
+            },
+        };
+        check_range(spec, || format!("feature {index}"), v)?;
+        if let Some(id) = grid.locate(to_grid.point(p)?) {
+            sum[id as usize] += v;
+            count[id as usize] += 1;
+        }
+    }
+    Ok(sum
+        .into_iter()
+        .zip(count)
+        .map(|(s, n)| match (n, spec.sampling) {
+            (0, _) => None,
+            (n, Sampling::PointMean) => Some(s / n as f64),
+            (_, _) => Some(s),
+        })
+        .collect())
+}
+
+/// Per-cell interpolation weights for one CSV's coordinates on one grid (shared by its columns).
+struct Interpolator {
+    weights: Vec<Weights>,
+}
+
+fn interpolate(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
+    let column = field(spec)?;
+    let c = coords(spec);
+    let table: std::sync::Arc<CsvTable> =
+        cache.get_or_load(&spec.path, &format!("csv|{c:?}"), || {
+            csvfile::parse_file(&spec.path, c)
+        })?;
+    let values = table.column(column)?;
+    for (v, line) in values.iter().zip(&table.lines) {
+        check_range(spec, || format!("line {line}, column `{column}`"), *v)?;
+    }
+    let kind = format!("interpolate|{:?}|{}", spec.crs, grid_key(grid));
+    let interp = cache.get_or_load(&spec.path, &kind, || interpolator(spec, grid, &table))?;
+    Ok(interp.weights.iter().map(|w| w.apply(values)).collect())
+}
+
+fn interpolator(
+    spec: &LayerSpec,
+    grid: &Grid,
+    table: &CsvTable,
+) -> Result<Interpolator, LayerError> {
+    let err = |source| LayerError::Projection {
+        path: spec.path.clone(),
+        source,
+    };
+    if let Some(lattice) = RegularLattice::detect(&table.xs, &table.ys) {
+        // Bilinear in the file's own coordinates, at each cell's lon/lat centroid.
+        let source = match &spec.crs {
+            Some(def) => Some(
+                Projector::new(&Crs {
+                    definition: def.clone(),
+                })
+                .map_err(err)?,
+            ),
+            None => None,
+        };
+        let mut weights = Vec::with_capacity(grid.len());
+        for cell in &grid.cells {
+            let [lon, lat] = cell.lonlat;
+            let q = match &source {
+                Some(s) => s.to_xy(lon, lat).map_err(err)?,
+                // A 0..360 lattice holds western longitudes as lon + 360.
+                None => {
+                    let lon = [lon, lon + 360.0, lon - 360.0]
+                        .into_iter()
+                        .find(|&l| lattice.spans_x(l))
+                        .unwrap_or(lon);
+                    [lon, lat]
+                }
+            };
+            weights.push(lattice.weights_at(q[0], q[1]));
+        }
+        return Ok(Interpolator { weights });
+    }
+    // Nearest point, measured in the grid's equal-area metres.
+    let to_grid = ToGrid::new(spec, grid)?;
+    let pts = table
+        .xs
+        .iter()
+        .zip(&table.ys)
+        .map(|(&x, &y)| to_grid.point([x, y]))
+        .collect::<Result<Vec<_>, _>>()?;
+    let queries: Vec<[f64; 2]> = grid.cells.iter().map(|c| c.centre).collect();
+    let (weights, _limit) = nearest(&pts, &queries, grid.cell_size_m);
+    Ok(Interpolator { weights })
+}

@@ -1,0 +1,110 @@
+//! Plan file validation: every problem reported at once, each with its key.
+
+use driftplan::plan::{CostPlan, Plan};
+use std::path::Path;
+
+fn demo_plan_text() -> String {
+    std::fs::read_to_string("scenarios/demo.toml").expect("the committed demo plan")
+}
+
+fn load_text(text: &str) -> Result<Plan, driftplan::plan::PlanError> {
+    Plan::from_toml(
+        text,
+        Path::new("scenarios/test.toml"),
+        Path::new("scenarios"),
+        "0".into(),
+    )
+}
+
+#[test]
+fn committed_demo_plan_is_valid() {
+    let plan = Plan::load(Path::new("scenarios/demo.toml")).unwrap();
+    assert_eq!(plan.scenarios, ["ssp1-2.6", "ssp2-4.5", "ssp5-8.5"]);
+    assert_eq!(plan.years, [2030, 2050, 2070, 2090]);
+    assert_eq!(plan.species.len(), 12);
+    assert_eq!(plan.default_target, 0.3);
+    assert!(matches!(plan.cost, CostPlan::Layer { per_km2: true, .. }));
+    // The plan hash is the SHA-256 of the file: 64 hex digits.
+    assert_eq!(plan.hash.len(), 64);
+}
+
+#[test]
+fn unknown_key_is_named() {
+    let text = demo_plan_text().replace("[grid]\n", "[grid]\ncell_sise_km = 4\n");
+    let err = load_text(&text).unwrap_err();
+    assert!(
+        err.issues
+            .iter()
+            .any(|i| i.key == "grid.cell_sise_km" && i.message.contains("unknown key")),
+        "{err}"
+    );
+}
+
+#[test]
+fn target_above_100_percent_is_named() {
+    let text = demo_plan_text().replace("default = 0.3", "default = 1.3");
+    let err = load_text(&text).unwrap_err();
+    assert!(
+        err.issues
+            .iter()
+            .any(|i| i.key == "targets.default" && i.message.contains("between")),
+        "{err}"
+    );
+}
+
+#[test]
+fn every_problem_is_reported_at_once() {
+    let text = demo_plan_text()
+        .replace("default = 0.3", "default = 1.3")
+        .replace("cell_size_km = 5", "cell_size_km = -5")
+        .replace(
+            "../demo-data/land.geojson",
+            "../demo-data/no-such-land.geojson",
+        )
+        .replace("objective = \"min-cost\"", "objective = \"cheapest\"");
+    let err = load_text(&text).unwrap_err();
+    let keys: Vec<&str> = err.issues.iter().map(|i| i.key.as_str()).collect();
+    for k in [
+        "targets.default",
+        "grid.cell_size_km",
+        "land",
+        "optimise.objective",
+    ] {
+        assert!(keys.contains(&k), "missing {k} in {err}");
+    }
+    let shown = err.to_string();
+    assert!(
+        shown.contains("scenarios/test.toml"),
+        "the message names the file: {shown}"
+    );
+    assert!(shown.contains("no-such-land.geojson"));
+}
+
+#[test]
+fn missing_habitat_file_names_the_species_key() {
+    let text = demo_plan_text().replacen(
+        "{scenario}_{year}.csv\", column = \"{species}\"",
+        "{scenario}_{year}_x.csv\", column = \"{species}\"",
+        1,
+    );
+    let err = load_text(&text).unwrap_err();
+    assert!(
+        err.issues
+            .iter()
+            .any(|i| i.key == "species[0].habitat.path" && i.message.contains("not found")),
+        "{err}"
+    );
+}
+
+#[test]
+fn toml_syntax_error_gives_line() {
+    let err = load_text("name = \"x\"\n[grid\ncell_size_km = 5\n").unwrap_err();
+    assert!(err.issues[0].key.starts_with("line 2"), "{err}");
+}
+
+#[test]
+fn missing_plan_file_is_a_clear_error() {
+    let err = Plan::load(Path::new("scenarios/does-not-exist.toml")).unwrap_err();
+    assert!(err.to_string().contains("does-not-exist.toml"));
+    assert!(err.to_string().contains("cannot read"));
+}
