@@ -6,7 +6,7 @@ use crate::features::habitat::{habitat_feature, HabitatLayer};
 use crate::features::FeatureTable;
 use crate::grid::{build_grid, CrsChoice, GridSpec};
 use crate::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
-use crate::model::{Budget, CellStatus, ModelFeature, Objective, Problem, Robustness, Scenario};
+use crate::model::{Budget, CellStatus, Objective, Problem, Robustness, Scenario};
 use crate::pipeline::RunError;
 use crate::solve::{SolveOptions, Solver};
 use geo::{polygon, MultiPolygon};
@@ -277,17 +277,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                     weight: 1.0,
                 })
                 .collect(),
-            features: features
-                .features
-                .iter()
-                .map(|f| ModelFeature {
-                    name: f.name.clone(),
-                    scenario: f.scenario,
-                    amounts: f.amounts.clone(),
-                    target: f.target.amount(f.total),
-                    weight: 1.0,
-                })
-                .collect(),
+            features: crate::pipeline::model_features(&features),
             objective: Objective::MinCost,
             robustness: Robustness::EveryScenario,
             budget: Budget::default(),

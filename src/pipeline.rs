@@ -279,10 +279,9 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
     })
 }
 
-/// The solver-neutral problem a plan asks for.
-pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
-    let features = inputs
-        .features
+/// The model's feature rows: each feature's amounts with its target as an absolute amount.
+pub fn model_features(table: &FeatureTable) -> Vec<ModelFeature> {
+    table
         .features
         .iter()
         .map(|f| ModelFeature {
@@ -292,7 +291,12 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             target: f.target.amount(f.total),
             weight: f.weight,
         })
-        .collect();
+        .collect()
+}
+
+/// The solver-neutral problem a plan asks for.
+pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
+    let features = model_features(&inputs.features);
     let scenarios = plan
         .scenarios
         .iter()
@@ -382,6 +386,31 @@ pub fn assess_network(inputs: &Inputs, selected: &[bool]) -> Assessment {
 mod tests {
     use super::*;
     use crate::grid::Crs;
+
+    #[test]
+    fn model_features_turn_shares_into_absolute_targets() {
+        use crate::features::{Feature, FeatureKind, Target};
+        let table = FeatureTable {
+            scenarios: vec!["s".into()],
+            years: vec![2050],
+            features: vec![Feature {
+                name: "f".into(),
+                kind: FeatureKind::Habitat,
+                species: None,
+                scenario: Some(0),
+                year: Some(2050),
+                unit: "km2".into(),
+                amounts: vec![(1, 4.0), (2, 6.0)],
+                total: 10.0,
+                target: Target::Share(0.3),
+                weight: 2.0,
+            }],
+        };
+        let rows = model_features(&table);
+        // 30% of 10 km² = 3 km² (hand computation).
+        assert!((rows[0].target - 3.0).abs() < 1e-12);
+        assert_eq!((rows[0].scenario, rows[0].weight), (Some(0), 2.0));
+    }
 
     #[test]
     fn edge_penalty_pairs_and_alone_edges_from_the_grid() {
