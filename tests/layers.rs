@@ -152,13 +152,14 @@ fn bilinear_on_a_lattice_csv() {
 fn bilinear_product_case_at_set_centroids() {
     // Hand computation on the lattice cell lon 4..4.5, lat 49..49.5 for b = lon·lat with the
     // centroid moved to (4.125, 49.375): t = 0.25, u = 0.75;
-    // b = 0.75·0.25·196 + 0.25·0.25·198.25 + 0.75·0.75·197.5 + 0.25·0.75·199.75
-    //   = 36.75 + 12.390625 + 111.09375 + 37.453125 = 197.6875 (= 4.125 · 49.375).
+    // corners b(4,49) = 196, b(4.5,49) = 220.5, b(4,49.5) = 198, b(4.5,49.5) = 222.75;
+    // b = 0.75·0.25·196 + 0.25·0.25·220.5 + 0.75·0.75·198 + 0.25·0.75·222.75
+    //   = 36.75 + 13.78125 + 111.375 + 41.765625 = 203.671875 (= 4.125 · 49.375).
     let mut g = grid_3035(1, 1);
     g.cells[0].lonlat = [4.125, 49.375];
     let b = sample("b", &spec(data("lattice.csv"), Sampling::Interpolate, Some("b"), None), &g, &SourceCache::new())
         .unwrap();
-    assert!((b.values[0] - 197.6875).abs() < 1e-12);
+    assert!((b.values[0] - 203.671875).abs() < 1e-12);
 }
 
 #[test]

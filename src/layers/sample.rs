@@ -70,7 +70,7 @@ fn coords(spec: &LayerSpec) -> Coords {
     }
 }
 
-fn field<'a>(spec: &'a LayerSpec) -> Result<&'a str, LayerError> {
+fn field(spec: &LayerSpec) -> Result<&str, LayerError> {
     spec.field.as_deref().ok_or_else(|| LayerError::Spec {
         path: spec.path.clone(),
         message: format!(
