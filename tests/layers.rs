@@ -2,12 +2,14 @@
 
 use driftplan::grid::{Crs, Grid, Projector};
 use driftplan::layers::{
-    read_multipolygon, read_points, sample, LayerError, LayerSpec, Missing, SourceCache, Sampling,
+    read_multipolygon, read_points, sample, LayerError, LayerSpec, Missing, Sampling, SourceCache,
 };
 use std::path::{Path, PathBuf};
 
 fn data(name: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/layers").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data/layers")
+        .join(name)
 }
 
 fn spec(path: PathBuf, sampling: Sampling, field: Option<&str>, crs: Option<&str>) -> LayerSpec {
@@ -23,13 +25,29 @@ fn spec(path: PathBuf, sampling: Sampling, field: Option<&str>, crs: Option<&str
 
 /// 2 × 1 cells of 1 km in EPSG:3035, south-west corner at E 4 000 000, N 3 000 000.
 fn grid_3035(n_cols: u32, n_rows: u32) -> Grid {
-    Grid::full_rectangle(Crs { definition: "EPSG:3035".into() }, 1000.0, [4.0e6, 3.0e6], n_cols, n_rows).unwrap()
+    Grid::full_rectangle(
+        Crs {
+            definition: "EPSG:3035".into(),
+        },
+        1000.0,
+        [4.0e6, 3.0e6],
+        n_cols,
+        n_rows,
+    )
+    .unwrap()
 }
 
 /// 10 × 10 cells of 10 km in a LAEA centred at 5°E 50°N, placed so that (5°E, 50°N) — projected
 /// (0, 0) — is the centre of cell 55 (column 5, row 5).
 fn grid_laea() -> Grid {
-    Grid::full_rectangle(Crs::auto_laea(5.0, 50.0), 10_000.0, [-55_000.0, -55_000.0], 10, 10).unwrap()
+    Grid::full_rectangle(
+        Crs::auto_laea(5.0, 50.0),
+        10_000.0,
+        [-55_000.0, -55_000.0],
+        10,
+        10,
+    )
+    .unwrap()
 }
 
 #[test]
@@ -41,13 +59,28 @@ fn area_share_and_mean_by_hand() {
     // Area-weighted mean: cell 0 = (10·0.5 + 40·0.25) / 0.75 = 15 / 0.75 = 20; cell 1 = 40.
     let g = grid_3035(2, 1);
     let cache = SourceCache::new();
-    let share = sample("share", &spec(data("areas_3035.geojson"), Sampling::AreaShare, None, Some("EPSG:3035")), &g, &cache)
-        .unwrap();
+    let share = sample(
+        "share",
+        &spec(
+            data("areas_3035.geojson"),
+            Sampling::AreaShare,
+            None,
+            Some("EPSG:3035"),
+        ),
+        &g,
+        &cache,
+    )
+    .unwrap();
     assert!((share.values[0] - 0.75).abs() < 1e-12, "{:?}", share.values);
     assert!((share.values[1] - 0.5).abs() < 1e-12);
     let mean = sample(
         "depth",
-        &spec(data("areas_3035.geojson"), Sampling::AreaMean, Some("depth"), Some("EPSG:3035")),
+        &spec(
+            data("areas_3035.geojson"),
+            Sampling::AreaMean,
+            Some("depth"),
+            Some("EPSG:3035"),
+        ),
         &g,
         &cache,
     )
@@ -62,7 +95,10 @@ fn area_share_and_mean_by_hand() {
 /// Writes a lon/lat GeoJSON polygon whose corners are the given projected points of `g`.
 fn lonlat_polygon(dir: &Path, g: &Grid, corners: &[[f64; 2]]) -> PathBuf {
     let p = Projector::new(&g.crs).unwrap();
-    let mut ring: Vec<[f64; 2]> = corners.iter().map(|c| p.to_lonlat(c[0], c[1]).unwrap()).collect();
+    let mut ring: Vec<[f64; 2]> = corners
+        .iter()
+        .map(|c| p.to_lonlat(c[0], c[1]).unwrap())
+        .collect();
     ring.push(ring[0]);
     let text = serde_json::json!({"type": "Polygon", "coordinates": [ring]}).to_string();
     let path = dir.join("poly.geojson");
@@ -78,16 +114,50 @@ fn area_share_of_lonlat_polygons() {
     // lon/lat edge of 10 km bends by well under a metre in this LAEA, so 1e-3 is ample.
     let g = grid_laea();
     let dir = tempfile::tempdir().unwrap();
-    let half = lonlat_polygon(dir.path(), &g, &[[-5000.0, -5000.0], [0.0, -5000.0], [0.0, 5000.0], [-5000.0, 5000.0]]);
-    let layer = sample("half", &spec(half, Sampling::AreaShare, None, None), &g, &SourceCache::new()).unwrap();
+    let half = lonlat_polygon(
+        dir.path(),
+        &g,
+        &[
+            [-5000.0, -5000.0],
+            [0.0, -5000.0],
+            [0.0, 5000.0],
+            [-5000.0, 5000.0],
+        ],
+    );
+    let layer = sample(
+        "half",
+        &spec(half, Sampling::AreaShare, None, None),
+        &g,
+        &SourceCache::new(),
+    )
+    .unwrap();
     for (id, v) in layer.values.iter().enumerate() {
         let want = if id == 55 { 0.5 } else { 0.0 };
         assert!((v - want).abs() < 1e-3, "cell {id}: {v}");
     }
-    let q = lonlat_polygon(dir.path(), &g, &[[0.0, 0.0], [10_000.0, 0.0], [10_000.0, 10_000.0], [0.0, 10_000.0]]);
-    let layer = sample("quarter", &spec(q, Sampling::AreaShare, None, None), &g, &SourceCache::new()).unwrap();
+    let q = lonlat_polygon(
+        dir.path(),
+        &g,
+        &[
+            [0.0, 0.0],
+            [10_000.0, 0.0],
+            [10_000.0, 10_000.0],
+            [0.0, 10_000.0],
+        ],
+    );
+    let layer = sample(
+        "quarter",
+        &spec(q, Sampling::AreaShare, None, None),
+        &g,
+        &SourceCache::new(),
+    )
+    .unwrap();
     for (id, v) in layer.values.iter().enumerate() {
-        let want = if [55, 56, 65, 66].contains(&id) { 0.25 } else { 0.0 };
+        let want = if [55, 56, 65, 66].contains(&id) {
+            0.25
+        } else {
+            0.0
+        };
         assert!((v - want).abs() < 1e-3, "cell {id}: {v}");
     }
 }
@@ -100,11 +170,19 @@ fn point_count_sum_mean_by_hand() {
     // Count: 3 and 1; sum: 12 and 10; mean: 4 and 10. Every other cell is empty.
     let g = grid_laea();
     let cache = SourceCache::new();
-    let run = |s: Sampling, f: Option<&str>| sample("p", &spec(data("points.geojson"), s, f, None), &g, &cache).unwrap();
+    let run = |s: Sampling, f: Option<&str>| {
+        sample("p", &spec(data("points.geojson"), s, f, None), &g, &cache).unwrap()
+    };
     let count = run(Sampling::PointCount, None);
     let sum = run(Sampling::PointSum, Some("catch"));
     let mean = run(Sampling::PointMean, Some("catch"));
-    for (id, ((c, s), m)) in count.values.iter().zip(&sum.values).zip(&mean.values).enumerate() {
+    for (id, ((c, s), m)) in count
+        .values
+        .iter()
+        .zip(&sum.values)
+        .zip(&mean.values)
+        .enumerate()
+    {
         let want = match id {
             55 => (3.0, 12.0, 4.0),
             56 => (1.0, 10.0, 10.0),
@@ -121,13 +199,21 @@ fn epsg3035_input_is_reprojected() {
     // EPSG Guidance Note 7-2 (IOGP), LAEA example for EPSG:3035: 50°N 5°E ↔ E 3 962 799.45 m,
     // N 2 999 718.85 m. Given in EPSG:3035, the point must land in the cell of (5°E, 50°N): 55.
     let g = grid_laea();
-    let s = spec(data("point_3035.geojson"), Sampling::PointCount, None, Some("EPSG:3035"));
+    let s = spec(
+        data("point_3035.geojson"),
+        Sampling::PointCount,
+        None,
+        Some("EPSG:3035"),
+    );
     let layer = sample("p", &s, &g, &SourceCache::new()).unwrap();
     assert_eq!(layer.values[55], 1.0);
     assert_eq!(layer.values.iter().sum::<f64>(), 1.0);
     // Read as lon/lat, the same file is out of range: the CRS matters.
     let bad = spec(data("point_3035.geojson"), Sampling::PointCount, None, None);
-    assert!(matches!(sample("p", &bad, &g, &SourceCache::new()), Err(LayerError::Geometry { .. })));
+    assert!(matches!(
+        sample("p", &bad, &g, &SourceCache::new()),
+        Err(LayerError::Geometry { .. })
+    ));
 }
 
 #[test]
@@ -137,11 +223,26 @@ fn bilinear_on_a_lattice_csv() {
     // Recipes, §3.6), so both are reproduced at every cell's lon/lat centroid.
     let g = grid_laea();
     let cache = SourceCache::new();
-    let a = sample("a", &spec(data("lattice.csv"), Sampling::Interpolate, Some("a"), None), &g, &cache).unwrap();
-    let b = sample("b", &spec(data("lattice.csv"), Sampling::Interpolate, Some("b"), None), &g, &cache).unwrap();
+    let a = sample(
+        "a",
+        &spec(data("lattice.csv"), Sampling::Interpolate, Some("a"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    let b = sample(
+        "b",
+        &spec(data("lattice.csv"), Sampling::Interpolate, Some("b"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
     for (id, cell) in g.cells.iter().enumerate() {
         let [lon, lat] = cell.lonlat;
-        assert!((a.values[id] - (1.0 + 2.0 * lon + 3.0 * lat)).abs() < 1e-9, "cell {id}");
+        assert!(
+            (a.values[id] - (1.0 + 2.0 * lon + 3.0 * lat)).abs() < 1e-9,
+            "cell {id}"
+        );
         assert!((b.values[id] - lon * lat).abs() < 1e-9, "cell {id}");
     }
     // The CSV was parsed once, its weights computed once, for both columns.
@@ -157,8 +258,13 @@ fn bilinear_product_case_at_set_centroids() {
     //   = 36.75 + 13.78125 + 111.375 + 41.765625 = 203.671875 (= 4.125 · 49.375).
     let mut g = grid_3035(1, 1);
     g.cells[0].lonlat = [4.125, 49.375];
-    let b = sample("b", &spec(data("lattice.csv"), Sampling::Interpolate, Some("b"), None), &g, &SourceCache::new())
-        .unwrap();
+    let b = sample(
+        "b",
+        &spec(data("lattice.csv"), Sampling::Interpolate, Some("b"), None),
+        &g,
+        &SourceCache::new(),
+    )
+    .unwrap();
     assert!((b.values[0] - 203.671875).abs() < 1e-12);
 }
 
@@ -172,15 +278,31 @@ fn nearest_on_an_irregular_csv() {
     // row 1: (500,1500) P3 412 → 3; (1500,1500) P3 985 (P2 1118) → 3; (2500,1500) P2 1360 → 2;
     //        (3500,1500) P2 2110 → 2; (4500,1500) P2 3007 > limit; (5500,1500) uncovered.
     let g = grid_3035(6, 2);
-    let mut s = spec(data("irregular_3035.csv"), Sampling::Interpolate, Some("depth"), Some("EPSG:3035"));
+    let mut s = spec(
+        data("irregular_3035.csv"),
+        Sampling::Interpolate,
+        Some("depth"),
+        Some("EPSG:3035"),
+    );
     let layer = sample("d", &s, &g, &SourceCache::new()).unwrap();
-    assert_eq!(layer.values, vec![1.0, 2.0, 2.0, 2.0, 0.0, 0.0, 3.0, 3.0, 2.0, 2.0, 0.0, 0.0]);
+    assert_eq!(
+        layer.values,
+        vec![1.0, 2.0, 2.0, 2.0, 0.0, 0.0, 3.0, 3.0, 2.0, 2.0, 0.0, 0.0]
+    );
     s.missing = Missing::Error;
     let e = sample("d", &s, &g, &SourceCache::new()).unwrap_err();
     match &e {
-        LayerError::Uncovered { count, total, examples, .. } => {
+        LayerError::Uncovered {
+            count,
+            total,
+            examples,
+            ..
+        } => {
             assert_eq!((*count, *total), (4, 12));
-            assert!(examples.starts_with("cell 4 (lon ") && examples.contains("cell 11"), "{examples}");
+            assert!(
+                examples.starts_with("cell 4 (lon ") && examples.contains("cell 11"),
+                "{examples}"
+            );
         }
         other => panic!("expected Uncovered, got {other:?}"),
     }
@@ -192,32 +314,68 @@ fn error_cases_name_file_and_place() {
     let g = grid_laea();
     let cache = SourceCache::new();
     // Missing file.
-    let e = sample("x", &spec(data("absent.geojson"), Sampling::AreaShare, None, None), &g, &cache).unwrap_err();
-    assert!(matches!(e, LayerError::Io { .. }) && e.to_string().contains("absent.geojson"), "{e}");
+    let e = sample(
+        "x",
+        &spec(data("absent.geojson"), Sampling::AreaShare, None, None),
+        &g,
+        &cache,
+    )
+    .unwrap_err();
+    assert!(
+        matches!(e, LayerError::Io { .. }) && e.to_string().contains("absent.geojson"),
+        "{e}"
+    );
     // Malformed GeoJSON: the missing comma on line 4 (serde's line/column).
-    let e = sample("x", &spec(data("malformed.geojson"), Sampling::AreaShare, None, None), &g, &cache).unwrap_err();
+    let e = sample(
+        "x",
+        &spec(data("malformed.geojson"), Sampling::AreaShare, None, None),
+        &g,
+        &cache,
+    )
+    .unwrap_err();
     match &e {
         LayerError::Json { line, .. } => assert_eq!(*line, 4, "{e}"),
         other => panic!("expected a JSON error, got {other:?}"),
     }
     assert!(e.to_string().contains("malformed.geojson"));
     // NaN in a CSV: line 4 (the header is line 1), column `sst`.
-    let e = sample("x", &spec(data("nan.csv"), Sampling::Interpolate, Some("sst"), None), &g, &cache).unwrap_err();
+    let e = sample(
+        "x",
+        &spec(data("nan.csv"), Sampling::Interpolate, Some("sst"), None),
+        &g,
+        &cache,
+    )
+    .unwrap_err();
     let msg = e.to_string();
-    assert!(msg.contains("nan.csv") && msg.contains("line 4") && msg.contains("`sst`"), "{msg}");
+    assert!(
+        msg.contains("nan.csv") && msg.contains("line 4") && msg.contains("`sst`"),
+        "{msg}"
+    );
     // Value outside valid_range: catch 10 in feature 3 exceeds [0, 8].
-    let mut s = spec(data("points.geojson"), Sampling::PointSum, Some("catch"), None);
+    let mut s = spec(
+        data("points.geojson"),
+        Sampling::PointSum,
+        Some("catch"),
+        None,
+    );
     s.valid_range = Some((0.0, 8.0));
     let e = sample("x", &s, &g, &cache).unwrap_err();
     match &e {
-        LayerError::OutOfRange { location, value, .. } => {
+        LayerError::OutOfRange {
+            location, value, ..
+        } => {
             assert_eq!(location, "feature 3");
             assert_eq!(*value, 10.0);
         }
         other => panic!("expected OutOfRange, got {other:?}"),
     }
     // A sampled value outside the range: sums 12 in cell 55 exceed [0, 11] though no point does.
-    let mut s = spec(data("points.geojson"), Sampling::PointSum, Some("catch"), None);
+    let mut s = spec(
+        data("points.geojson"),
+        Sampling::PointSum,
+        Some("catch"),
+        None,
+    );
     s.valid_range = Some((0.0, 11.0));
     let e = sample("x", &s, &g, &cache).unwrap_err().to_string();
     assert!(e.contains("cell 55") && e.contains("12"), "{e}");
@@ -225,19 +383,44 @@ fn error_cases_name_file_and_place() {
     let mut s = spec(data("points.geojson"), Sampling::PointCount, None, None);
     s.missing = Missing::Error;
     let e = sample("x", &s, &g, &cache).unwrap_err().to_string();
-    assert!(e.contains("98 of 100 cells") && e.contains("cell 0 (lon "), "{e}");
+    assert!(
+        e.contains("98 of 100 cells") && e.contains("cell 0 (lon "),
+        "{e}"
+    );
     // A field-based sampling without a field.
-    let e = sample("x", &spec(data("points.geojson"), Sampling::PointSum, None, None), &g, &cache).unwrap_err();
+    let e = sample(
+        "x",
+        &spec(data("points.geojson"), Sampling::PointSum, None, None),
+        &g,
+        &cache,
+    )
+    .unwrap_err();
     assert!(matches!(e, LayerError::Spec { .. }), "{e}");
     // Points sampled as polygons.
-    let e = sample("x", &spec(data("points.geojson"), Sampling::AreaShare, None, None), &g, &cache).unwrap_err();
-    assert!(e.to_string().contains("feature 0") && e.to_string().contains("Point"), "{e}");
+    let e = sample(
+        "x",
+        &spec(data("points.geojson"), Sampling::AreaShare, None, None),
+        &g,
+        &cache,
+    )
+    .unwrap_err();
+    assert!(
+        e.to_string().contains("feature 0") && e.to_string().contains("Point"),
+        "{e}"
+    );
 }
 
 /// Shoelace area of a ring, in squared input units (Gauss's area formula; hand-checkable).
 fn shoelace(ring: &[serde_json::Value]) -> f64 {
-    let pts: Vec<(f64, f64)> = ring.iter().map(|p| (p[0].as_f64().unwrap(), p[1].as_f64().unwrap())).collect();
-    pts.windows(2).map(|w| w[0].0 * w[1].1 - w[1].0 * w[0].1).sum::<f64>().abs() / 2.0
+    let pts: Vec<(f64, f64)> = ring
+        .iter()
+        .map(|p| (p[0].as_f64().unwrap(), p[1].as_f64().unwrap()))
+        .collect();
+    pts.windows(2)
+        .map(|w| w[0].0 * w[1].1 - w[1].0 * w[0].1)
+        .sum::<f64>()
+        .abs()
+        / 2.0
 }
 
 #[test]
@@ -267,7 +450,10 @@ fn independent_parse_of_the_region_fixture() {
     assert!((area - (3.25 + 0.375)).abs() < 1e-12, "hand total {area}");
     let mp = read_multipolygon(&data("region.geojson")).unwrap();
     assert_eq!(mp.0.len(), polys);
-    assert_eq!(mp.0.iter().map(|p| 1 + p.interiors().len()).sum::<usize>(), rings);
+    assert_eq!(
+        mp.0.iter().map(|p| 1 + p.interiors().len()).sum::<usize>(),
+        rings
+    );
     assert!((geo::Area::unsigned_area(&mp) - area).abs() < 1e-12);
     // Points fixture: four positions, catches summing to 22.
     let pts = read_points(&data("points.geojson"), Some("catch")).unwrap();

@@ -70,12 +70,24 @@ impl Lattice {
             return;
         }
         if area >= rect_area * (1.0 - FULL_TOLERANCE) {
-            out.push((span, Leaf { polygon, piece: Piece::Full }));
+            out.push((
+                span,
+                Leaf {
+                    polygon,
+                    piece: Piece::Full,
+                },
+            ));
             return;
         }
         let (w, h) = (span.c1 - span.c0, span.r1 - span.r0);
         if w == 1 && h == 1 {
-            out.push((span, Leaf { polygon, piece: Piece::Partial(piece) }));
+            out.push((
+                span,
+                Leaf {
+                    polygon,
+                    piece: Piece::Partial(piece),
+                },
+            ));
             return;
         }
         let (a, b) = if w >= h {
@@ -89,7 +101,10 @@ impl Lattice {
         let (pa, pb) = (clip(a), clip(b));
         // Halves are independent; recursion order (a then b) keeps the output deterministic.
         let (mut la, mut lb) = (Vec::new(), Vec::new());
-        rayon::join(|| self.cut(polygon, a, pa, &mut la), || self.cut(polygon, b, pb, &mut lb));
+        rayon::join(
+            || self.cut(polygon, a, pa, &mut la),
+            || self.cut(polygon, b, pb, &mut lb),
+        );
         out.append(&mut la);
         out.append(&mut lb);
     }
@@ -99,7 +114,10 @@ impl PolygonIndex {
     /// Cuts `polygons` (projected metres, the grid's CRS) into leaves on `grid`'s lattice.
     /// Parts outside the lattice are dropped.
     pub(crate) fn build(grid: &Grid, polygons: &[MultiPolygon<f64>]) -> PolygonIndex {
-        let lattice = Lattice { origin: grid.origin, size: grid.cell_size_m };
+        let lattice = Lattice {
+            origin: grid.origin,
+            size: grid.cell_size_m,
+        };
         let per_polygon: Vec<Vec<(Span, Leaf)>> = {
             use rayon::prelude::*;
             polygons
@@ -125,7 +143,10 @@ impl PolygonIndex {
             ));
             leaves.push(leaf);
         }
-        PolygonIndex { tree: RTree::bulk_load(boxes), leaves }
+        PolygonIndex {
+            tree: RTree::bulk_load(boxes),
+            leaves,
+        }
     }
 
     /// Leaves holding cell `id`, sorted by input polygon.
@@ -134,8 +155,11 @@ impl PolygonIndex {
         // The square's centre is never on a lattice line, so it lies strictly inside exactly
         // the leaves (at most one per polygon) that hold the whole square.
         let c = sq.center();
-        let mut found: Vec<&Leaf> =
-            self.tree.locate_all_at_point(&[c.x, c.y]).map(|g| &self.leaves[g.data as usize]).collect();
+        let mut found: Vec<&Leaf> = self
+            .tree
+            .locate_all_at_point(&[c.x, c.y])
+            .map(|g| &self.leaves[g.data as usize])
+            .collect();
         found.sort_by_key(|l| l.polygon);
         found
     }
@@ -213,7 +237,16 @@ mod tests {
 
     /// 4 × 4 cells of 1000 m in EPSG:3035 with the origin at (4 000 000, 3 000 000).
     fn grid() -> Grid {
-        Grid::full_rectangle(Crs { definition: "EPSG:3035".into() }, 1000.0, [4.0e6, 3.0e6], 4, 4).unwrap()
+        Grid::full_rectangle(
+            Crs {
+                definition: "EPSG:3035".into(),
+            },
+            1000.0,
+            [4.0e6, 3.0e6],
+            4,
+            4,
+        )
+        .unwrap()
     }
 
     /// A rectangle in cell units (column, row) from the origin, as projected metres.
@@ -286,7 +319,10 @@ mod tests {
         let index = PolygonIndex::build(&g, &[half.clone(), half]);
         assert!((index.share(&g, 0).unwrap() - 0.5).abs() < 1e-12);
         assert_eq!(index.covered_by_each(&g, 0).len(), 2);
-        let index = PolygonIndex::build(&g, &[mp(rect(0.0, 0.0, 0.5, 1.0)), mp(rect(0.0, 0.0, 1.0, 1.0))]);
+        let index = PolygonIndex::build(
+            &g,
+            &[mp(rect(0.0, 0.0, 0.5, 1.0)), mp(rect(0.0, 0.0, 1.0, 1.0))],
+        );
         assert_eq!(index.share(&g, 0), Some(1.0));
     }
 

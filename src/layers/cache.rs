@@ -20,7 +20,9 @@ pub struct SourceCache {
 
 impl std::fmt::Debug for SourceCache {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.debug_struct("SourceCache").field("entries", &self.len()).finish()
+        f.debug_struct("SourceCache")
+            .field("entries", &self.len())
+            .finish()
     }
 }
 
@@ -38,7 +40,10 @@ impl SourceCache {
 
     /// Number of entries built so far (a file parsed and the same file projected count twice).
     pub fn len(&self) -> usize {
-        lock(&self.slots).values().filter(|s| lock(s).is_some()).count()
+        lock(&self.slots)
+            .values()
+            .filter(|s| lock(s).is_some())
+            .count()
     }
 
     /// True when nothing has been cached yet.
@@ -47,14 +52,22 @@ impl SourceCache {
     }
 
     /// The entry for `(path, kind)`, built with `load` on first use.
-    pub(crate) fn get_or_load<T, F>(&self, path: &Path, kind: &str, load: F) -> Result<Arc<T>, LayerError>
+    pub(crate) fn get_or_load<T, F>(
+        &self,
+        path: &Path,
+        kind: &str,
+        load: F,
+    ) -> Result<Arc<T>, LayerError>
     where
         T: Any + Send + Sync,
         F: FnOnce() -> Result<T, LayerError>,
     {
         let slot = {
             let mut slots = lock(&self.slots);
-            slots.entry((path.to_path_buf(), kind.to_string())).or_default().clone()
+            slots
+                .entry((path.to_path_buf(), kind.to_string()))
+                .or_default()
+                .clone()
         };
         // Only this entry is locked while loading, so other files load in parallel.
         let mut guard = lock(&slot);
@@ -92,7 +105,9 @@ mod tests {
             }
         });
         assert_eq!(loads.load(Ordering::SeqCst), 1);
-        let other = cache.get_or_load(Path::new("a.csv"), "projected", || Ok(String::from("x"))).unwrap();
+        let other = cache
+            .get_or_load(Path::new("a.csv"), "projected", || Ok(String::from("x")))
+            .unwrap();
         assert_eq!(*other, "x");
         assert_eq!(cache.len(), 2);
     }
@@ -101,10 +116,16 @@ mod tests {
     fn failures_are_not_cached() {
         let cache = SourceCache::new();
         let r: Result<Arc<u8>, _> = cache.get_or_load(Path::new("b"), "k", || {
-            Err(LayerError::Spec { path: "b".into(), message: "bad".into() })
+            Err(LayerError::Spec {
+                path: "b".into(),
+                message: "bad".into(),
+            })
         });
         assert!(r.is_err());
         assert!(cache.is_empty());
-        assert_eq!(*cache.get_or_load(Path::new("b"), "k", || Ok(7u8)).unwrap(), 7);
+        assert_eq!(
+            *cache.get_or_load(Path::new("b"), "k", || Ok(7u8)).unwrap(),
+            7
+        );
     }
 }

@@ -51,9 +51,14 @@ fn parse_number(text: &str) -> Result<f64, String> {
 /// `longitude`,`latitude`; also `x`,`y` for a projected CRS), matched case-insensitively.
 /// Bad coordinates are errors at once; bad values are errors when their column is used.
 pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerError> {
-    let io = |source: std::io::Error| LayerError::Io { path: path.to_path_buf(), source };
+    let io = |source: std::io::Error| LayerError::Io {
+        path: path.to_path_buf(),
+        source,
+    };
     let file = std::fs::File::open(path).map_err(io)?;
-    let mut reader = ::csv::ReaderBuilder::new().trim(::csv::Trim::All).from_reader(file);
+    let mut reader = ::csv::ReaderBuilder::new()
+        .trim(::csv::Trim::All)
+        .from_reader(file);
     let csv_err = |e: ::csv::Error| {
         let line = e.position().map_or(0, |p| p.line());
         match e.into_kind() {
@@ -66,7 +71,12 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
             },
         }
     };
-    let header: Vec<String> = reader.headers().map_err(csv_err)?.iter().map(str::to_string).collect();
+    let header: Vec<String> = reader
+        .headers()
+        .map_err(csv_err)?
+        .iter()
+        .map(str::to_string)
+        .collect();
     let lower: Vec<String> = header.iter().map(|h| h.to_lowercase()).collect();
     let find = |name: &str| lower.iter().position(|h| h == name);
     let names = coordinate_names(coords);
@@ -74,13 +84,20 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
         let wanted: Vec<String> = names.iter().map(|(a, b)| format!("`{a},{b}`")).collect();
         return Err(LayerError::CsvHeader {
             path: path.to_path_buf(),
-            message: format!("found columns {header:?}; expected coordinate columns {}", wanted.join(" or ")),
+            message: format!(
+                "found columns {header:?}; expected coordinate columns {}",
+                wanted.join(" or ")
+            ),
         });
     };
     let value_idx: Vec<usize> = (0..header.len()).filter(|&i| i != ix && i != iy).collect();
     let mut columns: Vec<Column> = value_idx
         .iter()
-        .map(|&i| Column { name: header[i].clone(), values: Vec::new(), first_bad: None })
+        .map(|&i| Column {
+            name: header[i].clone(),
+            values: Vec::new(),
+            first_bad: None,
+        })
         .collect();
     let (mut xs, mut ys, mut lines) = (Vec::new(), Vec::new(), Vec::new());
     for record in reader.records() {
@@ -95,7 +112,9 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
             })
         };
         let (x, y) = (coord(ix)?, coord(iy)?);
-        if coords == Coords::LonLat && !((-180.0..=360.0).contains(&x) && (-90.0..=90.0).contains(&y)) {
+        if coords == Coords::LonLat
+            && !((-180.0..=360.0).contains(&x) && (-90.0..=90.0).contains(&y))
+        {
             return Err(LayerError::Csv {
                 path: path.to_path_buf(),
                 line,
@@ -120,9 +139,18 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
         }
     }
     if xs.is_empty() {
-        return Err(LayerError::Spec { path: path.to_path_buf(), message: "no data rows (expected a header and at least one row)".into() });
+        return Err(LayerError::Spec {
+            path: path.to_path_buf(),
+            message: "no data rows (expected a header and at least one row)".into(),
+        });
     }
-    Ok(CsvTable { path: path.to_path_buf(), xs, ys, lines, columns })
+    Ok(CsvTable {
+        path: path.to_path_buf(),
+        xs,
+        ys,
+        lines,
+        columns,
+    })
 }
 
 impl CsvTable {
@@ -130,7 +158,11 @@ impl CsvTable {
     /// column is absent or any entry of it is unparsable, NaN or infinite.
     pub(crate) fn column(&self, name: &str) -> Result<&[f64], LayerError> {
         let wanted = name.to_lowercase();
-        let Some(col) = self.columns.iter().find(|c| c.name.to_lowercase() == wanted) else {
+        let Some(col) = self
+            .columns
+            .iter()
+            .find(|c| c.name.to_lowercase() == wanted)
+        else {
             let names: Vec<&str> = self.columns.iter().map(|c| c.name.as_str()).collect();
             return Err(LayerError::CsvHeader {
                 path: self.path.clone(),
@@ -177,26 +209,41 @@ mod tests {
         let t = parse_file(f.path(), Coords::LonLat).unwrap();
         assert_eq!(t.column("b").unwrap(), &[2.0, 3.0, 4.0]);
         let e = t.column("a").unwrap_err().to_string();
-        assert!(e.contains("line 3") && e.contains("`a`") && e.contains("NaN"), "{e}");
+        assert!(
+            e.contains("line 3") && e.contains("`a`") && e.contains("NaN"),
+            "{e}"
+        );
     }
 
     #[test]
     fn header_and_coordinate_errors() {
         let f = write("x,y,v\n0,0,1\n");
-        let e = parse_file(f.path(), Coords::LonLat).unwrap_err().to_string();
+        let e = parse_file(f.path(), Coords::LonLat)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("line 1") && e.contains("`lon,lat`"), "{e}");
         // x/y are accepted when the file has a projected CRS.
         assert!(parse_file(f.path(), Coords::Projected).is_ok());
         let f = write("longitude,latitude,v\n0,95,1\n");
-        let e = parse_file(f.path(), Coords::LonLat).unwrap_err().to_string();
+        let e = parse_file(f.path(), Coords::LonLat)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("line 2") && e.contains("lat"), "{e}");
         let f = write("lon,lat,v\n0,1,1\n0,2\n");
-        let e = parse_file(f.path(), Coords::LonLat).unwrap_err().to_string();
+        let e = parse_file(f.path(), Coords::LonLat)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("line 3"), "{e}");
         let f = write("lon,lat,v\n0,inf,1\n");
-        let e = parse_file(f.path(), Coords::LonLat).unwrap_err().to_string();
+        let e = parse_file(f.path(), Coords::LonLat)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("line 2") && e.contains("finite"), "{e}");
         let t = parse_file(write("lon,lat,v\n0,1,1\n").path(), Coords::LonLat).unwrap();
-        assert!(t.column("w").unwrap_err().to_string().contains("no column `w`"));
+        assert!(t
+            .column("w")
+            .unwrap_err()
+            .to_string()
+            .contains("no column `w`"));
     }
 }

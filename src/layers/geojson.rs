@@ -28,8 +28,10 @@ pub(crate) struct GeoFile {
 
 /// Reads and parses a GeoJSON file. Malformed JSON reports serde's line and column.
 pub(crate) fn parse_file(path: &Path) -> Result<GeoFile, LayerError> {
-    let text = std::fs::read_to_string(path)
-        .map_err(|source| LayerError::Io { path: path.to_path_buf(), source })?;
+    let text = std::fs::read_to_string(path).map_err(|source| LayerError::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
     let parsed: GeoJson = serde_json::from_str(&text).map_err(|e| LayerError::Json {
         path: path.to_path_buf(),
         line: e.line(),
@@ -53,10 +55,17 @@ pub(crate) fn parse_file(path: &Path) -> Result<GeoFile, LayerError> {
             properties: f.properties.unwrap_or_default(),
         }],
         GeoJson::Geometry(g) => {
-            vec![RawFeature { index: 0, geometry: Some(g.value), properties: JsonObject::new() }]
+            vec![RawFeature {
+                index: 0,
+                geometry: Some(g.value),
+                properties: JsonObject::new(),
+            }]
         }
     };
-    Ok(GeoFile { path: path.to_path_buf(), features })
+    Ok(GeoFile {
+        path: path.to_path_buf(),
+        features,
+    })
 }
 
 /// How coordinates are checked: WGS84 lon/lat ranges, or only finiteness for a projected CRS.
@@ -70,10 +79,19 @@ pub(crate) enum Coords {
 
 impl GeoFile {
     fn geometry_error(&self, feature: usize, message: String) -> LayerError {
-        LayerError::Geometry { path: self.path.clone(), feature, message }
+        LayerError::Geometry {
+            path: self.path.clone(),
+            feature,
+            message,
+        }
     }
 
-    fn coord(&self, feature: usize, p: &Position, coords: Coords) -> Result<Coord<f64>, LayerError> {
+    fn coord(
+        &self,
+        feature: usize,
+        p: &Position,
+        coords: Coords,
+    ) -> Result<Coord<f64>, LayerError> {
         let s = p.as_slice();
         if s.len() < 2 {
             return Err(self.geometry_error(
@@ -88,7 +106,9 @@ impl GeoFile {
                 format!("position [{x}, {y}] is not finite (expected finite numbers)"),
             ));
         }
-        if coords == Coords::LonLat && !((-180.0..=180.0).contains(&x) && (-90.0..=90.0).contains(&y)) {
+        if coords == Coords::LonLat
+            && !((-180.0..=180.0).contains(&x) && (-90.0..=90.0).contains(&y))
+        {
             return Err(self.geometry_error(
                 feature,
                 format!(
@@ -100,30 +120,52 @@ impl GeoFile {
         Ok(Coord { x, y })
     }
 
-    fn ring(&self, feature: usize, ring: &[Position], coords: Coords) -> Result<LineString<f64>, LayerError> {
-        let pts = ring.iter().map(|p| self.coord(feature, p, coords)).collect::<Result<Vec<_>, _>>()?;
+    fn ring(
+        &self,
+        feature: usize,
+        ring: &[Position],
+        coords: Coords,
+    ) -> Result<LineString<f64>, LayerError> {
+        let pts = ring
+            .iter()
+            .map(|p| self.coord(feature, p, coords))
+            .collect::<Result<Vec<_>, _>>()?;
         if pts.len() < 4 {
             return Err(self.geometry_error(
                 feature,
-                format!("a polygon ring has {} positions (expected at least 4, first = last)", pts.len()),
+                format!(
+                    "a polygon ring has {} positions (expected at least 4, first = last)",
+                    pts.len()
+                ),
             ));
         }
         if pts.first() != pts.last() {
             return Err(self.geometry_error(
                 feature,
-                "a polygon ring is not closed (expected its last position to repeat the first)".into(),
+                "a polygon ring is not closed (expected its last position to repeat the first)"
+                    .into(),
             ));
         }
         Ok(LineString(pts))
     }
 
-    fn polygon(&self, feature: usize, rings: &[Vec<Position>], coords: Coords) -> Result<Polygon<f64>, LayerError> {
+    fn polygon(
+        &self,
+        feature: usize,
+        rings: &[Vec<Position>],
+        coords: Coords,
+    ) -> Result<Polygon<f64>, LayerError> {
         let mut it = rings.iter();
         let Some(exterior) = it.next() else {
-            return Err(self.geometry_error(feature, "a polygon has no rings (expected an exterior ring)".into()));
+            return Err(self.geometry_error(
+                feature,
+                "a polygon has no rings (expected an exterior ring)".into(),
+            ));
         };
         let exterior = self.ring(feature, exterior, coords)?;
-        let interiors = it.map(|r| self.ring(feature, r, coords)).collect::<Result<Vec<_>, _>>()?;
+        let interiors = it
+            .map(|r| self.ring(feature, r, coords))
+            .collect::<Result<Vec<_>, _>>()?;
         Ok(Polygon::new(exterior, interiors))
     }
 
@@ -135,7 +177,9 @@ impl GeoFile {
         out: &mut Vec<Polygon<f64>>,
     ) -> Result<(), LayerError> {
         match g {
-            GeometryValue::Polygon { coordinates } => out.push(self.polygon(feature, coordinates, coords)?),
+            GeometryValue::Polygon { coordinates } => {
+                out.push(self.polygon(feature, coordinates, coords)?)
+            }
             GeometryValue::MultiPolygon { coordinates } => {
                 for p in coordinates {
                     out.push(self.polygon(feature, p, coords)?);
@@ -149,7 +193,10 @@ impl GeoFile {
             other => {
                 return Err(self.geometry_error(
                     feature,
-                    format!("geometry is a {} (expected Polygon or MultiPolygon)", other.type_name()),
+                    format!(
+                        "geometry is a {} (expected Polygon or MultiPolygon)",
+                        other.type_name()
+                    ),
                 ))
             }
         }
@@ -157,11 +204,17 @@ impl GeoFile {
     }
 
     /// Every feature's polygons, as `(feature index, polygons)`. Any other geometry is an error.
-    pub(crate) fn polygons(&self, coords: Coords) -> Result<Vec<(usize, MultiPolygon<f64>)>, LayerError> {
+    pub(crate) fn polygons(
+        &self,
+        coords: Coords,
+    ) -> Result<Vec<(usize, MultiPolygon<f64>)>, LayerError> {
         let mut out = Vec::with_capacity(self.features.len());
         for f in &self.features {
             let Some(g) = &f.geometry else {
-                return Err(self.geometry_error(f.index, "geometry is null (expected Polygon or MultiPolygon)".into()));
+                return Err(self.geometry_error(
+                    f.index,
+                    "geometry is null (expected Polygon or MultiPolygon)".into(),
+                ));
             };
             let mut polys = Vec::new();
             self.collect_polygons(f.index, g, coords, &mut polys)?;
@@ -188,11 +241,17 @@ impl GeoFile {
                 Some(other) => {
                     return Err(self.geometry_error(
                         f.index,
-                        format!("geometry is a {} (expected Point or MultiPoint)", other.type_name()),
+                        format!(
+                            "geometry is a {} (expected Point or MultiPoint)",
+                            other.type_name()
+                        ),
                     ))
                 }
                 None => {
-                    return Err(self.geometry_error(f.index, "geometry is null (expected Point or MultiPoint)".into()))
+                    return Err(self.geometry_error(
+                        f.index,
+                        "geometry is null (expected Point or MultiPoint)".into(),
+                    ))
                 }
             }
         }
@@ -200,10 +259,16 @@ impl GeoFile {
     }
 
     /// Every line, as `(feature index, line)`. Any geometry but LineString/MultiLineString is an error.
-    pub(crate) fn lines(&self, coords: Coords) -> Result<Vec<(usize, LineString<f64>)>, LayerError> {
+    pub(crate) fn lines(
+        &self,
+        coords: Coords,
+    ) -> Result<Vec<(usize, LineString<f64>)>, LayerError> {
         let mut out = Vec::new();
         let line = |index: usize, ps: &[Position]| -> Result<LineString<f64>, LayerError> {
-            let pts = ps.iter().map(|p| self.coord(index, p, coords)).collect::<Result<Vec<_>, _>>()?;
+            let pts = ps
+                .iter()
+                .map(|p| self.coord(index, p, coords))
+                .collect::<Result<Vec<_>, _>>()?;
             if pts.len() < 2 {
                 return Err(self.geometry_error(
                     index,
@@ -214,7 +279,9 @@ impl GeoFile {
         };
         for f in &self.features {
             match &f.geometry {
-                Some(GeometryValue::LineString { coordinates }) => out.push((f.index, line(f.index, coordinates)?)),
+                Some(GeometryValue::LineString { coordinates }) => {
+                    out.push((f.index, line(f.index, coordinates)?))
+                }
                 Some(GeometryValue::MultiLineString { coordinates }) => {
                     for l in coordinates {
                         out.push((f.index, line(f.index, l)?));
@@ -223,7 +290,10 @@ impl GeoFile {
                 Some(other) => {
                     return Err(self.geometry_error(
                         f.index,
-                        format!("geometry is a {} (expected LineString or MultiLineString)", other.type_name()),
+                        format!(
+                            "geometry is a {} (expected LineString or MultiLineString)",
+                            other.type_name()
+                        ),
                     ))
                 }
                 None => {
@@ -250,14 +320,18 @@ impl GeoFile {
         match props.get(field) {
             None => {
                 let names: Vec<&str> = props.keys().map(String::as_str).collect();
-                Err(err(format!("absent (expected a numeric property; this feature has {names:?})")))
+                Err(err(format!(
+                    "absent (expected a numeric property; this feature has {names:?})"
+                )))
             }
             Some(serde_json::Value::Null) => Ok(None),
             Some(serde_json::Value::Number(n)) => match n.as_f64() {
                 Some(v) if v.is_finite() => Ok(Some(v)),
                 _ => Err(err(format!("{n} is not a finite number"))),
             },
-            Some(other) => Err(err(format!("{other} is not a number (expected e.g. `\"{field}\": 0.5`)"))),
+            Some(other) => Err(err(format!(
+                "{other} is not a number (expected e.g. `\"{field}\": 0.5`)"
+            ))),
         }
     }
 }
@@ -272,7 +346,9 @@ impl GeoFile {
 pub fn read_multipolygon(path: &Path) -> Result<MultiPolygon<f64>, LayerError> {
     let file = parse_file(path)?;
     let polys = file.polygons(Coords::LonLat)?;
-    Ok(MultiPolygon(polys.into_iter().flat_map(|(_, mp)| mp.0).collect()))
+    Ok(MultiPolygon(
+        polys.into_iter().flat_map(|(_, mp)| mp.0).collect(),
+    ))
 }
 
 /// Every Point / MultiPoint of a GeoJSON file as `([lon, lat], value)` in WGS84 degrees. The value
@@ -298,7 +374,11 @@ pub fn read_points(path: &Path, field: Option<&str>) -> Result<Vec<([f64; 2], f6
 /// Every LineString / MultiLineString of a GeoJSON file, WGS84 lon/lat degrees.
 pub fn read_lines(path: &Path) -> Result<Vec<LineString<f64>>, LayerError> {
     let file = parse_file(path)?;
-    Ok(file.lines(Coords::LonLat)?.into_iter().map(|(_, l)| l).collect())
+    Ok(file
+        .lines(Coords::LonLat)?
+        .into_iter()
+        .map(|(_, l)| l)
+        .collect())
 }
 
 #[cfg(test)]
@@ -307,7 +387,10 @@ mod tests {
     use std::io::Write;
 
     fn write(text: &str) -> tempfile::NamedTempFile {
-        let mut f = tempfile::Builder::new().suffix(".geojson").tempfile().unwrap();
+        let mut f = tempfile::Builder::new()
+            .suffix(".geojson")
+            .tempfile()
+            .unwrap();
         f.write_all(text.as_bytes()).unwrap();
         f
     }
@@ -317,7 +400,10 @@ mod tests {
     }
 
     fn collection(features: &[String]) -> String {
-        format!(r#"{{"type":"FeatureCollection","features":[{}]}}"#, features.join(","))
+        format!(
+            r#"{{"type":"FeatureCollection","features":[{}]}}"#,
+            features.join(",")
+        )
     }
 
     const SQUARE: &str = r#"{"type":"Polygon","coordinates":[[[0,0],[1,0],[1,1],[0,1],[0,0]]]}"#;
@@ -340,18 +426,30 @@ mod tests {
         let point = r#"{"type":"Point","coordinates":[1,2]}"#;
         let f = write(&collection(&[feature(SQUARE, "{}"), feature(point, "{}")]));
         let e = read_multipolygon(f.path()).unwrap_err().to_string();
-        assert!(e.contains("feature 1") && e.contains("Point") && e.contains("expected Polygon"), "{e}");
+        assert!(
+            e.contains("feature 1") && e.contains("Point") && e.contains("expected Polygon"),
+            "{e}"
+        );
         let open = r#"{"type":"Polygon","coordinates":[[[0,0],[1,0],[1,1],[0,1]]]}"#;
-        let e = read_multipolygon(write(open).path()).unwrap_err().to_string();
+        let e = read_multipolygon(write(open).path())
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("not closed"), "{e}");
         let short = r#"{"type":"Polygon","coordinates":[[[0,0],[1,0],[0,0]]]}"#;
-        let e = read_multipolygon(write(short).path()).unwrap_err().to_string();
+        let e = read_multipolygon(write(short).path())
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("3 positions") && e.contains("at least 4"), "{e}");
         let far = r#"{"type":"Polygon","coordinates":[[[0,0],[181,0],[1,1],[0,0]]]}"#;
-        let e = read_multipolygon(write(far).path()).unwrap_err().to_string();
+        let e = read_multipolygon(write(far).path())
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("181") && e.contains("−180..180"), "{e}");
         let huge = r#"{"type":"Polygon","coordinates":[[[0,0],[1e999,0],[1,1],[0,0]]]}"#;
-        assert!(matches!(read_multipolygon(write(huge).path()), Err(LayerError::Json { .. })));
+        assert!(matches!(
+            read_multipolygon(write(huge).path()),
+            Err(LayerError::Json { .. })
+        ));
     }
 
     #[test]
@@ -375,16 +473,25 @@ mod tests {
             feature(p1, r#"{"n": null}"#),
         ]));
         let pts = read_points(f.path(), Some("n")).unwrap();
-        assert_eq!(pts, vec![([1.0, 2.0], 2.5), ([3.0, 4.0], 4.0), ([5.0, 6.0], 4.0)]);
+        assert_eq!(
+            pts,
+            vec![([1.0, 2.0], 2.5), ([3.0, 4.0], 4.0), ([5.0, 6.0], 4.0)]
+        );
         assert_eq!(read_points(f.path(), None).unwrap().len(), 4);
         let e = read_points(f.path(), Some("m")).unwrap_err().to_string();
-        assert!(e.contains("feature 0") && e.contains("`m`") && e.contains("absent"), "{e}");
+        assert!(
+            e.contains("feature 0") && e.contains("`m`") && e.contains("absent"),
+            "{e}"
+        );
         let s = write(&collection(&[feature(p1, r#"{"n": "lots"}"#)]));
         let e = read_points(s.path(), Some("n")).unwrap_err().to_string();
         assert!(e.contains("not a number"), "{e}");
         let l = r#"{"type":"MultiLineString","coordinates":[[[0,0],[1,1]],[[2,2],[3,3],[4,4]]]}"#;
         let lines = read_lines(write(l).path()).unwrap();
-        assert_eq!(lines.iter().map(|l| l.0.len()).collect::<Vec<_>>(), vec![2, 3]);
+        assert_eq!(
+            lines.iter().map(|l| l.0.len()).collect::<Vec<_>>(),
+            vec![2, 3]
+        );
         assert!(read_lines(write(SQUARE).path()).is_err());
     }
 }

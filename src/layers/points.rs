@@ -70,7 +70,9 @@ fn regular_axis(values: &[f64]) -> Option<(f64, f64, usize)> {
     }
     let n = lines.len();
     let step = range / (n - 1) as f64;
-    let regular = lines.windows(2).all(|w| ((w[1] - w[0]) - step).abs() <= REGULAR_TOLERANCE * step);
+    let regular = lines
+        .windows(2)
+        .all(|w| ((w[1] - w[0]) - step).abs() <= REGULAR_TOLERANCE * step);
     regular.then_some((first, step, n))
 }
 
@@ -97,7 +99,15 @@ impl RegularLattice {
             }
             *slot = k as u32;
         }
-        Some(RegularLattice { x0, dx, nx, y0, dy, ny, rows })
+        Some(RegularLattice {
+            x0,
+            dx,
+            nx,
+            y0,
+            dy,
+            ny,
+            rows,
+        })
     }
 
     /// Bilinear weights at `(x, y)` in the lattice's coordinates; `Outside` beyond its extent.
@@ -115,8 +125,10 @@ impl RegularLattice {
             let i = (f.floor() as usize).min(n - 2);
             Some((i, f - i as f64))
         };
-        let (Some((i, t)), Some((j, u))) = (locate(x, self.x0, self.dx, self.nx), locate(y, self.y0, self.dy, self.ny))
-        else {
+        let (Some((i, t)), Some((j, u))) = (
+            locate(x, self.x0, self.dx, self.nx),
+            locate(y, self.y0, self.dy, self.ny),
+        ) else {
             return Weights::Outside;
         };
         let at = |i: usize, j: usize| self.rows[j * self.nx + i];
@@ -135,11 +147,25 @@ impl RegularLattice {
 
 /// Nearest-point weights for each query, all in one projected CRS (metres). Returns the
 /// weights and the distance limit used: `max(NEAREST_MAX_SPACINGS × median spacing, min_limit)`.
-pub(crate) fn nearest(points: &[[f64; 2]], queries: &[[f64; 2]], min_limit: f64) -> (Vec<Weights>, f64) {
-    let tree = RTree::bulk_load(points.iter().enumerate().map(|(k, p)| GeomWithData::new(*p, k as u32)).collect());
+pub(crate) fn nearest(
+    points: &[[f64; 2]],
+    queries: &[[f64; 2]],
+    min_limit: f64,
+) -> (Vec<Weights>, f64) {
+    let tree = RTree::bulk_load(
+        points
+            .iter()
+            .enumerate()
+            .map(|(k, p)| GeomWithData::new(*p, k as u32))
+            .collect(),
+    );
     let mut spacing: Vec<f64> = points
         .iter()
-        .filter_map(|p| tree.nearest_neighbor_iter_with_distance_2(p).nth(1).map(|(_, d2)| d2.sqrt()))
+        .filter_map(|p| {
+            tree.nearest_neighbor_iter_with_distance_2(p)
+                .nth(1)
+                .map(|(_, d2)| d2.sqrt())
+        })
         .collect();
     spacing.sort_by(f64::total_cmp);
     let median = spacing.get(spacing.len() / 2).copied().unwrap_or(0.0);
@@ -147,10 +173,12 @@ pub(crate) fn nearest(points: &[[f64; 2]], queries: &[[f64; 2]], min_limit: f64)
     let limit2 = limit * limit;
     let weights = queries
         .iter()
-        .map(|q| match tree.nearest_neighbor_iter_with_distance_2(q).next() {
-            Some((g, d2)) if d2 <= limit2 => Weights::One(g.data),
-            _ => Weights::Outside,
-        })
+        .map(
+            |q| match tree.nearest_neighbor_iter_with_distance_2(q).next() {
+                Some((g, d2)) if d2 <= limit2 => Weights::One(g.data),
+                _ => Weights::Outside,
+            },
+        )
         .collect();
     (weights, limit)
 }
@@ -180,9 +208,19 @@ mod tests {
         let f = |x: f64, y: f64| 3.0 - 0.7 * x + 2.5 * y;
         let v: Vec<f64> = xs.iter().zip(&ys).map(|(&x, &y)| f(x, y)).collect();
         let lat = RegularLattice::detect(&xs, &ys).expect("a complete regular lattice");
-        for &(x, y) in &[(10.0, 50.0), (10.3, 50.2), (12.99, 51.7), (13.0, 52.0), (11.5, 51.25)] {
+        for &(x, y) in &[
+            (10.0, 50.0),
+            (10.3, 50.2),
+            (12.99, 51.7),
+            (13.0, 52.0),
+            (11.5, 51.25),
+        ] {
             let got = lat.weights_at(x, y).apply(&v).unwrap();
-            assert!((got - f(x, y)).abs() < 1e-12, "({x}, {y}): {got} vs {}", f(x, y));
+            assert!(
+                (got - f(x, y)).abs() < 1e-12,
+                "({x}, {y}): {got} vs {}",
+                f(x, y)
+            );
         }
         assert_eq!(lat.weights_at(9.99, 51.0), Weights::Outside);
         assert_eq!(lat.weights_at(11.0, 52.01), Weights::Outside);
@@ -207,13 +245,22 @@ mod tests {
         let (mut xs, mut ys) = lattice_points();
         xs.pop();
         ys.pop();
-        assert!(RegularLattice::detect(&xs, &ys).is_none(), "one point missing");
+        assert!(
+            RegularLattice::detect(&xs, &ys).is_none(),
+            "one point missing"
+        );
         let xs = [0.0, 1.0, 3.0, 0.0, 1.0, 3.0];
         let ys = [0.0, 0.0, 0.0, 1.0, 1.0, 1.0];
-        assert!(RegularLattice::detect(&xs, &ys).is_none(), "unequal lon spacing");
+        assert!(
+            RegularLattice::detect(&xs, &ys).is_none(),
+            "unequal lon spacing"
+        );
         let xs = [0.0, 1.0, 0.0, 0.0];
         let ys = [0.0, 0.0, 1.0, 1.0];
-        assert!(RegularLattice::detect(&xs, &ys).is_none(), "duplicate point");
+        assert!(
+            RegularLattice::detect(&xs, &ys).is_none(),
+            "duplicate point"
+        );
         // Printed coordinates with a little rounding are still regular (0.333… printed as 0.3333).
         let xs = [0.0, 0.3333, 0.6667, 1.0, 0.0, 0.3333, 0.6667, 1.0];
         let ys = [0.0, 0.0, 0.0, 0.0, 1.0, 1.0, 1.0, 1.0];
@@ -227,10 +274,25 @@ mod tests {
         // Query (4,1): A at √17 ≈ 4.12 → A. (6,0): B at 4 → B. (0,14): A at 14, C at 11 → C.
         // (30,0): B at 20 → B (on the limit). (0,60): C at 35 > 20 → outside.
         let pts = [[0.0, 0.0], [10.0, 0.0], [0.0, 25.0]];
-        let q = [[4.0, 1.0], [6.0, 0.0], [0.0, 14.0], [30.0, 0.0], [0.0, 60.0]];
+        let q = [
+            [4.0, 1.0],
+            [6.0, 0.0],
+            [0.0, 14.0],
+            [30.0, 0.0],
+            [0.0, 60.0],
+        ];
         let (w, limit) = nearest(&pts, &q, 1.0);
         assert_eq!(limit, 20.0);
-        assert_eq!(w, vec![Weights::One(0), Weights::One(1), Weights::One(2), Weights::One(1), Weights::Outside]);
+        assert_eq!(
+            w,
+            vec![
+                Weights::One(0),
+                Weights::One(1),
+                Weights::One(2),
+                Weights::One(1),
+                Weights::Outside
+            ]
+        );
         // A single point has no spacing: the floor (one cell side) is the limit.
         let (w, limit) = nearest(&[[0.0, 0.0]], &[[3.0, 4.0], [30.0, 40.0]], 5.0);
         assert_eq!(limit, 5.0);

@@ -21,11 +21,18 @@ const EXAMPLES: usize = 5;
 /// CSV lattices are interpolated in their own coordinates. Values outside `spec.valid_range` —
 /// in the file or after sampling — are errors; uncovered cells follow `spec.missing`.
 /// Parsed files are taken from / put into `cache`.
-pub fn sample(name: &str, spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Layer, LayerError> {
+pub fn sample(
+    name: &str,
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Layer, LayerError> {
     let values = match spec.sampling {
         Sampling::AreaShare => area_share(spec, grid, cache)?,
         Sampling::AreaMean => area_mean(spec, grid, cache)?,
-        Sampling::PointCount | Sampling::PointSum | Sampling::PointMean => points(spec, grid, cache)?,
+        Sampling::PointCount | Sampling::PointSum | Sampling::PointMean => {
+            points(spec, grid, cache)?
+        }
         Sampling::Interpolate => interpolate(spec, grid, cache)?,
     };
     if let Some((min, max)) = spec.valid_range {
@@ -43,9 +50,18 @@ pub fn sample(name: &str, spec: &LayerSpec, grid: &Grid, cache: &SourceCache) ->
             }
         }
     }
-    let uncovered: Vec<usize> = values.iter().enumerate().filter(|(_, v)| v.is_none()).map(|(i, _)| i).collect();
+    let uncovered: Vec<usize> = values
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.is_none())
+        .map(|(i, _)| i)
+        .collect();
     if spec.missing == Missing::Error && !uncovered.is_empty() {
-        let examples: Vec<String> = uncovered.iter().take(EXAMPLES).map(|&id| describe_cell(grid, id)).collect();
+        let examples: Vec<String> = uncovered
+            .iter()
+            .take(EXAMPLES)
+            .map(|&id| describe_cell(grid, id))
+            .collect();
         return Err(LayerError::Uncovered {
             path: spec.path.clone(),
             sampling: spec.sampling.name(),
@@ -54,7 +70,10 @@ pub fn sample(name: &str, spec: &LayerSpec, grid: &Grid, cache: &SourceCache) ->
             examples: examples.join(", "),
         });
     }
-    Ok(Layer { name: name.to_string(), values: values.into_iter().map(|v| v.unwrap_or(0.0)).collect() })
+    Ok(Layer {
+        name: name.to_string(),
+        values: values.into_iter().map(|v| v.unwrap_or(0.0)).collect(),
+    })
 }
 
 fn describe_cell(grid: &Grid, id: usize) -> String {
@@ -80,7 +99,11 @@ fn field(spec: &LayerSpec) -> Result<&str, LayerError> {
     })
 }
 
-fn check_range(spec: &LayerSpec, location: impl FnOnce() -> String, value: f64) -> Result<(), LayerError> {
+fn check_range(
+    spec: &LayerSpec,
+    location: impl FnOnce() -> String,
+    value: f64,
+) -> Result<(), LayerError> {
     match spec.valid_range {
         Some((min, max)) if !(min..=max).contains(&value) => Err(LayerError::OutOfRange {
             path: spec.path.clone(),
@@ -121,22 +144,43 @@ struct ToGrid<'a> {
 
 impl<'a> ToGrid<'a> {
     fn new(spec: &'a LayerSpec, grid: &Grid) -> Result<ToGrid<'a>, LayerError> {
-        let err = |source| LayerError::Projection { path: spec.path.clone(), source };
+        let err = |source| LayerError::Projection {
+            path: spec.path.clone(),
+            source,
+        };
         let same = spec.crs.as_deref() == Some(grid.crs.definition.as_str());
         let source = match (&spec.crs, same) {
-            (Some(def), false) => Some(Projector::new(&Crs { definition: def.clone() }).map_err(err)?),
+            (Some(def), false) => Some(
+                Projector::new(&Crs {
+                    definition: def.clone(),
+                })
+                .map_err(err)?,
+            ),
             _ => None,
         };
-        let grid_proj = if same { None } else { Some(Projector::new(&grid.crs).map_err(err)?) };
+        let grid_proj = if same {
+            None
+        } else {
+            Some(Projector::new(&grid.crs).map_err(err)?)
+        };
         // Half a cell keeps the curvature of long edges well below a cell's size; 1e-5° ≈ 1 m
         // floors it for tiny test cells.
         let step_m = grid.cell_size_m / 2.0;
         let step_deg = (grid.cell_size_m / 2.0 / 111_320.0).clamp(1e-5, 0.25);
-        Ok(ToGrid { path: &spec.path, grid: grid_proj, source, step_m, step_deg })
+        Ok(ToGrid {
+            path: &spec.path,
+            grid: grid_proj,
+            source,
+            step_m,
+            step_deg,
+        })
     }
 
     fn err(&self, source: crate::grid::GridError) -> LayerError {
-        LayerError::Projection { path: self.path.to_path_buf(), source }
+        LayerError::Projection {
+            path: self.path.to_path_buf(),
+            source,
+        }
     }
 
     fn point(&self, p: [f64; 2]) -> Result<[f64; 2], LayerError> {
@@ -149,9 +193,13 @@ impl<'a> ToGrid<'a> {
     }
 
     fn polygon(&self, mp: &MultiPolygon<f64>) -> Result<MultiPolygon<f64>, LayerError> {
-        let Some(g) = &self.grid else { return Ok(mp.clone()) };
+        let Some(g) = &self.grid else {
+            return Ok(mp.clone());
+        };
         let ll = match &self.source {
-            Some(s) => s.polygon_to_lonlat(mp, self.step_m).map_err(|e| self.err(e))?,
+            Some(s) => s
+                .polygon_to_lonlat(mp, self.step_m)
+                .map_err(|e| self.err(e))?,
             None => mp.clone(),
         };
         g.polygon_to_xy(&ll, self.step_deg).map_err(|e| self.err(e))
@@ -183,12 +231,23 @@ fn polygon_index(
     Ok((file, index))
 }
 
-fn area_share(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<Option<f64>>, LayerError> {
+fn area_share(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
     let (_, index) = polygon_index(spec, grid, cache)?;
-    Ok((0..grid.len() as u32).into_par_iter().map(|id| index.share(grid, id)).collect())
+    Ok((0..grid.len() as u32)
+        .into_par_iter()
+        .map(|id| index.share(grid, id))
+        .collect())
 }
 
-fn area_mean(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<Option<f64>>, LayerError> {
+fn area_mean(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
     let field = field(spec)?;
     let (file, index) = polygon_index(spec, grid, cache)?;
     // Feature k of the file is polygon k of the index (`polygons` keeps one entry per feature).
@@ -196,7 +255,11 @@ fn area_mean(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<O
     for f in &file.features {
         let v = file.number(f.index, field)?;
         if let Some(v) = v {
-            check_range(spec, || format!("feature {}, property `{field}`", f.index), v)?;
+            check_range(
+                spec,
+                || format!("feature {}, property `{field}`", f.index),
+                v,
+            )?;
         }
         values.push(v);
     }
@@ -217,7 +280,11 @@ fn area_mean(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<O
         .collect())
 }
 
-fn points(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<Option<f64>>, LayerError> {
+fn points(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
     let file = geo_file(spec, cache)?;
     let field = match spec.sampling {
         Sampling::PointCount => None,
@@ -256,11 +323,17 @@ struct Interpolator {
     weights: Vec<Weights>,
 }
 
-fn interpolate(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec<Option<f64>>, LayerError> {
+fn interpolate(
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
     let column = field(spec)?;
     let c = coords(spec);
     let table: std::sync::Arc<CsvTable> =
-        cache.get_or_load(&spec.path, &format!("csv|{c:?}"), || csvfile::parse_file(&spec.path, c))?;
+        cache.get_or_load(&spec.path, &format!("csv|{c:?}"), || {
+            csvfile::parse_file(&spec.path, c)
+        })?;
     let values = table.column(column)?;
     for (v, line) in values.iter().zip(&table.lines) {
         check_range(spec, || format!("line {line}, column `{column}`"), *v)?;
@@ -270,12 +343,24 @@ fn interpolate(spec: &LayerSpec, grid: &Grid, cache: &SourceCache) -> Result<Vec
     Ok(interp.weights.iter().map(|w| w.apply(values)).collect())
 }
 
-fn interpolator(spec: &LayerSpec, grid: &Grid, table: &CsvTable) -> Result<Interpolator, LayerError> {
-    let err = |source| LayerError::Projection { path: spec.path.clone(), source };
+fn interpolator(
+    spec: &LayerSpec,
+    grid: &Grid,
+    table: &CsvTable,
+) -> Result<Interpolator, LayerError> {
+    let err = |source| LayerError::Projection {
+        path: spec.path.clone(),
+        source,
+    };
     if let Some(lattice) = RegularLattice::detect(&table.xs, &table.ys) {
         // Bilinear in the file's own coordinates, at each cell's lon/lat centroid.
         let source = match &spec.crs {
-            Some(def) => Some(Projector::new(&Crs { definition: def.clone() }).map_err(err)?),
+            Some(def) => Some(
+                Projector::new(&Crs {
+                    definition: def.clone(),
+                })
+                .map_err(err)?,
+            ),
             None => None,
         };
         let mut weights = Vec::with_capacity(grid.len());
@@ -285,7 +370,10 @@ fn interpolator(spec: &LayerSpec, grid: &Grid, table: &CsvTable) -> Result<Inter
                 Some(s) => s.to_xy(lon, lat).map_err(err)?,
                 // A 0..360 lattice holds western longitudes as lon + 360.
                 None => {
-                    let lon = [lon, lon + 360.0, lon - 360.0].into_iter().find(|&l| lattice.spans_x(l)).unwrap_or(lon);
+                    let lon = [lon, lon + 360.0, lon - 360.0]
+                        .into_iter()
+                        .find(|&l| lattice.spans_x(l))
+                        .unwrap_or(lon);
                     [lon, lat]
                 }
             };
@@ -295,7 +383,12 @@ fn interpolator(spec: &LayerSpec, grid: &Grid, table: &CsvTable) -> Result<Inter
     }
     // Nearest point, measured in the grid's equal-area metres.
     let to_grid = ToGrid::new(spec, grid)?;
-    let pts = table.xs.iter().zip(&table.ys).map(|(&x, &y)| to_grid.point([x, y])).collect::<Result<Vec<_>, _>>()?;
+    let pts = table
+        .xs
+        .iter()
+        .zip(&table.ys)
+        .map(|(&x, &y)| to_grid.point([x, y]))
+        .collect::<Result<Vec<_>, _>>()?;
     let queries: Vec<[f64; 2]> = grid.cells.iter().map(|c| c.centre).collect();
     let (weights, _limit) = nearest(&pts, &queries, grid.cell_size_m);
     Ok(Interpolator { weights })
