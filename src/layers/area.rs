@@ -369,4 +369,41 @@ mod tests {
         let index = PolygonIndex::build(&g, &[mp(rect(10.0, 10.0, 12.0, 12.0))]);
         assert!(shares(&g, &index).iter().all(Option::is_none));
     }
+
+    #[test]
+    fn shares_of_a_circle_sum_to_its_area() {
+        // Closed form: a regular n-gon of circumradius r has area (n/2)·r²·sin(2π/n). On a
+        // 100 × 100 lattice of 1 km cells, a 720-gon of radius 40 km centred at (50, 50) km
+        // gives Σ share·(1 km²) = that area; cells in the middle are whole (share 1).
+        let g = Grid::full_rectangle(
+            Crs {
+                definition: "EPSG:3035".into(),
+            },
+            1000.0,
+            [4.0e6, 3.0e6],
+            100,
+            100,
+        )
+        .unwrap();
+        let (n, r) = (720, 40_000.0);
+        let ring: Vec<(f64, f64)> = (0..=n)
+            .map(|k| {
+                let a = 2.0 * std::f64::consts::PI * (k % n) as f64 / n as f64;
+                (
+                    4.0e6 + 50_000.0 + r * a.cos(),
+                    3.0e6 + 50_000.0 + r * a.sin(),
+                )
+            })
+            .collect();
+        let circle = Polygon::new(ring.into(), vec![]);
+        let index = PolygonIndex::build(&g, &[mp(circle)]);
+        let total: f64 = (0..g.len() as u32)
+            .filter_map(|id| index.share(&g, id))
+            .sum::<f64>()
+            * 1.0e6;
+        let want = n as f64 / 2.0 * r * r * (2.0 * std::f64::consts::PI / n as f64).sin();
+        assert!((total - want).abs() / want < 1e-9, "{total} vs {want}");
+        assert_eq!(index.share(&g, 50 * 100 + 50), Some(1.0));
+        assert!(index.share(&g, 0).is_none());
+    }
 }

@@ -59,7 +59,6 @@ fn regular_axis(values: &[f64]) -> Option<(f64, f64, usize)> {
     v.sort_by(f64::total_cmp);
     let (first, last) = (*v.first()?, *v.last()?);
     let range = last - first;
-    // Written so that a NaN range also returns.
     if range.is_nan() || range <= 0.0 {
         return None;
     }
@@ -119,7 +118,7 @@ impl RegularLattice {
         const EDGE: f64 = 1e-9;
         let locate = |v: f64, v0: f64, d: f64, n: usize| -> Option<(usize, f64)> {
             let f = (v - v0) / d;
-            if !(f >= -EDGE && f <= (n - 1) as f64 + EDGE) {
+            if f.is_nan() || f < -EDGE || f > (n - 1) as f64 + EDGE {
                 return None;
             }
             let f = f.clamp(0.0, (n - 1) as f64);
