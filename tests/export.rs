@@ -420,3 +420,40 @@ fn write_atomic_leaves_nothing_behind() {
     write_outputs(&tmp.path().join("out"), &[("coverage.csv", "a\n".into())]).unwrap();
     assert_eq!(list(&tmp.path().join("out")), ["coverage.csv"]);
 }
+
+/// Scale check, run by hand (`cargo test --test export -- --ignored`): a 400×400 grid with
+/// 100 000 chosen cells (every cell except a regular pattern of unchosen ones).
+#[test]
+#[ignore]
+fn large_network_dissolves() {
+    let g = Grid::full_rectangle(
+        Crs::auto_laea(10.0, 55.0),
+        1_000.0,
+        [-200_000.0, -200_000.0],
+        400,
+        400,
+    )
+    .unwrap();
+    // Choose cells in rows 0–249 (100 000 cells) except every 7th column on rows ≡ 3 (mod 5):
+    // the unchosen ones are holes.
+    let sel: Vec<bool> = (0..g.len())
+        .map(|i| {
+            let (c, r) = (i % 400, i / 400);
+            r < 250 && !(r % 5 == 3 && c % 7 == 3)
+        })
+        .collect();
+    let t = std::time::Instant::now();
+    let a = assess(&g, &FeatureTable::default(), &vec![1.0; g.len()], &sel);
+    let text = network_geojson(&g, &a).unwrap();
+    eprintln!(
+        "{} cells, {} reserves, {:.2} s, {} bytes",
+        a.cells_selected,
+        a.reserves.len(),
+        t.elapsed().as_secs_f64(),
+        text.len()
+    );
+    let feats = check_rfc7946(&text);
+    let total: f64 = feats.iter().map(|f| f.1).sum();
+    // Hand: 1 km² cells; geodesic total within the 1e-4 tolerance reasoned above.
+    assert!((total - a.cells_selected as f64).abs() / total < 1e-4);
+}
