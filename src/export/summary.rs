@@ -2,6 +2,7 @@
 
 use super::CAUTION;
 use crate::assess::Assessment;
+use crate::model::ScenarioResult;
 use crate::solve::Solution;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
@@ -47,28 +48,9 @@ pub struct Summary {
     /// What these results are and are not.
     pub caution: String,
     /// Per scenario: benefit, best achievable benefit, regret and targets met.
-    pub scenarios: Vec<ScenarioSummary>,
+    pub scenarios: Vec<ScenarioResult>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
-}
-
-/// How the network fares in one scenario (from `solve::Solution::scenarios`).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ScenarioSummary {
-    /// Scenario name.
-    pub name: String,
-    /// Weighted targets met (partly met ones count their share). Units: weighted targets.
-    pub benefit: f64,
-    /// The most the benefit can be (all targets met).
-    pub benefit_max: f64,
-    /// Best benefit this scenario alone allows, when computed (least-regret runs).
-    pub best: Option<f64>,
-    /// best − benefit, when best is known.
-    pub regret: Option<f64>,
-    /// Targets met in this scenario.
-    pub targets_met: usize,
-    /// Targets in this scenario.
-    pub targets: usize,
 }
 
 impl Summary {
@@ -100,19 +82,7 @@ impl Summary {
             cells_selected: assessment.cells_selected,
             cells: grid_cells,
             caution: CAUTION.to_string(),
-            scenarios: solution
-                .scenarios
-                .iter()
-                .map(|r| ScenarioSummary {
-                    name: r.name.clone(),
-                    benefit: r.benefit,
-                    benefit_max: r.benefit_max,
-                    best: r.best,
-                    regret: r.regret,
-                    targets_met: r.targets_met,
-                    targets: r.targets,
-                })
-                .collect(),
+            scenarios: solution.scenarios.clone(),
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }
@@ -138,7 +108,6 @@ pub fn summary_json(summary: &Summary) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::model::ScenarioResult;
     use crate::solve::SolveStatus;
 
     #[test]

@@ -18,8 +18,8 @@ pub fn at_least(value: f64, limit: f64) -> bool {
     value >= limit - TOLERANCE * limit.abs().max(1.0)
 }
 
-/// How one scenario fares.
-#[derive(Debug, Clone, PartialEq)]
+/// How one scenario fares (serialised as is into `summary.json`).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ScenarioResult {
     /// Scenario name.
     pub name: String,
