@@ -23,10 +23,11 @@ pub fn at_least(value: f64, limit: f64) -> bool {
 pub struct ScenarioResult {
     /// Scenario name.
     pub name: String,
-    /// Bₛ = Σ wₖ·min(heldₖ/Tₖ, 1) over the scenario's features. Units: weighted targets
+    /// Bₛ = Σ wₖ·min(heldₖ/capₖ, 1) over the scenario's features (capₖ = Tₖ, or the total
+    /// amount of a weight-only feature). Units: weighted targets
     /// (see [`super::robust`]).
     pub benefit: f64,
-    /// The largest Bₛ can be (Σ wₖ). Units: weighted targets.
+    /// The largest Bₛ can be (Σ wₖ over features that can earn). Units: weighted targets.
     pub benefit_max: f64,
     /// Bₛ*, the best benefit the scenario alone allows, when known.
     pub best: Option<f64>,
@@ -101,10 +102,9 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         .collect();
     let credit = |k: usize| -> f64 {
         let f = &problem.features[k];
-        if f.target > 0.0 {
-            f.weight * (held[k] / f.target).min(1.0)
-        } else {
-            f.weight
+        match f.benefit_cap() {
+            Some(cap) => f.weight * (held[k] / cap).min(1.0),
+            None => 0.0,
         }
     };
     let best = problem.scenario_best.as_deref();
@@ -119,7 +119,11 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
             ScenarioResult {
                 name: sc.name.clone(),
                 benefit,
-                benefit_max: ks.iter().map(|&k| problem.features[k].weight).sum(),
+                benefit_max: ks
+                    .iter()
+                    .filter(|&&k| problem.features[k].benefit_cap().is_some())
+                    .map(|&k| problem.features[k].weight)
+                    .sum(),
                 best: b_star,
                 regret: b_star.map(|b| b - benefit),
                 targets_met: ks.iter().filter(|&&k| met[k]).count(),

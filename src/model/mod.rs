@@ -123,6 +123,21 @@ pub struct Problem {
     pub scenario_best: Option<Vec<f64>>,
 }
 
+impl ModelFeature {
+    /// The holding at which the feature's benefit credit stops growing: its target when it
+    /// has one; otherwise its whole amount over the region, so a weight-only feature (target 0,
+    /// e.g. a corridor weight) earns wₖ·heldₖ/totalₖ — in proportion to how much the network
+    /// holds. `None` for a weight-only feature with no amount anywhere (it earns nothing and
+    /// nothing can change that). Units: the feature's own.
+    pub fn benefit_cap(&self) -> Option<f64> {
+        if self.target > 0.0 {
+            return Some(self.target);
+        }
+        let total: f64 = self.amounts.iter().map(|(_, a)| a).sum();
+        (total > 0.0).then_some(total)
+    }
+}
+
 impl Problem {
     /// Number of cells (decision variables before auxiliaries).
     pub fn n_cells(&self) -> usize {

@@ -3,13 +3,15 @@
 //! # Benefit
 //! A feature k with target Tₖ > 0 and weight wₖ earns wₖ·min(heldₖ/Tₖ, 1): its credit is capped
 //! at its target (maximum coverage, Church & ReVelle 1974, Papers of the Regional Science
-//! Association 32:101). A feature with Tₖ = 0 is met by any network and always earns wₖ.
-//! The benefit of scenario s is Bₛ(x) = Σ_{k ∈ Fₛ} wₖ·min(heldₖ/Tₖ, 1), where Fₛ holds the
+//! Association 32:101). A weight-only feature (Tₖ = 0, e.g. a corridor weight) has no target to
+//! meet, so its credit is proportional to what the network holds: wₖ·heldₖ/Aₖ with Aₖ its total
+//! amount over the region (capₖ = Tₖ or Aₖ, [`super::ModelFeature::benefit_cap`]).
+//! The benefit of scenario s is Bₛ(x) = Σ_{k ∈ Fₛ} wₖ·min(heldₖ/capₖ, 1), where Fₛ holds the
 //! features of scenario s plus the scenario-free ones. Units: weighted targets met (with unit
 //! weights, Bₛ counts targets met, fractions for partly met ones); it is not normalised, so
 //! Bₛ ranges over [0, Σ_{k∈Fₛ} wₖ].
 //!
-//! Linear form: yₖ ∈ [0, Tₖ] continuous, yₖ ≤ Σᵢ aᵢₖxᵢ, Bₛ = Σ_{k∈Fₛ} (wₖ/Tₖ)·yₖ + constₛ.
+//! Linear form: yₖ ∈ [0, capₖ] continuous, yₖ ≤ Σᵢ aᵢₖxᵢ, Bₛ = Σ_{k∈Fₛ} (wₖ/capₖ)·yₖ.
 //!
 //! # Objectives
 //! * `MinCost` (minimum set): min Σᵢ cᵢxᵢ s.t. Σᵢ aᵢₖxᵢ ≥ Tₖ for every feature of every
@@ -52,14 +54,12 @@ pub fn is_minimisation(problem: &Problem) -> bool {
         || effective_robustness(problem) == Robustness::LeastRegret
 }
 
-/// Bₛ as a linear function of the capped holdings yₖ: Bₛ = Σ coef·y_k + constant.
+/// Bₛ as a linear function of the capped holdings yₖ: Bₛ = Σ coef·yₖ.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ScenarioBenefit {
-    /// `(feature, wₖ/Tₖ)` for features of the scenario with Tₖ > 0.
+    /// `(feature, wₖ/capₖ)` for features of the scenario with a benefit cap.
     pub terms: Vec<(usize, f64)>,
-    /// Σ wₖ over features of the scenario with Tₖ = 0 (always met).
-    pub constant: f64,
-    /// Σ wₖ over all features of the scenario: the largest Bₛ can be.
+    /// Σ wₖ over the scenario's features that can earn credit: the largest Bₛ can be.
     pub max: f64,
 }
 
@@ -69,16 +69,13 @@ pub fn scenario_benefits(problem: &Problem) -> Vec<ScenarioBenefit> {
         .map(|s| {
             let mut b = ScenarioBenefit {
                 terms: Vec::new(),
-                constant: 0.0,
                 max: 0.0,
             };
             for k in problem.scenario_features(s) {
                 let f = &problem.features[k];
-                b.max += f.weight;
-                if f.target > 0.0 {
-                    b.terms.push((k, f.weight / f.target));
-                } else {
-                    b.constant += f.weight;
+                if let Some(cap) = f.benefit_cap() {
+                    b.max += f.weight;
+                    b.terms.push((k, f.weight / cap));
                 }
             }
             b
@@ -200,14 +197,14 @@ mod tests {
 
     #[test]
     fn benefit_coefficients_and_combination() {
-        // Hand computation: scenario a holds p (w 1, T 4) and the target-free r (w 0.5):
-        // terms [(0, 1/4)], constant 0.5, max 1.5. Scenario b: q (w 2, T 1) and r.
+        // Hand computation: scenario a holds p (w 1, T 4) and the weight-only r (w 0.5, total
+        // amount 1, so cap 1): terms [(0, 1/4), (2, 0.5)], max 1.5. Scenario b: q (w 2, T 1)
+        // and r.
         let p = two_scenarios();
         let b = scenario_benefits(&p);
-        assert_eq!(b[0].terms, vec![(0, 0.25)]);
-        assert_eq!(b[0].constant, 0.5);
+        assert_eq!(b[0].terms, vec![(0, 0.25), (2, 0.5)]);
         assert_eq!(b[0].max, 1.5);
-        assert_eq!(b[1].terms, vec![(1, 2.0)]);
+        assert_eq!(b[1].terms, vec![(1, 2.0), (2, 0.5)]);
         assert_eq!(b[1].max, 2.5);
         // π = (3/4, 1/4); benefits (1, 2) → expected 0.75 + 0.5 = 1.25.
         assert_eq!(scenario_shares(&p), vec![0.75, 0.25]);

@@ -3,18 +3,17 @@
 //!
 //! # Variables
 //! * xᵢ ∈ {0, 1} per cell (required cells fixed to 1, excluded to 0);
-//! * yₖ ∈ [0, Tₖ] per feature with Tₖ > 0, max-benefit only (capped holding, [`crate::model::robust`]);
+//! * yₖ ∈ [0, capₖ] per feature with a benefit cap (its target, or its total amount when it
+//!   is weight-only), max-benefit only (capped holding, [`crate::model::robust`]);
 //! * zᵢⱼ ∈ [0, 1] per neighbouring pair, with an edge penalty of positive weight
 //!   ([`crate::model::compact`]);
 //! * uₚ ∈ [0, 1] per allowed position that needs a max-gap row ([`crate::model::spacing`]);
-//! * t (worst-case benefit) or r (largest regret), free;
-//! * one column fixed to 1 that carries the objective's constant (target-free features), so the
-//!   objective, bound and gap HiGHS reports already include it.
+//! * t (worst-case benefit) or r (largest regret), free.
 //!
 //! # Rows
 //! * min-cost: Σᵢ aᵢₖxᵢ ≥ Tₖ for every feature (all scenarios);
-//! * max-benefit: yₖ − Σᵢ aᵢₖxᵢ ≤ 0; worst-case: t − Bₛ(y) ≤ constₛ; least-regret:
-//!   r + Bₛ(y) ≥ Bₛ* − constₛ;
+//! * max-benefit: yₖ − Σᵢ aᵢₖxᵢ ≤ 0; worst-case: t − Bₛ(y) ≤ 0; least-regret:
+//!   r + Bₛ(y) ≥ Bₛ*;
 //! * budget: Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max area;
 //! * edge penalty: zᵢⱼ − xᵢ ≤ 0, zᵢⱼ − xⱼ ≤ 0;
 //! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1.
@@ -51,7 +50,6 @@ enum Col {
     U(usize),
     Worst,
     Regret,
-    One,
 }
 
 /// The integer program of a problem, solver-neutral within good_lp.
@@ -87,7 +85,6 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
     let minimise = is_minimisation(problem);
     let mut objective = Expression::with_capacity(n);
     let mut constraints = Vec::new();
-    let mut constant = 0.0;
 
     let amount_expr = |k: usize| -> Expression {
         let f = &problem.features[k];
@@ -112,8 +109,8 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         Objective::MaxBenefit => {
             let mut y: Vec<Option<Variable>> = vec![None; problem.features.len()];
             for (k, f) in problem.features.iter().enumerate() {
-                if f.target > 0.0 {
-                    let v = add(&mut vars, variable().min(0.0).max(f.target), Col::Y(k));
+                if let Some(cap) = f.benefit_cap() {
+                    let v = add(&mut vars, variable().min(0.0).max(cap), Col::Y(k));
                     constraints.push(constraint::leq(Expression::from(v) - amount_expr(k), 0.0));
                     y[k] = Some(v);
                 }
@@ -141,17 +138,14 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
                                 objective.add_mul(shares[s] * coef, v);
                             }
                         }
-                        constant += shares[s] * b.constant;
                     }
                 }
                 Robustness::WorstCase => {
                     let t = add(&mut vars, variable(), Col::Worst);
                     objective.add_mul(1.0, t);
-                    for (s, b) in benefits.iter().enumerate() {
-                        constraints.push(constraint::leq(
-                            Expression::from(t) - benefit_expr(s),
-                            b.constant,
-                        ));
+                    for s in 0..benefits.len() {
+                        constraints
+                            .push(constraint::leq(Expression::from(t) - benefit_expr(s), 0.0));
                     }
                 }
                 Robustness::LeastRegret => {
@@ -162,10 +156,10 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
                     })?;
                     let r = add(&mut vars, variable(), Col::Regret);
                     objective.add_mul(1.0, r);
-                    for (s, b) in benefits.iter().enumerate() {
+                    for (s, &b_star) in best.iter().enumerate() {
                         constraints.push(constraint::geq(
                             Expression::from(r) + benefit_expr(s),
-                            best[s] - b.constant,
+                            b_star,
                         ));
                     }
                 }
@@ -229,10 +223,6 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         }
         constraints.push(constraint::leq(e, limit));
     }
-    if constant != 0.0 {
-        let one = add(&mut vars, variable().min(1.0).max(1.0), Col::One);
-        objective.add_mul(constant, one);
-    }
     Ok(Formulation {
         vars,
         objective,
@@ -265,7 +255,7 @@ impl Formulation {
             .iter()
             .map(|c| match *c {
                 Col::X(i) => xv(i),
-                Col::Y(k) => e.held[k].min(problem.features[k].target),
+                Col::Y(k) => e.held[k].min(problem.features[k].benefit_cap().unwrap_or(0.0)),
                 Col::Z(q) => {
                     let (i, j, _) = problem
                         .edge_penalty
@@ -296,7 +286,6 @@ impl Formulation {
                     .iter()
                     .filter_map(|s| s.regret)
                     .fold(f64::NEG_INFINITY, f64::max),
-                Col::One => 1.0,
             })
             .collect()
     }

@@ -22,9 +22,11 @@ pub(crate) struct State<'a> {
     pub p: &'a Problem,
     pub selected: Vec<bool>,
     cell_feats: Vec<Vec<(u32, f64)>>,
-    /// For each feature, the scenarios it counts in and its coefficient wₖ/Tₖ there.
+    /// For each feature, the scenarios it counts in and its coefficient wₖ/capₖ there.
     feat_coef: Vec<f64>,
     feat_scen: Vec<Vec<u32>>,
+    /// Benefit cap of each feature (`ModelFeature::benefit_cap`, cached: it sums amounts).
+    caps: Vec<Option<f64>>,
     pub held: Vec<f64>,
     pub benefit: Vec<f64>,
     pub cost: f64,
@@ -58,9 +60,8 @@ impl<'a> State<'a> {
         let mut feat_coef = vec![0.0; p.features.len()];
         let mut feat_scen = vec![Vec::new(); p.features.len()];
         let sb = scenario_benefits(p);
-        let mut benefit = vec![0.0; s_count];
+        let benefit = vec![0.0; s_count];
         for (s, b) in sb.iter().enumerate() {
-            benefit[s] = b.constant;
             for &(k, coef) in &b.terms {
                 feat_coef[k] = coef;
                 feat_scen[k].push(s as u32);
@@ -77,6 +78,7 @@ impl<'a> State<'a> {
             cell_feats,
             feat_coef,
             feat_scen,
+            caps: p.features.iter().map(|f| f.benefit_cap()).collect(),
             held: vec![0.0; p.features.len()],
             benefit,
             cost: 0.0,
@@ -139,13 +141,17 @@ impl<'a> State<'a> {
     }
 
     fn credit_delta(&self, k: usize, da: f64) -> (f64, f64) {
-        let t = self.p.features[k].target;
+        let f = &self.p.features[k];
         let h = self.held[k];
-        if t <= 0.0 {
-            return (0.0, 0.0);
-        }
-        let d_capped = (h + da).min(t) - h.min(t);
-        let d_short = (t - h - da).max(0.0) / t - (t - h).max(0.0) / t;
+        // Benefit grows up to the cap (target, or total for a weight-only feature); the
+        // shortfall only counts real targets.
+        let d_capped = self.caps[k].map_or(0.0, |c| (h + da).min(c) - h.min(c));
+        let t = f.target;
+        let d_short = if t > 0.0 {
+            (t - h - da).max(0.0) / t - (t - h).max(0.0) / t
+        } else {
+            0.0
+        };
         (d_capped, d_short)
     }
 
