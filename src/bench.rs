@@ -284,6 +284,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             edge_penalty: None,
             spacing: None,
             scenario_best: None,
+            min_reserve: None,
         };
         Ok((
             p,

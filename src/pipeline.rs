@@ -8,7 +8,9 @@ use crate::features::habitat::{habitat_feature, HabitatLayer};
 use crate::features::FeatureTable;
 use crate::grid::{build_grid, Grid, GridError};
 use crate::layers::{read_multipolygon, sample, Layer, LayerError, SourceCache};
-use crate::model::{Budget, CellStatus, EdgePenalty, ModelFeature, Problem, Scenario, Spacing};
+use crate::model::{
+    Budget, CellStatus, EdgePenalty, MinReserve, ModelFeature, Problem, Scenario, Spacing,
+};
 use crate::plan::{CostPlan, Plan};
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
 use rayon::prelude::*;
@@ -332,6 +334,15 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             max_gap_km: g,
         }),
         scenario_best: None,
+        min_reserve: plan.rules.min_reserve_km2.map(|m| MinReserve {
+            min_area_km2: m,
+            neighbours: inputs
+                .grid
+                .neighbours
+                .iter()
+                .map(|l| l.iter().map(|n| n.cell).collect())
+                .collect(),
+        }),
     }
 }
 

@@ -166,6 +166,9 @@ pub struct SpatialRules {
     pub count_coast_edges: bool,
     /// Stepping-stone rule: longest stretch along the poleward axis without a reserve. Units: km.
     pub max_gap_km: Option<f64>,
+    /// Minimum reserve size: no lone chosen cell smaller than this (`model::min_size`).
+    /// Units: km².
+    pub min_reserve_km2: Option<f64>,
 }
 
 /// A validated plan: every path absolute, every value checked.
@@ -314,6 +317,7 @@ struct RawOptimise {
     edge_penalty: Option<f64>,
     count_coast_edges: Option<bool>,
     max_gap_km: Option<f64>,
+    min_reserve_km2: Option<f64>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -931,6 +935,7 @@ impl Plan {
                         "edge_penalty",
                         "count_coast_edges",
                         "max_gap_km",
+                        "min_reserve_km2",
                     ],
                 );
                 if let Some(w) = o.edge_penalty {
@@ -943,10 +948,16 @@ impl Plan {
                         ck.push("optimise.max_gap_km", format!("must be a positive number of kilometres, e.g. `max_gap_km = 100`; got {g}"));
                     }
                 }
+                if let Some(m) = o.min_reserve_km2 {
+                    if !(m.is_finite() && m > 0.0) {
+                        ck.push("optimise.min_reserve_km2", format!("must be a positive area in km², e.g. `min_reserve_km2 = 50`; got {m}"));
+                    }
+                }
                 rules = SpatialRules {
                     edge_penalty: o.edge_penalty.filter(|w| *w > 0.0),
                     count_coast_edges: o.count_coast_edges.unwrap_or(false),
                     max_gap_km: o.max_gap_km,
+                    min_reserve_km2: o.min_reserve_km2,
                 };
                 let objective = match o.objective.as_deref() {
                     None | Some("min-cost") => Objective::MinCost,

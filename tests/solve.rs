@@ -4,8 +4,8 @@
 
 use driftplan::model::compact::unit_grid_penalty;
 use driftplan::model::{
-    evaluate, Budget, CellStatus, EdgePenalty, ModelFeature, Objective, Problem, Robustness,
-    Scenario, Spacing,
+    evaluate, Budget, CellStatus, EdgePenalty, MinReserve, ModelFeature, Objective, Problem,
+    Robustness, Scenario, Spacing,
 };
 use driftplan::solve::anneal::Anneal;
 use driftplan::solve::brute::BruteForce;
@@ -54,6 +54,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         edge_penalty: None,
         spacing: None,
         scenario_best: None,
+        min_reserve: None,
     }
 }
 
@@ -473,6 +474,115 @@ fn max_gap_costs_a_stepping_stone() {
     // Greedy also meets the rule (by its gap repair).
     let gr = Greedy.solve(&p, &opts()).unwrap();
     assert!(evaluate(&p, &gr.selected).gap.unwrap().met);
+}
+
+/// Rook neighbours on a rows × cols grid with row-major ids.
+fn rook(rows: usize, cols: usize) -> Vec<Vec<u32>> {
+    (0..rows * cols)
+        .map(|i| {
+            let (r, c) = (i / cols, i % cols);
+            let mut v = Vec::new();
+            if r > 0 {
+                v.push((i - cols) as u32);
+            }
+            if c > 0 {
+                v.push((i - 1) as u32);
+            }
+            if c + 1 < cols {
+                v.push((i + 1) as u32);
+            }
+            if r + 1 < rows {
+                v.push((i + cols) as u32);
+            }
+            v
+        })
+        .collect()
+}
+
+#[test]
+fn min_reserve_forbids_a_lone_small_cell() {
+    // Hand-worked: a 1×4 strip of 4 km² cells, costs [1, 3, 1, 2]; the only feature sits in
+    // cells 0 and 2 (target 2). Unconstrained optimum {0, 2}: cost 2, two lone cells. With a
+    // 5 km² minimum every chosen cell needs a chosen neighbour: {0,1,2} costs 5, {0,1,2,3} and
+    // {0,1}+{2,3} cost 7 → optimum {0,1,2}, extra cost 3.
+    let mut p = base(
+        vec![1.0, 3.0, 1.0, 2.0],
+        vec![feature("f", None, &[1., 0., 1., 0.], 2.0)],
+        1,
+    );
+    p.area_km2 = vec![4.0; 4];
+    let free = Highs::default().solve(&p, &opts()).unwrap();
+    assert_eq!(ids(&free.selected), vec![0, 2]);
+    p.min_reserve = Some(MinReserve {
+        min_area_km2: 5.0,
+        neighbours: rook(1, 4),
+    });
+    assert_eq!(evaluate(&p, &free.selected).lone_cells, vec![0, 2]);
+    for s in [&Highs::default() as &dyn Solver, &BruteForce] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert_eq!(ids(&sol.selected), vec![0, 1, 2], "{}", sol.solver);
+        assert!(close(sol.objective, 5.0));
+    }
+    for s in [&Greedy as &dyn Solver, &Anneal::default()] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert!(evaluate(&p, &sol.selected).feasible, "{}", sol.solver);
+        assert!(sol.objective >= 5.0 - 1e-9);
+    }
+    // A cell of at least the minimum area may stand alone again.
+    p.area_km2 = vec![6.0; 4];
+    let big = Highs::default().solve(&p, &opts()).unwrap();
+    assert_eq!(ids(&big.selected), vec![0, 2]);
+}
+
+#[test]
+fn highs_matches_brute_force_with_min_reserve() {
+    // Independent check as above, by enumeration, with the minimum-size rule on (areas 5–15
+    // km², minimum 10, so about half the cells may not stand alone).
+    let mut compared = 0;
+    let mut binding = 0;
+    for seed in 0..4 {
+        let mut full = random_instance(seed);
+        full.edge_penalty = None;
+        full.spacing = None;
+        for objective in [Objective::MinCost, Objective::MaxBenefit] {
+            for robustness in [Robustness::EveryScenario, Robustness::WorstCase] {
+                let mut p = full.clone();
+                p.objective = objective;
+                p.robustness = robustness;
+                if objective == Objective::MinCost {
+                    p.budget = Budget::default();
+                }
+                let plain = BruteForce.solve(&p, &opts());
+                p.min_reserve = Some(MinReserve {
+                    min_area_km2: 10.0,
+                    neighbours: rook(3, 4),
+                });
+                let h = Highs::default().solve(&p, &opts());
+                let b = BruteForce.solve(&p, &opts());
+                let what = format!("seed {seed} {objective:?} {robustness:?}");
+                match (&h, &b) {
+                    (Ok(h), Ok(b)) => {
+                        assert!(close(h.objective, b.objective), "{what}");
+                        assert!(evaluate(&p, &h.selected).feasible, "{what}");
+                        assert!(evaluate(&p, &h.selected).lone_cells.is_empty());
+                        for s in [&Greedy as &dyn Solver, &Anneal::default()] {
+                            if let Ok(s) = s.solve(&p, &opts()) {
+                                assert!(evaluate(&p, &s.selected).feasible, "{what} {}", s.solver);
+                            }
+                        }
+                        if plain.is_ok_and(|q| !close(q.objective, b.objective)) {
+                            binding += 1;
+                        }
+                        compared += 1;
+                    }
+                    (Err(_), Err(_)) => {}
+                    _ => panic!("{what}: highs {h:?} brute {b:?}"),
+                }
+            }
+        }
+    }
+    assert!(compared >= 10, "only {compared} cases compared");
+    assert!(binding >= 3, "the rule changed only {binding} optima");
 }
 
 #[test]

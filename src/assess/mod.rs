@@ -4,11 +4,13 @@
 mod coverage;
 mod edge;
 mod reserves;
+pub mod shape;
 
 pub use coverage::coverage;
 pub use edge::{boundary_edge_km, exposed_edge_km};
 pub use reserves::reserves;
 
+use crate::features::edges::meridian_distance_km;
 use crate::features::FeatureTable;
 use crate::grid::Grid;
 
@@ -71,6 +73,12 @@ pub struct Assessment {
     pub boundary_edge_km: f64,
     /// Number of chosen cells.
     pub cells_selected: usize,
+    /// Reserve edge (exposed + boundary) over the edge of circles of the same areas
+    /// ([`shape::compactness_ratio`]; 1 is a circle, NaN for an empty network).
+    pub compactness_ratio: f64,
+    /// Longest stretch of the poleward axis (meridian distance of centroids) between
+    /// consecutive chosen cells ([`shape::largest_gap_km`]). Units: km.
+    pub largest_gap_km: f64,
 }
 
 /// Scores a network: coverage of every feature, cost, area, reserves and edges.
@@ -97,15 +105,29 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
     } else {
         0.0
     };
+    let reserves = reserves(grid, cost, selected);
+    let exposed = exposed_edge_km(grid, selected);
+    let boundary = boundary_edge_km(grid, selected);
+    let positions: Vec<f64> = grid
+        .cells
+        .iter()
+        .map(|c| meridian_distance_km(c.lonlat[1]))
+        .collect();
+    let mut chosen_flags = vec![false; grid.len()];
+    for &i in &chosen {
+        chosen_flags[i as usize] = true;
+    }
     Assessment {
         coverage,
         cost: total_cost,
         area_km2,
         share_of_region,
-        reserves: reserves(grid, cost, selected),
-        exposed_edge_km: exposed_edge_km(grid, selected),
+        compactness_ratio: shape::compactness_ratio(&reserves, exposed + boundary),
+        largest_gap_km: shape::largest_gap_km(&positions, &chosen_flags),
+        reserves,
+        exposed_edge_km: exposed,
         targets_met,
-        boundary_edge_km: boundary_edge_km(grid, selected),
+        boundary_edge_km: boundary,
         cells_selected: chosen.len(),
     }
 }
@@ -210,6 +232,16 @@ mod tests {
         // Boundary edge: cell 0 south+west (2), cell 1 south (1), cell 3 south+east (2),
         // cell 11 north+east (2), cell 5 none. Total 7 sides = 70 km.
         assert!((a.boundary_edge_km - 70.0).abs() < 1e-9);
+        // Compactness: edge 160 km over circle perimeters 2√(300π) + 2·2√(100π) = 132.298 km
+        // → 1.20939 (hand computation).
+        assert!((a.compactness_ratio - 160.0 / 132.298).abs() < 1e-4);
+        // Largest gap: chosen rows 0, 1, 2 of 10 km cells near the LAEA centre (scale ≈ 1),
+        // so consecutive chosen centroids are about 10 km apart along the meridian.
+        assert!(
+            (a.largest_gap_km - 10.0).abs() < 0.2,
+            "{}",
+            a.largest_gap_km
+        );
     }
 
     #[test]

@@ -37,6 +37,12 @@ pub struct Summary {
     pub reserves: usize,
     /// Reserve edge facing unprotected sea. Units: km.
     pub exposed_edge_km: f64,
+    /// Reserve edge on the coast or the region boundary. Units: km.
+    pub boundary_edge_km: f64,
+    /// Reserve edge over the edge of circles of the same areas (1 = circle; null if empty).
+    pub compactness_ratio: f64,
+    /// Longest stretch of the poleward axis between consecutive chosen cells. Units: km.
+    pub largest_gap_km: f64,
     /// Targets met.
     pub targets_met: usize,
     /// Targets in the plan.
@@ -77,6 +83,9 @@ impl Summary {
             share_of_region: assessment.share_of_region,
             reserves: assessment.reserves.len(),
             exposed_edge_km: assessment.exposed_edge_km,
+            boundary_edge_km: assessment.boundary_edge_km,
+            compactness_ratio: assessment.compactness_ratio,
+            largest_gap_km: assessment.largest_gap_km,
             targets_met: assessment.targets_met,
             targets_total: assessment.coverage.len(),
             cells_selected: assessment.cells_selected,
@@ -154,6 +163,8 @@ mod tests {
             targets_met: 0,
             boundary_edge_km: 0.0,
             cells_selected: 1,
+            compactness_ratio: 1.0,
+            largest_gap_km: 0.0,
         };
         let s = Summary::new("demo", &plan_hash(b"abc"), &sol, &a, 2);
         let text = summary_json(&s);

@@ -74,6 +74,8 @@ mod tests {
             targets_met: 0,
             boundary_edge_km: 0.0,
             cells_selected: 0,
+            compactness_ratio: f64::NAN,
+            largest_gap_km: 0.0,
         };
         // Expected text written out by hand following RFC 4180 quoting.
         assert_eq!(

@@ -58,11 +58,14 @@ pub struct Evaluation {
     pub exposed_edge_km: f64,
     /// The max-gap check, when the problem has a spacing rule.
     pub gap: Option<GapReport>,
+    /// Chosen cells that break the minimum-size rule (lone and too small), ascending.
+    pub lone_cells: Vec<u32>,
     /// Cost and area within the budget.
     pub within_budget: bool,
     /// Every required cell chosen and no excluded cell chosen.
     pub status_respected: bool,
-    /// All hard rules hold: cell status, budget, max gap and, for min-cost, every target.
+    /// All hard rules hold: cell status, budget, max gap, minimum size and, for min-cost,
+    /// every target.
     pub feasible: bool,
     /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
     /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown).
@@ -150,10 +153,14 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         CellStatus::Required => *s,
         CellStatus::Excluded => !*s,
     });
+    let lone_cells = problem.min_reserve.as_ref().map_or_else(Vec::new, |m| {
+        m.lone_cells(&problem.status, &problem.area_km2, selected)
+    });
     let all_met = met.iter().all(|m| *m);
     let feasible = status_respected
         && within_budget
         && gap.as_ref().is_none_or(|g| g.met)
+        && lone_cells.is_empty()
         && (problem.objective == Objective::MaxBenefit || all_met);
     let objective = match problem.objective {
         Objective::MinCost => cost + penalty,
@@ -176,6 +183,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         scenarios,
         exposed_edge_km: exposed,
         gap,
+        lone_cells,
         within_budget,
         status_respected,
         feasible,
@@ -222,6 +230,7 @@ mod tests {
             edge_penalty: None,
             spacing: None,
             scenario_best: None,
+            min_reserve: None,
         }
     }
 

@@ -8,11 +8,13 @@
 
 pub mod compact;
 pub mod evaluate;
+pub mod min_size;
 pub mod robust;
 pub mod spacing;
 mod validate;
 
 pub use evaluate::{evaluate, Evaluation, ScenarioResult};
+pub use min_size::MinReserve;
 pub use spacing::Spacing;
 pub use validate::ModelError;
 
@@ -117,6 +119,8 @@ pub struct Problem {
     pub edge_penalty: Option<EdgePenalty>,
     /// Optional stepping-stone rule along the shift axis (max gap).
     pub spacing: Option<Spacing>,
+    /// Optional minimum reserve size (no lone cell below the area; [`min_size`]).
+    pub min_reserve: Option<MinReserve>,
     /// Best benefit each scenario can reach on its own under the same budget and rules (Bₛ*),
     /// needed by [`Robustness::LeastRegret`] and to report regret. `None`: the solver computes it
     /// first (see `solve::with_scenario_best`). Units: weighted targets (see [`robust`]).

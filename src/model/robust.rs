@@ -150,6 +150,7 @@ pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
         edge_penalty: None,
         spacing: problem.spacing.clone(),
         scenario_best: None,
+        min_reserve: None,
     }
 }
 
@@ -192,6 +193,7 @@ mod tests {
             edge_penalty: None,
             spacing: None,
             scenario_best: None,
+            min_reserve: None,
         }
     }
 

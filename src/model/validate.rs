@@ -258,6 +258,7 @@ mod tests {
             edge_penalty: None,
             spacing: None,
             scenario_best: None,
+            min_reserve: None,
         }
     }
 

@@ -14,6 +14,8 @@
 //!   min/max rule is tied-broken by 10⁻³ × the mean scenario gain, so cells that help
 //!   non-worst scenarios are not ignored on a plateau.
 //! * Max gap: while a gap row is violated, add its cheapest covering cell.
+//! * Minimum size: while a chosen cell stands alone below the minimum area, add its cheapest
+//!   neighbour that fits the budget, or drop it if none does.
 //!
 //! Scores are kept in a max-heap and re-checked lazily when popped (the usual lazy greedy);
 //! after a cell is added its neighbours are re-scored, since their edge change improved. Ties go
@@ -196,6 +198,37 @@ fn close_gaps(st: &mut State) -> bool {
     true
 }
 
+/// Give every lone undersized cell a chosen neighbour (its cheapest free one within the
+/// budget), or drop it when it has none. Returns false if cells remain lone after a bounded
+/// number of steps.
+fn join_lone_cells(st: &mut State) -> bool {
+    let Some(mr) = st.p.min_reserve.as_ref() else {
+        return true;
+    };
+    for _ in 0..4 * st.p.n_cells() + 4 {
+        let Some(&i) = st.lone_cells().first() else {
+            return true;
+        };
+        let mut best: Option<(f64, usize)> = None;
+        for &j in &mr.neighbours[i] {
+            let j = j as usize;
+            if st.p.status[j] != CellStatus::Free || st.selected[j] {
+                continue;
+            }
+            let f = st.delta(j);
+            if !st.fits(f.d_cost, f.d_area) {
+                continue;
+            }
+            let added = f.d_cost + st.weight * f.d_exposed;
+            if best.is_none_or(|(b, _)| added < b) {
+                best = Some((added, j));
+            }
+        }
+        st.flip(best.map_or(i, |(_, j)| j));
+    }
+    false
+}
+
 /// Min-cost clean-up: drop redundant cells, most expensive first.
 fn prune(st: &mut State) {
     let p = st.p;
@@ -224,10 +257,22 @@ pub(crate) fn greedy_network(problem: &Problem) -> Result<Vec<bool>, SolveError>
             SolveError::Infeasible(short)
         });
     }
-    if !close_gaps(&mut st) {
-        return Err(SolveError::NoNetworkFound(
-            "greedy could not meet the max gap within the budget".into(),
-        ));
+    // Joining lone cells only adds cells (gaps stay closed) unless it drops one, which may
+    // reopen a gap: repeat a few rounds.
+    for _ in 0..3 {
+        if !close_gaps(&mut st) {
+            return Err(SolveError::NoNetworkFound(
+                "greedy could not meet the max gap within the budget".into(),
+            ));
+        }
+        if !join_lone_cells(&mut st) {
+            return Err(SolveError::NoNetworkFound(
+                "greedy could not give every small reserve a neighbour within the budget".into(),
+            ));
+        }
+        if st.violated == 0 {
+            break;
+        }
     }
     if problem.objective == Objective::MinCost {
         prune(&mut st);
@@ -307,6 +352,7 @@ mod tests {
             edge_penalty: None,
             spacing: None,
             scenario_best: None,
+            min_reserve: None,
         };
         let s = Greedy.solve(&p, &SolveOptions::default()).unwrap();
         assert_eq!(s.selected, vec![false, false, true]);

@@ -16,7 +16,9 @@
 //!   r + Bₛ(y) ≥ Bₛ*;
 //! * budget: Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max area;
 //! * edge penalty: zᵢⱼ − xᵢ ≤ 0, zᵢⱼ − xⱼ ≤ 0;
-//! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1.
+//! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1;
+//! * minimum size: xᵢ − Σ_{j∈N(i)} xⱼ ≤ 0 for each free cell below the minimum area
+//!   ([`crate::model::min_size`]).
 //!
 //! # Objective
 //! min Σ cᵢxᵢ + w·exposed (min-cost); max Σₛ Bₛ, t or Σ πₛBₛ minus w·exposed (max-benefit);
@@ -205,6 +207,18 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         for (i, q) in pos_of.iter().enumerate() {
             if let Some(v) = q.and_then(|q| u[q]) {
                 constraints.push(constraint::leq(x[i] - v, 0.0));
+            }
+        }
+    }
+
+    if let Some(mr) = &problem.min_reserve {
+        for (i, &xi) in x.iter().enumerate() {
+            if mr.applies(i, &problem.status, &problem.area_km2) {
+                let mut e = Expression::from(xi);
+                for &j in &mr.neighbours[i] {
+                    e.add_mul(-1.0, x[j as usize]);
+                }
+                constraints.push(constraint::leq(e, 0.0));
             }
         }
     }

@@ -14,7 +14,8 @@ pub(crate) struct Flip {
     pub d_exposed: f64,
     /// Change of Σₖ max(0, Tₖ − heldₖ)/Tₖ (normalised shortfall).
     pub d_shortfall: f64,
-    /// Change of the number of violated max-gap rows.
+    /// Change of the number of broken hard spatial rules: violated max-gap rows plus lone
+    /// undersized cells (minimum size).
     pub d_violated: i64,
 }
 
@@ -44,6 +45,9 @@ pub(crate) struct State<'a> {
     pos_row: Vec<Option<u32>>,
     pub violated: i64,
     scratch: Vec<f64>,
+    // Minimum size: whether the rule applies to each cell, and its chosen-neighbour count.
+    lone_applies: Vec<bool>,
+    chosen_nb: Vec<u32>,
 }
 
 impl<'a> State<'a> {
@@ -95,6 +99,13 @@ impl<'a> State<'a> {
             pos_row: Vec::new(),
             violated: 0,
             scratch: vec![0.0; s_count],
+            lone_applies: match &p.min_reserve {
+                Some(m) => (0..n)
+                    .map(|i| m.applies(i, &p.status, &p.area_km2))
+                    .collect(),
+                None => Vec::new(),
+            },
+            chosen_nb: vec![0; n],
         };
         if let Some(sp) = &p.spacing {
             let (rows, pos_of) = gap_rows(sp, &p.status);
@@ -218,6 +229,7 @@ impl<'a> State<'a> {
                     - self.row_violated(r, old, &old_pos) as i64;
             }
         }
+        d_violated += self.lone_delta(i);
         Flip {
             d_cost: sign * self.p.cost[i],
             d_area: sign * self.p.area_km2[i],
@@ -225,6 +237,38 @@ impl<'a> State<'a> {
             d_shortfall: d_short,
             d_violated,
         }
+    }
+
+    /// A cell breaks the minimum-size rule when the rule applies, it is chosen and none of
+    /// its neighbours is.
+    fn lone(&self, c: usize, chosen: bool, chosen_neighbours: u32) -> bool {
+        self.lone_applies[c] && chosen && chosen_neighbours == 0
+    }
+
+    /// Change of the number of lone undersized cells if cell `i` is flipped: `i` itself and
+    /// each of its neighbours may change.
+    fn lone_delta(&self, i: usize) -> i64 {
+        let Some(m) = &self.p.min_reserve else {
+            return 0;
+        };
+        let sel = self.selected[i];
+        let mut d = self.lone(i, !sel, self.chosen_nb[i]) as i64
+            - self.lone(i, sel, self.chosen_nb[i]) as i64;
+        for &j in &m.neighbours[i] {
+            let j = j as usize;
+            let c = self.chosen_nb[j];
+            let c_new = if sel { c - 1 } else { c + 1 };
+            let sj = self.selected[j];
+            d += self.lone(j, sj, c_new) as i64 - self.lone(j, sj, c) as i64;
+        }
+        d
+    }
+
+    /// Chosen cells that currently break the minimum-size rule, ascending.
+    pub fn lone_cells(&self) -> Vec<usize> {
+        (0..self.lone_applies.len())
+            .filter(|&c| self.lone(c, self.selected[c], self.chosen_nb[c]))
+            .collect()
     }
 
     /// Flip cell `i` in or out of the network.
@@ -251,6 +295,12 @@ impl<'a> State<'a> {
             }
             if let Some(q) = self.pos_of[i] {
                 self.pos_count[q] = (self.pos_count[q] as i64 + step) as u32;
+            }
+        }
+        if let Some(m) = &self.p.min_reserve {
+            for &j in &m.neighbours[i] {
+                let c = &mut self.chosen_nb[j as usize];
+                *c = if self.selected[i] { *c - 1 } else { *c + 1 };
             }
         }
         self.selected[i] = !self.selected[i];
