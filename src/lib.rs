@@ -13,6 +13,7 @@
 pub mod assess;
 pub mod bench;
 pub mod climate;
+pub mod compare;
 pub mod demo;
 pub mod export;
 pub mod features;

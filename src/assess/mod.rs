@@ -3,6 +3,7 @@
 
 mod coverage;
 mod edge;
+pub mod network_input;
 mod reserves;
 pub mod shape;
 

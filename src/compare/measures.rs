@@ -1,0 +1,181 @@
+//! The network-level measures a comparison ranks: the one list to extend when a new measure
+//! is wanted.
+
+use crate::assess::{Assessment, Coverage};
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// Which way a measure is better.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Better {
+    /// More is better (coverage).
+    Higher,
+    /// Less is better (cost, area, exposed edge).
+    Lower,
+    /// Neither direction is better in general; the measure is shown but not ranked.
+    Neither,
+}
+
+impl Better {
+    /// The word used in outputs: `higher`, `lower` or `none`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Better::Higher => "higher",
+            Better::Lower => "lower",
+            Better::Neither => "none",
+        }
+    }
+}
+
+/// One measure of one network.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeasureValue {
+    /// Name with its unit where it has one (`area_km2`, `exposed_edge_km`).
+    pub name: String,
+    /// Which way is better.
+    pub better: Better,
+    /// The value.
+    pub value: f64,
+}
+
+fn m(name: impl Into<String>, better: Better, value: f64) -> MeasureValue {
+    MeasureValue {
+        name: name.into(),
+        better,
+        // −0 (a float sum of nothing, e.g. the cost of an empty network) is written as 0.
+        value: value + 0.0,
+    }
+}
+
+/// How much of its target a feature holds, capped at 1 (0–1). A target of zero or less is
+/// held whole by any network, as [`Coverage::met`] counts it met.
+pub fn held_share(c: &Coverage) -> f64 {
+    if c.target > 0.0 {
+        // `+ 0.0` turns −0 (the sum of no amounts) into 0, so outputs never show "-0".
+        (c.held / c.target).clamp(0.0, 1.0) + 0.0
+    } else {
+        1.0
+    }
+}
+
+/// Every network-level measure of one assessment, in output order. Networks assessed under
+/// the same plan get the same names in the same order.
+///
+/// * `cost` (plan cost units), `area_km2`, `share_of_region` (0–1), `cells_selected`,
+///   `exposed_edge_km`: lower is better (a smaller, more compact network for the same
+///   coverage).
+/// * `reserves`: not ranked: fewer reserves are compact, more spread risk; planners weigh it.
+/// * `targets_met`, `mean_held_share` (mean over features of min(held/target, 1)),
+///   `min_held_share` (the worst feature's share; 1 means every target met) and
+///   `targets_met_<kind>` per feature kind present (`habitat`, `leading-edge`, ...,
+///   alphabetical): higher is better. The share measures are left out when the plan has no
+///   features (a mean of nothing is not a number).
+pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
+    let mut out = vec![
+        m("cost", Better::Lower, a.cost),
+        m("area_km2", Better::Lower, a.area_km2),
+        m("share_of_region", Better::Lower, a.share_of_region),
+        m("cells_selected", Better::Lower, a.cells_selected as f64),
+        m("reserves", Better::Neither, a.reserves.len() as f64),
+        m("exposed_edge_km", Better::Lower, a.exposed_edge_km),
+        m("targets_met", Better::Higher, a.targets_met as f64),
+    ];
+    if !a.coverage.is_empty() {
+        // Summed in feature order, so the value is reproducible to the last bit.
+        let shares: Vec<f64> = a.coverage.iter().map(held_share).collect();
+        let mean = shares.iter().sum::<f64>() / shares.len() as f64;
+        let min = shares.iter().copied().fold(f64::INFINITY, f64::min);
+        out.push(m("mean_held_share", Better::Higher, mean));
+        out.push(m("min_held_share", Better::Higher, min));
+    }
+    let mut per_kind: BTreeMap<&str, usize> = BTreeMap::new();
+    for c in &a.coverage {
+        *per_kind.entry(c.kind.as_str()).or_default() += usize::from(c.met);
+    }
+    for (kind, met) in per_kind {
+        out.push(m(format!("targets_met_{kind}"), Better::Higher, met as f64));
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn cov(kind: &str, held: f64, target: f64) -> Coverage {
+        Coverage {
+            feature: format!("{kind}-{held}"),
+            kind: kind.into(),
+            species: None,
+            scenario: None,
+            year: None,
+            total: 10.0,
+            held,
+            target,
+            shortfall: (target - held).max(0.0),
+            met: held >= target,
+        }
+    }
+
+    fn assessment(coverage: Vec<Coverage>) -> Assessment {
+        Assessment {
+            targets_met: coverage.iter().filter(|c| c.met).count(),
+            coverage,
+            cost: 7.5,
+            area_km2: 300.0,
+            share_of_region: 0.25,
+            reserves: vec![],
+            exposed_edge_km: 80.0,
+            boundary_edge_km: 20.0,
+            cells_selected: 3,
+        }
+    }
+
+    #[test]
+    fn shares_and_kind_counts_by_hand() {
+        // Hand computation: held shares min(2/4, 1) = 0.5, min(6/3, 1) = 1, min(0/2, 1) = 0,
+        // zero target → 1. Mean (0.5 + 1 + 0 + 1)/4 = 0.625, min 0.
+        // Met: habitat 6≥3 and 0≥0 → 2 of 3 habitat; refugium 0 of 1.
+        let a = assessment(vec![
+            cov("habitat", 2.0, 4.0),
+            cov("habitat", 6.0, 3.0),
+            cov("refugium", 0.0, 2.0),
+            cov("habitat", 0.0, 0.0),
+        ]);
+        let got: Vec<(String, Better, f64)> = network_measures(&a)
+            .into_iter()
+            .map(|v| (v.name, v.better, v.value))
+            .collect();
+        let want = vec![
+            ("cost", Better::Lower, 7.5),
+            ("area_km2", Better::Lower, 300.0),
+            ("share_of_region", Better::Lower, 0.25),
+            ("cells_selected", Better::Lower, 3.0),
+            ("reserves", Better::Neither, 0.0),
+            ("exposed_edge_km", Better::Lower, 80.0),
+            ("targets_met", Better::Higher, 2.0),
+            ("mean_held_share", Better::Higher, 0.625),
+            ("min_held_share", Better::Higher, 0.0),
+            ("targets_met_habitat", Better::Higher, 2.0),
+            ("targets_met_refugium", Better::Higher, 0.0),
+        ];
+        let want: Vec<(String, Better, f64)> = want
+            .into_iter()
+            .map(|(n, b, v)| (n.to_string(), b, v))
+            .collect();
+        assert_eq!(got, want);
+    }
+
+    #[test]
+    fn no_features_leaves_out_share_measures() {
+        let names: Vec<String> = network_measures(&assessment(vec![]))
+            .into_iter()
+            .map(|v| v.name)
+            .collect();
+        assert!(!names
+            .iter()
+            .any(|n| n.contains("share_") && n.contains("held")));
+        assert_eq!(names.len(), 7);
+    }
+}
