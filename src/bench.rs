@@ -37,6 +37,10 @@ pub struct BenchSpec {
     pub time_limit_s: f64,
     /// Solver relative gap.
     pub gap: f64,
+    /// Edge-penalty weight per km of exposed reserve edge (`None`: no penalty).
+    pub edge_penalty: Option<f64>,
+    /// Also run the greedy and annealing baselines (annealing gets HiGHS's time).
+    pub baselines: bool,
 }
 
 /// Resets the kernel's peak-RSS counter (Linux `clear_refs` value 5), so each stage's peak is
@@ -281,7 +285,9 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             objective: Objective::MinCost,
             robustness: Robustness::EveryScenario,
             budget: Budget::default(),
-            edge_penalty: None,
+            edge_penalty: spec
+                .edge_penalty
+                .map(|w| crate::pipeline::edge_penalty(&grid, w, false)),
             spacing: None,
             scenario_best: None,
             min_reserve: None,
@@ -306,9 +312,42 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     };
     let solution = timed(&mut figures, "solve", || {
         let sol = crate::solve::ilp::Highs::default().solve(&problem, &options)?;
-        let note = format!("{}, gap {:.3}%", sol.status.as_str(), 100.0 * sol.gap);
+        let note = format!(
+            "{}, gap {:.3}%, objective {:.1}",
+            sol.status.as_str(),
+            100.0 * sol.gap,
+            sol.objective
+        );
         Ok((sol, note))
     })?;
+    if spec.baselines {
+        let baseline_note = |sol: &crate::solve::Solution| {
+            let e = crate::model::evaluate(&problem, &sol.selected);
+            format!(
+                "objective {:.1} ({:+.2}% vs HiGHS), cost {:.1}, {}/{} targets met",
+                sol.objective,
+                100.0 * (sol.objective - solution.objective) / solution.objective.abs().max(1e-12),
+                e.cost,
+                e.targets_met,
+                e.met.len()
+            )
+        };
+        progress("bench: greedy baseline");
+        timed(&mut figures, "greedy", || {
+            let sol = crate::solve::greedy::Greedy.solve(&problem, &options)?;
+            Ok(((), baseline_note(&sol)))
+        })?;
+        progress("bench: annealing baseline (HiGHS's time)");
+        timed(&mut figures, "anneal (same time)", || {
+            let same_time = SolveOptions {
+                time_limit_s: Some(solution.seconds),
+                ..options.clone()
+            };
+            let sol =
+                crate::solve::anneal::Anneal { iterations: None }.solve(&problem, &same_time)?;
+            Ok(((), baseline_note(&sol)))
+        })?;
+    }
 
     let assessment = timed(&mut figures, "assess", || {
         let a = crate::assess::assess(&grid, &features, &problem.cost, &solution.selected);

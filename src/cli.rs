@@ -100,6 +100,13 @@ enum Command {
         /// Solver relative gap.
         #[arg(long, default_value_t = 0.01)]
         gap: f64,
+        /// Edge-penalty weight per km of exposed reserve edge (off when not given).
+        #[arg(long, value_name = "WEIGHT")]
+        edge_penalty: Option<f64>,
+        /// Also run the greedy and simulated-annealing baselines (annealing gets the time
+        /// HiGHS took), to show what the exact solve buys.
+        #[arg(long)]
+        baselines: bool,
     },
     /// The whole run: grid → features → optimise → assess → export.
     ///
@@ -223,6 +230,8 @@ pub fn run(args: Args) -> Result<()> {
             species,
             time_limit,
             gap,
+            edge_penalty,
+            baselines,
         } => {
             println!(
                 "{:>9}  {:<24} {:>9} {:>10}  note",
@@ -235,6 +244,8 @@ pub fn run(args: Args) -> Result<()> {
                     species,
                     time_limit_s: time_limit,
                     gap,
+                    edge_penalty,
+                    baselines,
                 };
                 for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
                     println!(

@@ -32,7 +32,8 @@ fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Cov
         .iter()
         .filter(|(c, _)| is_chosen(selected, *c))
         .map(|(_, a)| a)
-        .sum();
+        .sum::<f64>()
+        + 0.0; // an empty f64 sum is −0.0; + 0.0 makes it 0 so outputs never say "-0"
     let target = f.target.amount(f.total);
     let met = held >= target - MET_REL_TOL * target.abs();
     Coverage {

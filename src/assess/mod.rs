@@ -99,8 +99,9 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
     let area_km2: f64 = chosen
         .iter()
         .map(|&i| grid.cells[i as usize].sea_area_km2)
-        .sum();
-    let total_cost: f64 = chosen.iter().map(|&i| cost_of(cost, i)).sum();
+        .sum::<f64>()
+        + 0.0; // an empty f64 sum is −0.0; + 0.0 makes it 0 so outputs never say "-0"
+    let total_cost: f64 = chosen.iter().map(|&i| cost_of(cost, i)).sum::<f64>() + 0.0;
     let share_of_region = if grid.sea_area_km2 > 0.0 {
         area_km2 / grid.sea_area_km2
     } else {

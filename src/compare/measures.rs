@@ -65,6 +65,9 @@ pub fn held_share(c: &Coverage) -> f64 {
 /// * `cost` (plan cost units), `area_km2`, `share_of_region` (0–1), `cells_selected`,
 ///   `exposed_edge_km`: lower is better (a smaller, more compact network for the same
 ///   coverage).
+/// * `compactness_ratio` (reserve edge over circle perimeters, 1 = circle) and
+///   `largest_gap_km` (widest step along the poleward axis between chosen cells): lower is
+///   better.
 /// * `reserves`: not ranked: fewer reserves are compact, more spread risk; planners weigh it.
 /// * `targets_met`, `mean_held_share` (mean over features of min(held/target, 1)),
 ///   `min_held_share` (the worst feature's share; 1 means every target met) and
@@ -79,6 +82,8 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
         m("cells_selected", Better::Lower, a.cells_selected as f64),
         m("reserves", Better::Neither, a.reserves.len() as f64),
         m("exposed_edge_km", Better::Lower, a.exposed_edge_km),
+        m("compactness_ratio", Better::Lower, a.compactness_ratio),
+        m("largest_gap_km", Better::Lower, a.largest_gap_km),
         m("targets_met", Better::Higher, a.targets_met as f64),
     ];
     if !a.coverage.is_empty() {
@@ -129,6 +134,8 @@ mod tests {
             exposed_edge_km: 80.0,
             boundary_edge_km: 20.0,
             cells_selected: 3,
+            compactness_ratio: 1.5,
+            largest_gap_km: 12.0,
         }
     }
 
@@ -154,6 +161,8 @@ mod tests {
             ("cells_selected", Better::Lower, 3.0),
             ("reserves", Better::Neither, 0.0),
             ("exposed_edge_km", Better::Lower, 80.0),
+            ("compactness_ratio", Better::Lower, 1.5),
+            ("largest_gap_km", Better::Lower, 12.0),
             ("targets_met", Better::Higher, 2.0),
             ("mean_held_share", Better::Higher, 0.625),
             ("min_held_share", Better::Higher, 0.0),
@@ -176,6 +185,6 @@ mod tests {
         assert!(!names
             .iter()
             .any(|n| n.contains("share_") && n.contains("held")));
-        assert_eq!(names.len(), 7);
+        assert_eq!(names.len(), 9);
     }
 }
