@@ -40,7 +40,7 @@ impl MapFrame {
     }
 
     /// Projected metres → SVG units (y grows downwards in SVG).
-    pub(crate) fn to_svg(&self, x: f64, y: f64) -> (f64, f64) {
+    pub(crate) fn to_svg(self, x: f64, y: f64) -> (f64, f64) {
         (
             PAD + (x - self.min_x) * self.scale,
             PAD + (self.max_y - y) * self.scale,
@@ -49,7 +49,7 @@ impl MapFrame {
 
     /// SVG units → projected metres (the inverse of [`MapFrame::to_svg`]).
     #[cfg(test)]
-    pub(crate) fn to_metres(&self, u: f64, v: f64) -> (f64, f64) {
+    pub(crate) fn to_metres(self, u: f64, v: f64) -> (f64, f64) {
         (
             self.min_x + (u - PAD) / self.scale,
             self.max_y - (v - PAD) / self.scale,

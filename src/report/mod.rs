@@ -111,10 +111,10 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"><title>{t} · driftplan report</title><style>{STYLE}</style></head><body>\n",
         t = esc(input.title)
     );
-    let _ = write!(s, "<h1>{}</h1>\n", esc(input.title));
-    let _ = write!(
+    let _ = writeln!(s, "<h1>{}</h1>", esc(input.title));
+    let _ = writeln!(
         s,
-        "<p class=\"caution\" role=\"note\"><strong>Caution.</strong> {}</p>\n",
+        "<p class=\"caution\" role=\"note\"><strong>Caution.</strong> {}</p>",
         esc(CAUTION)
     );
     s.push_str("<h2>Run facts</h2>\n");
