@@ -22,4 +22,5 @@ pub mod layers;
 pub mod model;
 pub mod pipeline;
 pub mod plan;
+pub mod report;
 pub mod solve;

@@ -6,7 +6,7 @@
 
 pub mod atomic;
 mod columns;
-mod dissolve;
+pub(crate) mod dissolve;
 mod features_table;
 pub mod geojson;
 mod rings;

@@ -1,0 +1,449 @@
+//! `report.html`, checked from outside: reserve outlines re-read from `network.geojson` by the
+//! `geojson` crate and compared with the SVG paths, and the page rendered by headless Chromium
+//! (console free of errors, screenshot decoded by the `png` crate and not blank).
+
+use driftplan::assess::{assess, Assessment};
+use driftplan::export::{network_geojson, write_outputs};
+use driftplan::features::{Feature, FeatureKind, FeatureTable, Target};
+use driftplan::grid::{Crs, Grid};
+use driftplan::model::CellStatus;
+use driftplan::report::{report_html, ReportInput, StressCell, StressTable, SweepPoint};
+use geo::polygon;
+use geojson::{GeoJson, GeometryValue};
+use std::path::Path;
+use std::process::{Command, Stdio};
+use std::str::FromStr;
+use std::time::{Duration, Instant};
+
+/// 10 km cells, 10×10, on a Lambert azimuthal equal-area projection centred at 10°E 55°N.
+fn grid() -> Grid {
+    Grid::full_rectangle(
+        Crs::auto_laea(10.0, 55.0),
+        10_000.0,
+        [-50_000.0, -50_000.0],
+        10,
+        10,
+    )
+    .unwrap()
+}
+
+fn id(col: u32, row: u32) -> u32 {
+    row * 10 + col
+}
+
+/// Four reserves: a ring around a hole, a block whose hole touches the exterior at a
+/// corner, a coastal pair with one cell clipped to a triangle, and a lone cell.
+fn network(g: &mut Grid) -> Vec<bool> {
+    let mut sel = vec![false; g.len()];
+    for r in 1..=3 {
+        for c in 1..=3 {
+            if (c, r) != (2, 2) {
+                sel[id(c, r) as usize] = true;
+            }
+        }
+    }
+    for (c, r) in [(6, 6), (7, 6), (8, 6), (6, 7), (8, 7), (6, 8), (7, 8)] {
+        sel[id(c, r) as usize] = true;
+    }
+    sel[id(5, 0) as usize] = true;
+    sel[id(6, 0) as usize] = true;
+    sel[id(4, 4) as usize] = true;
+    let sq = g.cell_square(id(5, 0));
+    let (a, b) = (sq.min(), sq.max());
+    let c = &mut g.cells[id(5, 0) as usize];
+    c.clipped = Some(geo::MultiPolygon(vec![polygon![
+        (x: a.x, y: a.y), (x: b.x, y: a.y), (x: b.x, y: b.y), (x: a.x, y: a.y)
+    ]]));
+    c.sea_area_km2 = 50.0;
+    g.sea_area_km2 -= 50.0;
+    sel
+}
+
+/// Two species × two scenarios × three years of habitat, amounts shifting north with time.
+fn features() -> FeatureTable {
+    let scenarios = vec!["ssp1-2.6".to_string(), "ssp5-8.5".to_string()];
+    let mut fs = Vec::new();
+    for (s, _) in scenarios.iter().enumerate() {
+        for (k, year) in [2030, 2050, 2070].into_iter().enumerate() {
+            for (sp, col) in [("silver-bream", 2u32), ("sand-eel", 7u32)] {
+                let row = (k as u32 * (1 + s as u32) * 2).min(9);
+                let amounts: Vec<(u32, f64)> = vec![(id(col, row), 50.0), (id(col, 9), 50.0)];
+                fs.push(Feature {
+                    name: format!("habitat/{sp}/{}/{year}", scenarios[s]),
+                    kind: FeatureKind::Habitat,
+                    species: Some(sp.into()),
+                    scenario: Some(s),
+                    year: Some(year),
+                    unit: "km2".into(),
+                    amounts,
+                    total: 100.0,
+                    target: Target::Share(0.3),
+                    weight: 1.0,
+                });
+            }
+        }
+    }
+    FeatureTable {
+        scenarios,
+        years: vec![2030, 2050, 2070],
+        features: fs,
+    }
+}
+
+fn setup() -> (Grid, Vec<bool>, Vec<CellStatus>, Assessment) {
+    let mut g = grid();
+    let sel = network(&mut g);
+    let cost: Vec<f64> = (0..g.len()).map(|i| 1.0 + i as f64 / 100.0).collect();
+    let a = assess(&g, &features(), &cost, &sel);
+    let mut status = vec![CellStatus::Free; g.len()];
+    status[id(1, 1) as usize] = CellStatus::Required;
+    status[id(4, 4) as usize] = CellStatus::Required;
+    for c in 0..10 {
+        status[id(c, 5) as usize] = CellStatus::Excluded;
+    }
+    (g, sel, status, a)
+}
+
+fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> String {
+    let velocity: Vec<f64> = g
+        .cells
+        .iter()
+        .map(|c| c.row as f64 * 0.5 + c.col as f64 * 0.1)
+        .collect();
+    let mut refugium: Vec<f64> = g
+        .cells
+        .iter()
+        .map(|c| ((c.col * 7 + c.row * 3) % 10) as f64)
+        .collect();
+    refugium[0] = f64::NAN;
+    let cell = |m, b| StressCell {
+        targets_met: m,
+        targets_total: 6,
+        benefit: b,
+    };
+    report_html(&ReportInput {
+        title: "North <Sea> & Skagerrak",
+        facts: vec![
+            ("plan hash".into(), "3f2a…".into()),
+            ("solver".into(), "HiGHS".into()),
+            ("status".into(), "optimal".into()),
+            ("gap".into(), "0 %".into()),
+            ("cost".into(), format!("{:.2}", a.cost)),
+            ("reserves".into(), a.reserves.len().to_string()),
+            (
+                "targets met".into(),
+                format!("{} of {}", a.targets_met, a.coverage.len()),
+            ),
+        ],
+        grid: g,
+        selected: sel,
+        status,
+        reserves: &a.reserves,
+        feature_maps: vec![
+            ("velocity (km/yr)".into(), velocity),
+            ("refugium".into(), refugium),
+        ],
+        coverage: &a.coverage,
+        stress: Some(StressTable {
+            designed_for: vec![
+                "ssp1-2.6".into(),
+                "ssp5-8.5".into(),
+                "every-scenario".into(),
+            ],
+            evaluated_in: vec!["ssp1-2.6".into(), "ssp5-8.5".into()],
+            cells: vec![
+                vec![cell(6, 1.0), cell(3, 0.6)],
+                vec![cell(4, 0.8), cell(6, 1.0)],
+                vec![cell(6, 1.0), cell(6, 1.0)],
+            ],
+        }),
+        sweep: Some(vec![
+            SweepPoint {
+                budget_share: 0.1,
+                cost: 12.0,
+                benefit: 0.41,
+                gap: 0.0,
+            },
+            SweepPoint {
+                budget_share: 0.2,
+                cost: 23.5,
+                benefit: 0.72,
+                gap: 0.002,
+            },
+            SweepPoint {
+                budget_share: 0.3,
+                cost: 35.0,
+                benefit: 0.93,
+                gap: 0.0,
+            },
+        ]),
+    })
+    .unwrap()
+}
+
+/// Path data of the SVG element carrying `marker`.
+fn path_after<'a>(html: &'a str, marker: &str) -> &'a str {
+    let at = html
+        .find(marker)
+        .unwrap_or_else(|| panic!("no `{marker}` in the report"));
+    let d0 = html[at..].find(" d=\"").unwrap() + at + 4;
+    let d1 = html[d0..].find('"').unwrap() + d0;
+    &html[d0..d1]
+}
+
+/// `M…L…Z` path data → rings of SVG points.
+fn parse_path(d: &str) -> Vec<Vec<[f64; 2]>> {
+    d.split('Z')
+        .filter(|p| !p.is_empty())
+        .map(|sub| {
+            sub.trim_start_matches('M')
+                .split('L')
+                .map(|pt| {
+                    let v: Vec<f64> = pt.split(' ').map(|x| x.parse().unwrap()).collect();
+                    [v[0], v[1]]
+                })
+                .collect()
+        })
+        .collect()
+}
+
+fn near_segment(p: [f64; 2], a: [f64; 2], b: [f64; 2], tol: f64) -> bool {
+    let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+    let len2 = dx * dx + dy * dy;
+    let t = if len2 > 0.0 {
+        (((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    (p[0] - a[0] - t * dx).hypot(p[1] - a[1] - t * dy) <= tol
+}
+
+/// Same start, same vertices in the same order; GeoJSON may hold extra points along an edge
+/// (its densification before unprojecting).
+fn assert_same_ring(geo: &[[f64; 2]], svg: &[[f64; 2]], tol: f64) {
+    let close = |p: [f64; 2], q: [f64; 2]| (p[0] - q[0]).hypot(p[1] - q[1]) <= tol;
+    let mut q = svg.to_vec();
+    q.push(svg[0]);
+    assert!(close(geo[0], q[0]), "start {:?} vs {:?}", geo[0], q[0]);
+    let mut j = 0;
+    for &p in &geo[1..] {
+        if j + 1 < q.len() && close(p, q[j + 1]) {
+            j += 1;
+        } else {
+            assert!(
+                j + 1 < q.len() && near_segment(p, q[j], q[j + 1], tol),
+                "GeoJSON point {p:?} is off SVG edge {j}"
+            );
+        }
+    }
+    assert_eq!(j, q.len() - 1, "SVG ring has vertices GeoJSON lacks");
+}
+
+#[test]
+fn svg_reserves_are_the_network_geojson_rings() {
+    let (g, sel, status, a) = setup();
+    let html = render(&g, &sel, &status, &a);
+    let gj = network_geojson(&g, &a).unwrap();
+    let GeoJson::FeatureCollection(fc) = GeoJson::from_str(&gj).unwrap() else {
+        panic!("not a FeatureCollection")
+    };
+    assert_eq!(fc.features.len(), 4);
+    // The network map fits the 100 km × 100 km lattice into 800 × 800 SVG units with a
+    // 10-unit margin: u = 10 + (x + 50 000) · 0.008, v = 10 + (50 000 − y) · 0.008 (hand).
+    let scale = 800.0 / 100_000.0;
+    let to_metres = |p: [f64; 2]| {
+        [
+            (p[0] - 10.0) / scale - 50_000.0,
+            50_000.0 - (p[1] - 10.0) / scale,
+        ]
+    };
+    // 0.05 units of SVG rounding = 6.25 m; 6-decimal lon/lat adds ≈ 0.1 m.
+    let tol = 0.06 / scale;
+    let projector = g.projector().unwrap();
+    let mut holes = 0;
+    for (k, f) in fc.features.iter().enumerate() {
+        let svg_rings: Vec<Vec<[f64; 2]>> =
+            parse_path(path_after(&html, &format!("data-reserve=\"{}\"", k + 1)))
+                .into_iter()
+                .map(|r| r.into_iter().map(to_metres).collect())
+                .collect();
+        let polys: Vec<Vec<Vec<geojson::Position>>> = match &f.geometry.as_ref().unwrap().value {
+            GeometryValue::Polygon { coordinates } => vec![coordinates.clone()],
+            GeometryValue::MultiPolygon { coordinates } => coordinates.clone(),
+            other => panic!("unexpected {}", other.type_name()),
+        };
+        let geo_rings: Vec<&Vec<geojson::Position>> = polys.iter().flatten().collect();
+        assert_eq!(geo_rings.len(), svg_rings.len(), "reserve {}", k + 1);
+        holes += polys.iter().map(|p| p.len() - 1).sum::<usize>();
+        for (ring, svg_ring) in geo_rings.iter().zip(&svg_rings) {
+            let metres: Vec<[f64; 2]> = ring
+                .iter()
+                .map(|p| projector.to_xy(p[0], p[1]).unwrap())
+                .collect();
+            assert_same_ring(&metres, svg_ring, tol);
+        }
+    }
+    // Hand: reserve A has one hole, reserve B one (touching its exterior at a corner).
+    assert_eq!(holes, 2);
+    // Scale bar: 100 km wide → a quarter is 25 km → 20 km bar of 20 000 × 0.008 = 160 units.
+    assert!(
+        html.contains(r#"data-km="20" data-svg-length="160""#),
+        "scale bar"
+    );
+    for bad in ["http://", "https://", "<script"] {
+        assert!(!html.contains(bad), "report contains `{bad}`");
+    }
+}
+
+/// Runs a command with a deadline; returns (status ok, stdout, stderr).
+fn run_with_deadline(cmd: &mut Command, limit: Duration) -> (bool, String, String) {
+    let out_file = tempfile::NamedTempFile::new().unwrap();
+    let err_file = tempfile::NamedTempFile::new().unwrap();
+    let mut child = cmd
+        .stdin(Stdio::null())
+        .stdout(out_file.reopen().unwrap())
+        .stderr(err_file.reopen().unwrap())
+        .spawn()
+        .expect("chromium starts");
+    let start = Instant::now();
+    let ok = loop {
+        if let Some(s) = child.try_wait().unwrap() {
+            break s.success();
+        }
+        if start.elapsed() > limit {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("chromium did not finish within {limit:?}");
+        }
+        std::thread::sleep(Duration::from_millis(100));
+    };
+    (
+        ok,
+        std::fs::read_to_string(out_file.path()).unwrap_or_default(),
+        std::fs::read_to_string(err_file.path()).unwrap_or_default(),
+    )
+}
+
+fn chromium(profile: &Path, extra: &[String], page: &Path) -> (bool, String, String) {
+    let mut cmd = Command::new("chromium");
+    cmd.args([
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-background-networking",
+        "--disable-extensions",
+        "--no-first-run",
+        "--hide-scrollbars",
+        "--window-size=1200,2000",
+        "--enable-logging=stderr",
+        "--v=0",
+    ])
+    .arg(format!("--user-data-dir={}", profile.display()))
+    .args(extra)
+    .arg(format!("file://{}", page.display()));
+    run_with_deadline(&mut cmd, Duration::from_secs(120))
+}
+
+/// Page console messages. Chromium logs every console message, of any level, as an
+/// `INFO:CONSOLE` line (so "ERROR" alone would miss `console.error`); the report runs no
+/// script, so any console line (a failed load, a parse or security complaint) is a fault.
+fn console_lines(stderr: &str) -> Vec<&str> {
+    stderr.lines().filter(|l| l.contains(":CONSOLE")).collect()
+}
+
+/// Decodes a PNG and returns (non-white share of pixels, distinct colours).
+fn png_stats(path: &Path) -> (f64, usize) {
+    let file = std::io::BufReader::new(std::fs::File::open(path).unwrap());
+    let mut decoder = png::Decoder::new(file);
+    decoder.set_transformations(png::Transformations::EXPAND | png::Transformations::STRIP_16);
+    let mut reader = decoder.read_info().unwrap();
+    let mut buf = vec![0; reader.output_buffer_size().unwrap()];
+    let info = reader.next_frame(&mut buf).unwrap();
+    let channels = info.color_type.samples();
+    assert!(
+        channels >= 3,
+        "expected a colour screenshot, got {:?}",
+        info.color_type
+    );
+    let mut colours = std::collections::BTreeSet::new();
+    let mut non_white = 0usize;
+    let n = (info.width * info.height) as usize;
+    for y in 0..info.height as usize {
+        let row = &buf[y * info.line_size..(y + 1) * info.line_size];
+        for px in row.chunks_exact(channels).take(info.width as usize) {
+            let rgb = [px[0], px[1], px[2]];
+            if rgb != [255, 255, 255] {
+                non_white += 1;
+            }
+            colours.insert(rgb);
+        }
+    }
+    (non_white as f64 / n as f64, colours.len())
+}
+
+#[test]
+fn chromium_renders_the_report() {
+    let have = Command::new("chromium")
+        .arg("--version")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !have {
+        assert!(
+            std::env::var("DRIFTPLAN_REQUIRE_CHROMIUM").as_deref() != Ok("1"),
+            "DRIFTPLAN_REQUIRE_CHROMIUM=1 but `chromium` is not on PATH"
+        );
+        eprintln!("note: `chromium` not found; skipping the rendering check");
+        return;
+    }
+    let (g, sel, status, a) = setup();
+    let html = render(&g, &sel, &status, &a);
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("out");
+    write_outputs(&dir, &[("report.html", html)]).unwrap();
+    let page = dir.join("report.html");
+    let shot = tmp.path().join("shot.png");
+
+    // The console check can fail: a page that logs an error is caught.
+    let bad = tmp.path().join("bad.html");
+    std::fs::write(
+        &bad,
+        "<!DOCTYPE html><p>x</p><script>console.error('deliberate failure')</script>",
+    )
+    .unwrap();
+    let (_, dom, err) = chromium(&tmp.path().join("p0"), &["--dump-dom".into()], &bad);
+    assert!(
+        dom.contains("<p>x</p>"),
+        "chromium --dump-dom printed: {dom}"
+    );
+    assert!(
+        !console_lines(&err).is_empty(),
+        "a console error went unseen:\n{err}"
+    );
+
+    let (ok, dom, err) = chromium(&tmp.path().join("p1"), &["--dump-dom".into()], &page);
+    assert!(ok, "chromium --dump-dom failed:\n{err}");
+    assert!(console_lines(&err).is_empty(), "console errors:\n{err}");
+    // Hand: one network map, two feature maps, two coverage charts (one per scenario) and
+    // one sweep chart = 6 SVG elements; the DOM holds all four reserves.
+    assert_eq!(dom.matches("<svg").count(), 6, "{dom}");
+    assert_eq!(dom.matches("class=\"reserve\"").count(), 4);
+
+    let (ok, _, err) = chromium(
+        &tmp.path().join("p2"),
+        &[format!("--screenshot={}", shot.display())],
+        &page,
+    );
+    assert!(ok, "chromium --screenshot failed:\n{err}");
+    assert!(console_lines(&err).is_empty(), "console errors:\n{err}");
+    let (non_white, colours) = png_stats(&shot);
+    // Maps and charts fill a good part of a 1200 × 2000 page; a blank or failed render is
+    // all white or one colour.
+    assert!(
+        non_white > 0.05,
+        "only {:.1}% of pixels are not white",
+        100.0 * non_white
+    );
+    assert!(colours > 50, "only {colours} distinct colours");
+}
