@@ -110,10 +110,78 @@ enum Command {
     },
     /// The whole run: grid → features → optimise → assess → export.
     ///
-    /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv and summary.json.
+    /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
+    /// stress.csv (each scenario solved alone and the network scored in every scenario) and
+    /// report.html.
     Solve {
         /// The plan file (TOML).
         plan: PathBuf,
+        /// Output folder.
+        #[arg(long)]
+        out: PathBuf,
+        #[command(flatten)]
+        solver: SolverArgs,
+        /// Skip the scenario stress test (one extra solve per scenario).
+        #[arg(long)]
+        no_stress: bool,
+    },
+    /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
+    ///
+    /// Writes coverage.csv, assessment.json, network.geojson (the cells as reserves),
+    /// stress.csv and report.html.
+    Assess {
+        /// The plan file (TOML).
+        plan: PathBuf,
+        /// The network: GeoJSON (Multi)Polygons in lon/lat, or CSV with a `cell` column.
+        network: PathBuf,
+        /// Output folder.
+        #[arg(long)]
+        out: PathBuf,
+        /// A cell counts as chosen when at least this share of its sea area lies inside the
+        /// network's polygons (GeoJSON only).
+        #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
+        min_share: f64,
+        /// Skip the scenario stress test (one extra solve per scenario).
+        #[arg(long)]
+        no_stress: bool,
+        #[command(flatten)]
+        solver: SolverArgs,
+    },
+    /// Assess several networks side by side: a table, compare.csv, compare.json, stress.csv.
+    Compare {
+        /// The plan file (TOML).
+        plan: PathBuf,
+        /// Two or more networks (GeoJSON polygons or cell-id CSV).
+        #[arg(required = true, num_args = 1..)]
+        networks: Vec<PathBuf>,
+        /// Output folder.
+        #[arg(long)]
+        out: PathBuf,
+        /// Names for the networks, comma-separated, in order (default: file stems).
+        #[arg(long, value_delimiter = ',')]
+        names: Vec<String>,
+        /// A cell counts as chosen when at least this share of its sea area lies inside the
+        /// network's polygons (GeoJSON only).
+        #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
+        min_share: f64,
+        /// Skip the scenario stress test (one extra solve per scenario).
+        #[arg(long)]
+        no_stress: bool,
+        #[command(flatten)]
+        solver: SolverArgs,
+    },
+    /// One max-benefit solve per budget: the cost–benefit curve, the budget at which each
+    /// target is first met, and how often each cell is chosen.
+    ///
+    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson
+    /// and report.html. Budgets are shares of the region's sea area; `...` continues an even
+    /// step (`5%,10%,...,40%`).
+    Sweep {
+        /// The plan file (TOML).
+        plan: PathBuf,
+        /// Budgets, e.g. `5%,10%,...,40%` or `0.05,0.1`.
+        #[arg(long, default_value = "5%,10%,...,40%")]
+        budgets: String,
         /// Output folder.
         #[arg(long)]
         out: PathBuf,
@@ -130,6 +198,31 @@ struct Progress {
 }
 
 impl Progress {
+    /// A progress bar on stderr, hidden with `--quiet` or when stderr is not a terminal.
+    fn bar(&self, len: u64, what: &str) -> indicatif::ProgressBar {
+        if self.quiet || !std::io::stderr().is_terminal() {
+            return indicatif::ProgressBar::hidden();
+        }
+        let bar = indicatif::ProgressBar::new(len);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template("{bar:30} {pos}/{len} {msg} ({elapsed})")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        bar.set_message(what.to_string());
+        bar
+    }
+
+    /// A spinner for one long step, hidden like [`Progress::bar`].
+    fn spinner(&self, what: &str) -> indicatif::ProgressBar {
+        if self.quiet || !std::io::stderr().is_terminal() {
+            return indicatif::ProgressBar::hidden();
+        }
+        let s = indicatif::ProgressBar::new_spinner();
+        s.set_message(what.to_string());
+        s.enable_steady_tick(std::time::Duration::from_millis(200));
+        s
+    }
+
     fn new(quiet: bool) -> Progress {
         Progress {
             quiet,
@@ -166,7 +259,7 @@ pub fn run(args: Args) -> Result<()> {
             if data_only {
                 return Ok(());
             }
-            solve(&plan_path, &out, &solver, &progress)
+            solve(&plan_path, &out, &solver, false, &progress)
         }
         Command::Check { plan } => check(&plan, &progress),
         Command::Grid { plan, out } => {
@@ -224,7 +317,39 @@ pub fn run(args: Args) -> Result<()> {
             ));
             Ok(())
         }
-        Command::Solve { plan, out, solver } => solve(&plan, &out, &solver, &progress),
+        Command::Solve {
+            plan,
+            out,
+            solver,
+            no_stress,
+        } => solve(&plan, &out, &solver, no_stress, &progress),
+        Command::Assess {
+            plan,
+            network,
+            out,
+            min_share,
+            no_stress,
+            solver,
+        } => assess(
+            &plan, &network, &out, min_share, no_stress, &solver, &progress,
+        ),
+        Command::Compare {
+            plan,
+            networks,
+            out,
+            names,
+            min_share,
+            no_stress,
+            solver,
+        } => compare(
+            &plan, &networks, &names, &out, min_share, no_stress, &solver, &progress,
+        ),
+        Command::Sweep {
+            plan,
+            budgets,
+            out,
+            solver,
+        } => sweep(&plan, &budgets, &out, &solver, &progress),
         Command::Bench {
             cells,
             species,
@@ -281,11 +406,9 @@ fn check(path: &Path, progress: &Progress) -> Result<()> {
     Ok(())
 }
 
-fn solve(plan_path: &Path, out: &Path, solver: &SolverArgs, progress: &Progress) -> Result<()> {
-    let plan = load(plan_path)?;
-    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
-    let problem = pipeline::problem(&plan, &inputs);
-    let mut options = pipeline::solve_options(&plan);
+/// Solver options from the plan with the command line's overrides.
+fn solve_options(plan: &Plan, solver: &SolverArgs) -> Result<driftplan::solve::SolveOptions> {
+    let mut options = pipeline::solve_options(plan);
     if let Some(t) = solver.time_limit {
         anyhow::ensure!(
             t.is_finite() && t > 0.0,
@@ -305,6 +428,41 @@ fn solve(plan_path: &Path, out: &Path, solver: &SolverArgs, progress: &Progress)
         options.threads = Some(n);
     }
     options.verbose = solver.solver_log;
+    Ok(options)
+}
+
+/// The stress test with a progress bar (skipped with one scenario or when asked).
+fn stress(
+    problem: &driftplan::model::Problem,
+    given: &[(String, Vec<bool>)],
+    options: &driftplan::solve::SolveOptions,
+    skip: bool,
+    progress: &Progress,
+) -> Result<Option<driftplan::study::StressMatrix>> {
+    if skip || problem.scenarios.len() < 2 {
+        return Ok(None);
+    }
+    progress.say(&format!(
+        "stress test: solving each of {} scenarios alone",
+        problem.scenarios.len()
+    ));
+    let bar = progress.bar(problem.scenarios.len() as u64, "scenario solves");
+    let m = driftplan::study::stress_test(problem, given, options, &|| bar.inc(1))?;
+    bar.finish_and_clear();
+    Ok(Some(m))
+}
+
+fn solve(
+    plan_path: &Path,
+    out: &Path,
+    solver: &SolverArgs,
+    no_stress: bool,
+    progress: &Progress,
+) -> Result<()> {
+    let plan = load(plan_path)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let mut problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, solver)?;
     progress.say(&format!(
         "optimising with HiGHS: {} cells, {} feature targets{}",
         problem.n_cells(),
@@ -314,10 +472,289 @@ fn solve(plan_path: &Path, out: &Path, solver: &SolverArgs, progress: &Progress)
             .map(|t| format!(", time limit {t} s"))
             .unwrap_or_default()
     ));
+    let spinner = progress.spinner("solving");
     let solution = pipeline::optimise(&problem, &options)?;
+    spinner.finish_and_clear();
     let assessment = pipeline::assess_network(&inputs, &solution.selected);
+    problem.scenario_best = solution.scenario_best.clone();
+    let label = if problem.scenarios.len() > 1 {
+        format!("robust ({})", plan.robustness.as_str())
+    } else {
+        "plan".to_string()
+    };
+    let matrix = stress(
+        &problem,
+        &[(label, solution.selected.clone())],
+        &options,
+        no_stress,
+        progress,
+    )?;
     write_solution(&plan, &inputs, &solution, &assessment, out)?;
+    let mut files = vec![(
+        "report.html",
+        pipeline::report_html(
+            &plan,
+            &inputs,
+            &solution.selected,
+            &assessment,
+            Some(&solution),
+            matrix.as_ref(),
+            None,
+        )?,
+    )];
+    if let Some(m) = &matrix {
+        files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
+    }
+    export::write_outputs(out, &files)?;
     print_summary(&plan, &inputs, &solution, &assessment, out);
+    if let Some(m) = &matrix {
+        println!("  stress test (targets met; rows: designed for, columns: evaluated in)");
+        for line in driftplan::study::stress::stress_table(m).lines() {
+            println!("    {line}");
+        }
+    }
+    Ok(())
+}
+
+/// Reads a network file into one flag per cell.
+fn read_network(path: &Path, inputs: &Inputs, min_share: f64) -> Result<Vec<bool>> {
+    Ok(driftplan::assess::network_input::read_network(
+        path,
+        &inputs.grid,
+        min_share,
+    )?)
+}
+
+fn assess(
+    plan_path: &Path,
+    network: &Path,
+    out: &Path,
+    min_share: f64,
+    no_stress: bool,
+    solver: &SolverArgs,
+    progress: &Progress,
+) -> Result<()> {
+    let plan = load(plan_path)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let selected = read_network(network, &inputs, min_share)?;
+    let a = pipeline::assess_network(&inputs, &selected);
+    let name = file_stem(network);
+    let problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, solver)?;
+    let matrix = stress(
+        &problem,
+        &[(name.clone(), selected.clone())],
+        &options,
+        no_stress,
+        progress,
+    )?;
+    let cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    let mut files = vec![
+        ("coverage.csv", export::coverage_csv(&a)),
+        ("assessment.json", driftplan::compare::compare_json(&cmp)),
+        (
+            "network.geojson",
+            export::geojson::network_geojson(&inputs.grid, &a)?,
+        ),
+        (
+            "report.html",
+            pipeline::report_html(&plan, &inputs, &selected, &a, None, matrix.as_ref(), None)?,
+        ),
+    ];
+    if let Some(m) = &matrix {
+        files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
+    }
+    export::write_outputs(out, &files)?;
+    println!(
+        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} of {} targets met",
+        a.cells_selected,
+        a.cost,
+        a.area_km2,
+        100.0 * a.share_of_region,
+        a.reserves.len(),
+        a.targets_met,
+        a.coverage.len()
+    );
+    if let Some(m) = &matrix {
+        print!("{}", driftplan::study::stress::stress_table(m));
+    }
+    println!("  outputs {}", out.display());
+    println!("{}", export::CAUTION);
+    Ok(())
+}
+
+fn file_stem(p: &Path) -> String {
+    p.file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| p.display().to_string())
+}
+
+#[allow(clippy::too_many_arguments)]
+fn compare(
+    plan_path: &Path,
+    networks: &[PathBuf],
+    names: &[String],
+    out: &Path,
+    min_share: f64,
+    no_stress: bool,
+    solver: &SolverArgs,
+    progress: &Progress,
+) -> Result<()> {
+    anyhow::ensure!(
+        names.is_empty() || names.len() == networks.len(),
+        "--names gives {} names for {} networks; give one name per network, in order",
+        names.len(),
+        networks.len()
+    );
+    let plan = load(plan_path)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let mut given = Vec::new();
+    for (i, path) in networks.iter().enumerate() {
+        let name = names.get(i).cloned().unwrap_or_else(|| file_stem(path));
+        given.push((name, read_network(path, &inputs, min_share)?));
+    }
+    let assessments: Vec<driftplan::assess::Assessment> = given
+        .iter()
+        .map(|(_, sel)| pipeline::assess_network(&inputs, sel))
+        .collect();
+    let named: Vec<(String, &driftplan::assess::Assessment)> = given
+        .iter()
+        .zip(&assessments)
+        .map(|((n, _), a)| (n.clone(), a))
+        .collect();
+    let cmp = driftplan::compare::compare(&named)?;
+    let problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, solver)?;
+    let matrix = stress(&problem, &given, &options, no_stress, progress)?;
+    let mut files = vec![
+        ("compare.csv", driftplan::compare::compare_csv(&cmp)),
+        ("compare.json", driftplan::compare::compare_json(&cmp)),
+    ];
+    if let Some(m) = &matrix {
+        files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
+    }
+    export::write_outputs(out, &files)?;
+    print!("{}", driftplan::compare::compare_table(&cmp));
+    if let Some(m) = &matrix {
+        println!("stress test (targets met; rows: designed for, columns: evaluated in)");
+        print!("{}", driftplan::study::stress::stress_table(m));
+    }
+    println!("outputs {}", out.display());
+    println!("{}", export::CAUTION);
+    Ok(())
+}
+
+fn sweep(
+    plan_path: &Path,
+    budgets: &str,
+    out: &Path,
+    solver: &SolverArgs,
+    progress: &Progress,
+) -> Result<()> {
+    let shares =
+        driftplan::study::parse_budgets(budgets).map_err(|e| anyhow::anyhow!("--budgets: {e}"))?;
+    let plan = load(plan_path)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, solver)?;
+    progress.say(&format!(
+        "sweep: {} budgets from {:.1}% to {:.1}% of the sea, solved in parallel",
+        shares.len(),
+        100.0 * shares[0],
+        100.0 * shares[shares.len() - 1]
+    ));
+    let bar = progress.bar(shares.len() as u64, "budgets");
+    let sw = driftplan::study::sweep(
+        &problem,
+        &shares,
+        inputs.grid.sea_area_km2,
+        &options,
+        &|| bar.inc(1),
+    )?;
+    bar.finish_and_clear();
+    // Scenario-specific designs at the plan's own budget, for the frequency layer.
+    let matrix = stress(&problem, &[], &options, false, progress)?;
+    let sweep_nets: Vec<&[bool]> = sw
+        .runs
+        .iter()
+        .map(|r| r.solution.selected.as_slice())
+        .collect();
+    let scen_nets: Vec<&[bool]> = matrix
+        .iter()
+        .flat_map(|m| m.rows.iter())
+        .filter(|r| !r.selected.is_empty())
+        .map(|r| r.selected.as_slice())
+        .collect();
+    let all: Vec<&[bool]> = sweep_nets.iter().chain(&scen_nets).copied().collect();
+    let n = inputs.grid.len();
+    let f_all = driftplan::study::selection_frequency(n, &all);
+    let f_sweep = driftplan::study::selection_frequency(n, &sweep_nets);
+    let f_scen = driftplan::study::selection_frequency(n, &scen_nets);
+    let layers = vec![
+        driftplan::layers::Layer {
+            name: "selection_share".into(),
+            values: f_all.share.clone(),
+        },
+        driftplan::layers::Layer {
+            name: "selection_share_sweep".into(),
+            values: f_sweep.share.clone(),
+        },
+        driftplan::layers::Layer {
+            name: "selection_share_scenarios".into(),
+            values: f_scen.share.clone(),
+        },
+    ];
+    let core: Vec<bool> = (0..n).map(|i| f_all.class(i) == "core").collect();
+    let empty = driftplan::features::FeatureTable::default();
+    let core_assessment = pipeline::assess_network(&inputs, &core);
+    let files = vec![
+        ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
+        ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
+        (
+            "selection-frequency.csv",
+            driftplan::study::frequency::frequency_csv(&f_all),
+        ),
+        (
+            "selection-frequency.geojson",
+            export::geojson::cells_geojson(&inputs.grid, &layers, &empty, &core)?,
+        ),
+        (
+            "report.html",
+            pipeline::report_html(
+                &plan,
+                &inputs,
+                &core,
+                &core_assessment,
+                None,
+                matrix.as_ref(),
+                Some(&sw),
+            )?,
+        ),
+    ];
+    export::write_outputs(out, &files)?;
+    println!(
+        "{:>8} {:>10} {:>12} {:>9}  {:<10} gap",
+        "budget", "cost", "objective", "targets", "status"
+    );
+    for r in &sw.runs {
+        println!(
+            "{:>7.1}% {:>10.1} {:>12.4} {:>4}/{:<4}  {:<10} {:.3}%",
+            100.0 * r.share,
+            r.cost,
+            r.solution.objective,
+            r.targets_met,
+            r.met.len(),
+            r.solution.status.as_str(),
+            100.0 * r.solution.gap
+        );
+    }
+    println!(
+        "robust core: {} cells chosen in all {} networks (the report maps it); outputs {}",
+        core.iter().filter(|c| **c).count(),
+        f_all.networks,
+        out.display()
+    );
+    println!("{}", export::CAUTION);
     Ok(())
 }
 

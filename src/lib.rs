@@ -24,3 +24,4 @@ pub mod pipeline;
 pub mod plan;
 pub mod report;
 pub mod solve;
+pub mod study;

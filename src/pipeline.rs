@@ -393,6 +393,105 @@ pub fn assess_network(inputs: &Inputs, selected: &[bool]) -> Assessment {
     assess(&inputs.grid, &inputs.features, &inputs.cost, selected)
 }
 
+/// The report's run facts, in display order: plan, hash, solver and its status, objective,
+/// bound and gap (when a solve made the network), then the network's measures.
+pub fn run_facts(
+    plan: &Plan,
+    solution: Option<&Solution>,
+    a: &Assessment,
+) -> Vec<(String, String)> {
+    let mut f = vec![
+        ("plan".to_string(), plan.name.clone()),
+        ("plan file SHA-256".to_string(), plan.hash.clone()),
+    ];
+    if let Some(s) = solution {
+        f.push(("solver".into(), s.solver.clone()));
+        f.push(("status".into(), s.status.as_str().into()));
+        f.push(("objective".into(), format!("{:.4}", s.objective)));
+        f.push(("bound".into(), format!("{:.4}", s.bound)));
+        f.push(("gap".into(), format!("{:.3}%", 100.0 * s.gap)));
+        f.push(("solve time".into(), format!("{:.1} s", s.seconds)));
+    }
+    f.push(("cost".into(), format!("{:.1}", a.cost)));
+    f.push((
+        "area".into(),
+        format!(
+            "{:.0} km² ({:.1}% of the region's sea)",
+            a.area_km2,
+            100.0 * a.share_of_region
+        ),
+    ));
+    f.push(("reserves".into(), a.reserves.len().to_string()));
+    f.push((
+        "targets met".into(),
+        format!("{} of {}", a.targets_met, a.coverage.len()),
+    ));
+    f.push((
+        "compactness ratio".into(),
+        format!("{:.2} (1 = circle)", a.compactness_ratio),
+    ));
+    f.push((
+        "largest gap along the poleward axis".into(),
+        format!("{:.1} km", a.largest_gap_km),
+    ));
+    f
+}
+
+/// One map per derived climate feature kind: the sum of that kind's amounts per cell over
+/// the features of the first scenario (and scenario-free ones) in the last year (or without
+/// a year). Habitat is left out (it has its own coverage charts).
+pub fn derived_feature_maps(inputs: &Inputs) -> Vec<(String, Vec<f64>)> {
+    let t = &inputs.features;
+    let last_year = t.years.last().copied();
+    let mut maps: std::collections::BTreeMap<&str, Vec<f64>> = Default::default();
+    for f in &t.features {
+        if f.kind == crate::features::FeatureKind::Habitat
+            || f.scenario.is_some_and(|s| s != 0)
+            || f.year.is_some_and(|y| Some(y) != last_year)
+        {
+            continue;
+        }
+        let m = maps
+            .entry(f.kind.as_str())
+            .or_insert_with(|| vec![0.0; inputs.grid.len()]);
+        for &(c, a) in &f.amounts {
+            m[c as usize] += a;
+        }
+    }
+    let when = |name: &str| {
+        let sc = t.scenarios.first().map(String::as_str).unwrap_or("");
+        match last_year {
+            Some(y) => format!("{name} ({sc}, {y}, all species)"),
+            None => format!("{name} ({sc}, all species)"),
+        }
+    };
+    maps.into_iter().map(|(k, v)| (when(k), v)).collect()
+}
+
+/// `report.html` of a network under the plan (see [`crate::report`]).
+pub fn report_html(
+    plan: &Plan,
+    inputs: &Inputs,
+    selected: &[bool],
+    assessment: &Assessment,
+    solution: Option<&Solution>,
+    stress: Option<&crate::study::StressMatrix>,
+    sweep: Option<&crate::study::Sweep>,
+) -> Result<String, crate::export::ExportError> {
+    crate::report::report_html(&crate::report::ReportInput {
+        title: &plan.name,
+        facts: run_facts(plan, solution, assessment),
+        grid: &inputs.grid,
+        selected,
+        status: &inputs.status,
+        reserves: &assessment.reserves,
+        feature_maps: derived_feature_maps(inputs),
+        coverage: &assessment.coverage,
+        stress: stress.map(crate::study::stress::report_table),
+        sweep: sweep.map(crate::study::sweep::report_points),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

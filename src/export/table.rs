@@ -46,6 +46,26 @@ pub fn coverage_csv(assessment: &Assessment) -> String {
     String::from_utf8(bytes).unwrap_or_default()
 }
 
+/// CSV text of a header and rows (quoted where a field needs it, by the csv crate). Rows may
+/// differ in length from the header only by a caller bug; such rows are written as they are.
+pub fn csv_text(header: &[&str], rows: impl IntoIterator<Item = Vec<String>>) -> String {
+    let mut w = csv::WriterBuilder::new()
+        .flexible(true)
+        .from_writer(Vec::new());
+    // Writing to an in-memory Vec cannot fail (the csv crate only reports I/O errors here,
+    // and `flexible` turns off the record-length check).
+    let _ = w.write_record(header);
+    for r in rows {
+        let _ = w.write_record(&r);
+    }
+    let bytes = w
+        .into_inner()
+        .map_err(|e| e.into_error())
+        .unwrap_or_default();
+    // The writer only ever received UTF-8 strings.
+    String::from_utf8(bytes).unwrap_or_default()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

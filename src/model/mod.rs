@@ -51,6 +51,18 @@ pub enum Robustness {
     LeastRegret,
 }
 
+impl Robustness {
+    /// The plan-file word for the rule.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Robustness::EveryScenario => "every-scenario",
+            Robustness::WorstCase => "worst-case",
+            Robustness::Expected => "expected",
+            Robustness::LeastRegret => "least-regret",
+        }
+    }
+}
+
 /// One scenario as the model sees it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scenario {

@@ -274,6 +274,8 @@ mod tests {
             targets_met: 0,
             boundary_edge_km: 0.0,
             cells_selected: 11,
+            compactness_ratio: f64::NAN,
+            largest_gap_km: 0.0,
         };
         let gj = network_geojson(&g, &assessment).unwrap();
         let svg = network_map(&g, &vec![CellStatus::Free; g.len()], &res);

@@ -1,0 +1,83 @@
+//! Selection frequency: how often each cell is chosen across a set of networks (a sweep's
+//! budgets, the scenario-specific solves). Cells chosen in every network are the robust core;
+//! cells chosen only sometimes are options to trade.
+
+/// Per-cell selection frequency.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SelectionFrequency {
+    /// Share of the networks that choose each cell (0–1), one value per cell.
+    pub share: Vec<f64>,
+    /// Number of networks counted.
+    pub networks: usize,
+}
+
+impl SelectionFrequency {
+    /// Class word of cell `i`: `core` (in every network), `frequent` (at least half),
+    /// `occasional` (some), `never`.
+    pub fn class(&self, i: usize) -> &'static str {
+        let s = self.share[i];
+        if self.networks > 0 && s >= 1.0 {
+            "core"
+        } else if s >= 0.5 {
+            "frequent"
+        } else if s > 0.0 {
+            "occasional"
+        } else {
+            "never"
+        }
+    }
+}
+
+/// Frequency of each of `n_cells` cells over `networks` (each one flag per cell).
+pub fn selection_frequency(n_cells: usize, networks: &[&[bool]]) -> SelectionFrequency {
+    let mut count = vec![0usize; n_cells];
+    for net in networks {
+        for (c, &s) in count.iter_mut().zip(net.iter()) {
+            *c += s as usize;
+        }
+    }
+    let m = networks.len();
+    SelectionFrequency {
+        share: count
+            .iter()
+            .map(|&c| if m > 0 { c as f64 / m as f64 } else { 0.0 })
+            .collect(),
+        networks: m,
+    }
+}
+
+/// `selection-frequency.csv`: cell id, share of networks choosing it, class.
+pub fn frequency_csv(f: &SelectionFrequency) -> String {
+    let rows = (0..f.share.len()).map(|i| {
+        vec![
+            i.to_string(),
+            format!("{:.6}", f.share[i]),
+            f.class(i).to_string(),
+        ]
+    });
+    crate::export::table::csv_text(&["cell", "selection_share", "class"], rows)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn counts_by_hand() {
+        // Hand count over 4 networks: cell 0 in all (core), cell 1 in 2 (frequent, 0.5),
+        // cell 2 in 1 (occasional, 0.25), cell 3 in none.
+        let a = [true, true, false, false];
+        let b = [true, true, true, false];
+        let c = [true, false, false, false];
+        let d = [true, false, false, false];
+        let f = selection_frequency(4, &[&a, &b, &c, &d]);
+        assert_eq!(f.share, vec![1.0, 0.5, 0.25, 0.0]);
+        let classes: Vec<&str> = (0..4).map(|i| f.class(i)).collect();
+        assert_eq!(classes, vec!["core", "frequent", "occasional", "never"]);
+        let csv = frequency_csv(&f);
+        assert!(
+            csv.starts_with("cell,selection_share,class\n0,1.000000,core\n"),
+            "{csv}"
+        );
+    }
+}

@@ -1,0 +1,238 @@
+//! Scenario stress test: a matrix of designed-for × evaluated-in scenario. Each scenario is
+//! solved alone (same objective, budget and spatial rules, only its own features), then every
+//! network — those single-scenario ones and the given (robust) ones — is evaluated under every
+//! scenario. The diagonal is each scenario's own optimum; a robust network's row shows what it
+//! gives up in the scenario it was not tailored to, and its worst case sits beside theirs.
+
+use rayon::prelude::*;
+
+use crate::model::{evaluate, Problem, Robustness, ScenarioResult};
+use crate::solve::ilp::Highs;
+use crate::solve::{SolveError, SolveOptions, Solver};
+
+/// One network's row of the matrix.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StressRow {
+    /// What the network was designed for: a scenario name, or a network's own name.
+    pub designed_for: String,
+    /// Solver status of the single-scenario solve (`optimal`, `gap-limit`, ...), or `given`
+    /// for a network passed in, or `infeasible: …` when the scenario alone has no network.
+    pub status: String,
+    /// Relative gap of the solve (NaN for given networks).
+    pub gap: f64,
+    /// How the network fares in each scenario (empty when there is no network).
+    pub evaluated: Vec<ScenarioResult>,
+    /// The network (empty when there is none).
+    pub selected: Vec<bool>,
+}
+
+impl StressRow {
+    /// The lowest benefit over the scenarios (NaN without a network). Units: weighted targets.
+    pub fn worst_benefit(&self) -> f64 {
+        self.evaluated
+            .iter()
+            .map(|r| r.benefit)
+            .reduce(f64::min)
+            .unwrap_or(f64::NAN)
+    }
+
+    /// The fewest targets met in any scenario (`None` without a network).
+    pub fn worst_targets_met(&self) -> Option<usize> {
+        self.evaluated.iter().map(|r| r.targets_met).min()
+    }
+}
+
+/// The designed-for × evaluated-in matrix.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StressMatrix {
+    /// Scenario names (the columns).
+    pub scenarios: Vec<String>,
+    /// One row per scenario solved alone (in scenario order), then one per given network.
+    pub rows: Vec<StressRow>,
+}
+
+/// The problem of scenario `s` alone: its own features and the scenario-free ones, one
+/// scenario, the same objective, budget and spatial rules (edge penalty, max gap, minimum
+/// size). Unlike the least-regret sub-problem it keeps the objective (min-cost stays
+/// min-cost) and the edge penalty, because its network is a design, not a bound.
+pub fn single_scenario_problem(problem: &Problem, s: usize) -> Problem {
+    let features = problem
+        .scenario_features(s)
+        .into_iter()
+        .map(|k| {
+            let mut f = problem.features[k].clone();
+            f.scenario = f.scenario.map(|_| 0);
+            f
+        })
+        .collect();
+    Problem {
+        scenarios: vec![problem.scenarios[s].clone()],
+        features,
+        robustness: Robustness::EveryScenario,
+        scenario_best: None,
+        ..problem.clone()
+    }
+}
+
+/// Runs the stress test (module doc): solves each scenario alone with HiGHS (in parallel,
+/// one solver thread each, so the result does not depend on the thread count unless a time
+/// limit cuts a solve short), then evaluates those networks and each of `given` under every
+/// scenario of `problem`. `problem` should carry Bₛ* (least-regret) so regrets are reported.
+/// `on_solved` is called after each scenario solve (for a progress bar).
+pub fn stress_test(
+    problem: &Problem,
+    given: &[(String, Vec<bool>)],
+    options: &SolveOptions,
+    on_solved: &(dyn Fn() + Sync),
+) -> Result<StressMatrix, SolveError> {
+    problem.validate()?;
+    let one_thread = SolveOptions {
+        threads: Some(1),
+        ..options.clone()
+    };
+    let solved: Vec<Result<StressRow, SolveError>> = (0..problem.scenarios.len())
+        .into_par_iter()
+        .map(|s| {
+            let sub = single_scenario_problem(problem, s);
+            let name = problem.scenarios[s].name.clone();
+            let row = match Highs::default().solve(&sub, &one_thread) {
+                Ok(sol) => Ok(StressRow {
+                    designed_for: name,
+                    status: sol.status.as_str().to_string(),
+                    gap: sol.gap,
+                    evaluated: evaluate(problem, &sol.selected).scenarios,
+                    selected: sol.selected,
+                }),
+                Err(e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))) => {
+                    Ok(StressRow {
+                        designed_for: name,
+                        status: format!("infeasible: {e}"),
+                        gap: f64::NAN,
+                        evaluated: Vec::new(),
+                        selected: Vec::new(),
+                    })
+                }
+                Err(e) => Err(e),
+            };
+            on_solved();
+            row
+        })
+        .collect();
+    let mut rows = solved.into_iter().collect::<Result<Vec<_>, _>>()?;
+    for (name, sel) in given {
+        rows.push(StressRow {
+            designed_for: name.clone(),
+            status: "given".into(),
+            gap: f64::NAN,
+            evaluated: evaluate(problem, sel).scenarios,
+            selected: sel.clone(),
+        });
+    }
+    Ok(StressMatrix {
+        scenarios: problem.scenarios.iter().map(|s| s.name.clone()).collect(),
+        rows,
+    })
+}
+
+/// `stress.csv`: one row per designed-for × evaluated-in pair (long form), with targets met,
+/// benefit, its maximum and the regret when known; rows without a network are kept with empty
+/// values so every design appears.
+pub fn stress_csv(m: &StressMatrix) -> String {
+    let mut rows = Vec::new();
+    for row in &m.rows {
+        if row.evaluated.is_empty() {
+            for s in &m.scenarios {
+                let mut r = vec![row.designed_for.clone(), row.status.clone(), s.clone()];
+                r.extend(std::iter::repeat_n(String::new(), 5));
+                rows.push(r);
+            }
+            continue;
+        }
+        for e in &row.evaluated {
+            rows.push(vec![
+                row.designed_for.clone(),
+                row.status.clone(),
+                e.name.clone(),
+                e.targets_met.to_string(),
+                e.targets.to_string(),
+                format!("{:.6}", e.benefit),
+                format!("{:.6}", e.benefit_max),
+                e.regret.map(|x| format!("{x:.6}")).unwrap_or_default(),
+            ]);
+        }
+    }
+    crate::export::table::csv_text(&STRESS_COLUMNS, rows)
+}
+
+/// Column names of `stress.csv`.
+pub const STRESS_COLUMNS: [&str; 8] = [
+    "designed_for",
+    "status",
+    "evaluated_in",
+    "targets_met",
+    "targets",
+    "benefit",
+    "benefit_max",
+    "regret",
+];
+
+/// The matrix as a terminal table: targets met / total in each cell, the worst case last.
+pub fn stress_table(m: &StressMatrix) -> String {
+    let w = m
+        .rows
+        .iter()
+        .map(|r| r.designed_for.chars().count())
+        .chain(std::iter::once("designed for".len()))
+        .max()
+        .unwrap_or(12);
+    let cw = m
+        .scenarios
+        .iter()
+        .map(|s| s.chars().count())
+        .chain(std::iter::once(9))
+        .max()
+        .unwrap_or(9);
+    let mut out = format!("{:<w$}", "designed for");
+    for s in &m.scenarios {
+        out.push_str(&format!("  {s:>cw$}"));
+    }
+    out.push_str(&format!("  {:>cw$}\n", "worst"));
+    for row in &m.rows {
+        out.push_str(&format!("{:<w$}", row.designed_for));
+        if row.evaluated.is_empty() {
+            out.push_str(&format!("  {}\n", row.status));
+            continue;
+        }
+        for r in &row.evaluated {
+            out.push_str(&format!(
+                "  {:>cw$}",
+                format!("{}/{}", r.targets_met, r.targets)
+            ));
+        }
+        let worst = row.worst_targets_met().unwrap_or(0);
+        out.push_str(&format!("  {worst:>cw$}\n"));
+    }
+    out
+}
+
+/// The matrix in the report's form.
+pub fn report_table(m: &StressMatrix) -> crate::report::StressTable {
+    let rows: Vec<&StressRow> = m.rows.iter().filter(|r| !r.evaluated.is_empty()).collect();
+    crate::report::StressTable {
+        designed_for: rows.iter().map(|r| r.designed_for.clone()).collect(),
+        evaluated_in: m.scenarios.clone(),
+        cells: rows
+            .iter()
+            .map(|r| {
+                r.evaluated
+                    .iter()
+                    .map(|e| crate::report::StressCell {
+                        targets_met: e.targets_met,
+                        targets_total: e.targets,
+                        benefit: e.benefit,
+                    })
+                    .collect()
+            })
+            .collect(),
+    }
+}

@@ -1,0 +1,166 @@
+//! `assess`, `compare` and `sweep` through the command line on a coarse copy of the demo.
+
+mod common;
+
+use std::path::Path;
+use std::process::Command;
+
+fn run(args: &[&std::ffi::OsStr]) -> String {
+    let out = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(args)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{:?} failed:\n{}",
+        args,
+        String::from_utf8_lossy(&out.stderr)
+    );
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}
+
+fn os(s: &str) -> &std::ffi::OsStr {
+    std::ffi::OsStr::new(s)
+}
+
+fn read_csv(path: &Path) -> Vec<csv::StringRecord> {
+    csv::Reader::from_path(path)
+        .unwrap()
+        .records()
+        .map(|r| r.unwrap())
+        .collect()
+}
+
+#[test]
+fn assess_compare_and_sweep_agree_with_solve() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with_gap(d, "max_share = 0.5", "objective = \"min-cost\"", 0.0);
+    let solved = d.join("solved");
+    run(&[
+        os("solve"),
+        plan.as_os_str(),
+        os("--out"),
+        solved.as_os_str(),
+    ]);
+
+    // assess of the network solve wrote reproduces solve's own coverage exactly.
+    let assessed = d.join("assessed");
+    run(&[
+        os("assess"),
+        plan.as_os_str(),
+        solved.join("network.geojson").as_os_str(),
+        os("--out"),
+        assessed.as_os_str(),
+    ]);
+    assert_eq!(
+        std::fs::read_to_string(solved.join("coverage.csv")).unwrap(),
+        std::fs::read_to_string(assessed.join("coverage.csv")).unwrap()
+    );
+    // The stress matrix of solve has a row per scenario and the robust row, each scored in
+    // the three scenarios; the robust (every-scenario) network meets every target in each.
+    let stress = read_csv(&solved.join("stress.csv"));
+    assert_eq!(stress.len(), 4 * 3);
+    for r in stress.iter().filter(|r| r[0].starts_with("robust")) {
+        assert_eq!(&r[3], &r[4], "robust network misses targets in {}", &r[2]);
+    }
+    assert!(std::fs::read_to_string(solved.join("report.html"))
+        .unwrap()
+        .contains("<svg"));
+
+    // compare: a network with itself shows no split targets and ties everywhere; a strict
+    // superset (every cell of the network plus the first unchosen cell) is better or equal
+    // on every coverage measure.
+    let cells = read_csv(&solved.join("cells.csv"));
+    let hdr = csv::Reader::from_path(solved.join("cells.csv"))
+        .unwrap()
+        .headers()
+        .unwrap()
+        .clone();
+    let sel_col = hdr.iter().position(|h| h == "selected").unwrap();
+    let id_col = hdr.iter().position(|h| h == "cell").unwrap();
+    let mut ids: Vec<String> = cells
+        .iter()
+        .filter(|r| &r[sel_col] == "true" || &r[sel_col] == "1")
+        .map(|r| r[id_col].to_string())
+        .collect();
+    let extra = cells
+        .iter()
+        .find(|r| !(&r[sel_col] == "true" || &r[sel_col] == "1"))
+        .unwrap()[id_col]
+        .to_string();
+    ids.push(extra);
+    let superset = d.join("superset.csv");
+    std::fs::write(&superset, format!("cell\n{}\n", ids.join("\n"))).unwrap();
+    let cmp = d.join("cmp");
+    let table = run(&[
+        os("compare"),
+        plan.as_os_str(),
+        solved.join("network.geojson").as_os_str(),
+        solved.join("network.geojson").as_os_str(),
+        superset.as_os_str(),
+        os("--names"),
+        os("a,b,bigger"),
+        os("--no-stress"),
+        os("--out"),
+        cmp.as_os_str(),
+    ]);
+    assert!(
+        table.contains("3 networks compared: a, b, bigger"),
+        "{table}"
+    );
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(cmp.join("compare.json")).unwrap()).unwrap();
+    for m in json["measures"].as_array().unwrap() {
+        let v: Vec<f64> = m["values"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_f64().unwrap_or(f64::NAN))
+            .collect();
+        let name = m["measure"].as_str().unwrap();
+        assert!(
+            v[0] == v[1] || (v[0].is_nan() && v[1].is_nan()),
+            "{name}: {v:?}"
+        );
+        if name.starts_with("targets_met") || name.ends_with("held_share") {
+            assert!(v[2] >= v[0] - 1e-12, "{name}: superset worse {v:?}");
+        }
+        if ["cost", "area_km2", "cells_selected"].contains(&name) {
+            assert!(v[2] > v[0], "{name}: superset must be larger {v:?}");
+        }
+    }
+
+    // sweep: benefit never decreases with the budget (up to the reported gap), and the
+    // first budget that meets each target is one whose row meets it.
+    let sw = d.join("sweep");
+    run(&[
+        os("sweep"),
+        plan.as_os_str(),
+        os("--budgets"),
+        os("2%,4%,...,12%"),
+        os("--out"),
+        sw.as_os_str(),
+    ]);
+    let rows = read_csv(&sw.join("sweep.csv"));
+    assert_eq!(rows.len(), 6);
+    let mut last = f64::NEG_INFINITY;
+    for r in &rows {
+        let objective: f64 = r[4].parse().unwrap();
+        let gap: f64 = r[3].parse().unwrap();
+        assert!(objective >= last - gap * objective.abs() - 1e-9, "{r:?}");
+        last = objective;
+    }
+    let freq = read_csv(&sw.join("selection-frequency.csv"));
+    assert_eq!(freq.len(), cells.len());
+    assert!(freq.iter().all(|r| {
+        let s: f64 = r[1].parse().unwrap();
+        (0.0..=1.0).contains(&s)
+    }));
+    let gj: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(sw.join("selection-frequency.geojson")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(gj["features"].as_array().unwrap().len(), cells.len());
+}
