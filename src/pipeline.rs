@@ -547,4 +547,56 @@ mod tests {
         let all = vec![true; 4];
         assert!((crate::model::compact::exposed_edge_km(&coast, &all) - 80.0).abs() < 1e-9);
     }
+
+    #[test]
+    fn derived_maps_sum_one_kind_in_the_first_scenario_and_last_year() {
+        use crate::features::{Feature, FeatureKind, Target};
+        let f = |kind, scenario, year, amounts: Vec<(u32, f64)>| Feature {
+            name: "x".into(),
+            kind,
+            species: None,
+            scenario,
+            year,
+            unit: "score".into(),
+            total: amounts.iter().map(|a| a.1).sum(),
+            amounts,
+            target: Target::Share(0.0),
+            weight: 1.0,
+        };
+        let grid =
+            Grid::full_rectangle(Crs::auto_laea(150.0, -40.0), 10_000.0, [0.0, 0.0], 3, 1).unwrap();
+        let features = FeatureTable {
+            scenarios: vec!["s1".into(), "s2".into()],
+            years: vec![2030, 2090],
+            features: vec![
+                f(
+                    FeatureKind::Refugium,
+                    Some(0),
+                    Some(2090),
+                    vec![(0, 1.0), (2, 2.0)],
+                ),
+                f(FeatureKind::Refugium, Some(0), Some(2090), vec![(2, 0.5)]),
+                // Left out: another scenario, an earlier year, habitat.
+                f(FeatureKind::Refugium, Some(1), Some(2090), vec![(1, 9.0)]),
+                f(FeatureKind::Refugium, Some(0), Some(2030), vec![(1, 9.0)]),
+                f(FeatureKind::Habitat, Some(0), Some(2090), vec![(1, 9.0)]),
+                // Scenario- and year-free features count.
+                f(FeatureKind::Distinctness, None, None, vec![(1, 0.25)]),
+            ],
+        };
+        let inputs = Inputs {
+            cost: vec![1.0; 3],
+            status: vec![CellStatus::Free; 3],
+            layers: vec![],
+            features,
+            edge_shifts: vec![],
+            grid,
+        };
+        let maps = derived_feature_maps(&inputs);
+        // Hand sums: refugium [1, 0, 2.5]; distinctness [0, 0.25, 0]; names by kind.
+        assert_eq!(maps.len(), 2);
+        assert_eq!(maps[0].0, "distinctness (s1, 2090, all species)");
+        assert_eq!(maps[0].1, vec![0.0, 0.25, 0.0]);
+        assert_eq!(maps[1].1, vec![1.0, 0.0, 2.5]);
+    }
 }

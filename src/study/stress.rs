@@ -236,3 +236,71 @@ pub fn report_table(m: &StressMatrix) -> crate::report::StressTable {
             .collect(),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn result(name: &str, met: usize, benefit: f64) -> ScenarioResult {
+        ScenarioResult {
+            name: name.into(),
+            benefit,
+            benefit_max: 2.0,
+            best: None,
+            regret: None,
+            targets_met: met,
+            targets: 2,
+        }
+    }
+
+    fn matrix() -> StressMatrix {
+        StressMatrix {
+            scenarios: vec!["a".into(), "b".into()],
+            rows: vec![
+                StressRow {
+                    designed_for: "a".into(),
+                    status: "optimal".into(),
+                    gap: 0.0,
+                    evaluated: vec![result("a", 2, 2.0), result("b", 1, 1.5)],
+                    selected: vec![true],
+                },
+                StressRow {
+                    designed_for: "b".into(),
+                    status: "infeasible: no".into(),
+                    gap: f64::NAN,
+                    evaluated: vec![],
+                    selected: vec![],
+                },
+            ],
+        }
+    }
+
+    #[test]
+    fn worst_case_and_outputs_by_hand() {
+        let m = matrix();
+        // Hand values: row a has benefits 2 and 1.5 → worst 1.5; targets 2 and 1 → worst 1.
+        assert_eq!(m.rows[0].worst_benefit(), 1.5);
+        assert_eq!(m.rows[0].worst_targets_met(), Some(1));
+        assert!(m.rows[1].worst_benefit().is_nan());
+        // CSV re-read with the csv crate: 2 rows for a, 2 empty rows for b.
+        let text = stress_csv(&m);
+        let mut r = csv::Reader::from_reader(text.as_bytes());
+        assert_eq!(
+            r.headers().unwrap(),
+            &csv::StringRecord::from(STRESS_COLUMNS.to_vec())
+        );
+        let rows: Vec<csv::StringRecord> = r.records().map(|x| x.unwrap()).collect();
+        assert_eq!(rows.len(), 4);
+        assert_eq!(&rows[1][2], "b");
+        assert_eq!(&rows[1][3], "1");
+        assert_eq!(&rows[1][5], "1.500000");
+        assert_eq!(&rows[3][3], "");
+        let t = stress_table(&m);
+        assert!(t.lines().nth(1).unwrap().contains("2/2"), "{t}");
+        assert!(t.contains("infeasible: no"), "{t}");
+        // The report keeps rows with a network only.
+        let rt = report_table(&m);
+        assert_eq!(rt.designed_for, vec!["a".to_string()]);
+        assert_eq!(rt.cells[0][1].targets_met, 1);
+    }
+}
