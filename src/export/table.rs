@@ -20,12 +20,8 @@ pub const COVERAGE_COLUMNS: [&str; 10] = [
 /// Missing species/scenario/year are empty fields; amounts are in each feature's own unit,
 /// written in shortest round-trip form; `met` is `true`/`false`.
 pub fn coverage_csv(assessment: &Assessment) -> String {
-    let mut w = csv::Writer::from_writer(Vec::new());
-    // Writing records to an in-memory Vec cannot fail (the csv crate only reports I/O errors
-    // and, for mismatched record lengths, which a fixed 10-column layout rules out).
-    let _ = w.write_record(COVERAGE_COLUMNS);
-    for c in &assessment.coverage {
-        let _ = w.write_record([
+    let rows = assessment.coverage.iter().map(|c| {
+        vec![
             c.feature.clone(),
             c.kind.clone(),
             c.species.clone().unwrap_or_default(),
@@ -36,14 +32,9 @@ pub fn coverage_csv(assessment: &Assessment) -> String {
             c.target.to_string(),
             c.shortfall.to_string(),
             c.met.to_string(),
-        ]);
-    }
-    let bytes = w
-        .into_inner()
-        .map_err(|e| e.into_error())
-        .unwrap_or_default();
-    // The writer only ever received UTF-8 strings.
-    String::from_utf8(bytes).unwrap_or_default()
+        ]
+    });
+    csv_text(&COVERAGE_COLUMNS, rows)
 }
 
 /// CSV text of a header and rows (quoted where a field needs it, by the csv crate). Rows may

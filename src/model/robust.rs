@@ -123,10 +123,10 @@ pub fn combine(problem: &Problem, benefits: &[f64], best: Option<&[f64]>) -> f64
     }
 }
 
-/// The problem of scenario `s` alone, whose optimum is Bₛ* for least-regret: max-benefit
-/// under the same budget, cell status and max gap, scenario `s`'s features only (scenario-free
-/// ones kept), one scenario, no edge penalty.
-pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
+/// Scenario `s` alone: its own features and the scenario-free ones (renumbered to scenario
+/// 0), that one scenario (weight 1), rule `EveryScenario`, no Bₛ*; everything else (objective,
+/// costs, status, budget, edge penalty, max gap, minimum size) as in `problem`.
+pub fn restrict_to_scenario(problem: &Problem, s: usize) -> Problem {
     let features = problem
         .scenario_features(s)
         .into_iter()
@@ -139,18 +139,22 @@ pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
     let mut sc = problem.scenarios[s].clone();
     sc.weight = 1.0;
     Problem {
-        cost: problem.cost.clone(),
-        area_km2: problem.area_km2.clone(),
-        status: problem.status.clone(),
         scenarios: vec![sc],
         features,
-        objective: Objective::MaxBenefit,
         robustness: Robustness::EveryScenario,
-        budget: problem.budget,
-        edge_penalty: None,
-        spacing: problem.spacing.clone(),
         scenario_best: None,
-        min_reserve: None,
+        ..problem.clone()
+    }
+}
+
+/// The problem of scenario `s` alone, whose optimum is Bₛ* for least-regret: max-benefit
+/// under the same budget, cell status, max gap and minimum size, scenario `s`'s features only
+/// (scenario-free ones kept), one scenario, no edge penalty (Bₛ* is a benefit).
+pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
+    Problem {
+        objective: Objective::MaxBenefit,
+        edge_penalty: None,
+        ..restrict_to_scenario(problem, s)
     }
 }
 

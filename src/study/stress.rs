@@ -6,7 +6,7 @@
 
 use rayon::prelude::*;
 
-use crate::model::{evaluate, Problem, Robustness, ScenarioResult};
+use crate::model::{evaluate, Problem, ScenarioResult};
 use crate::solve::ilp::Highs;
 use crate::solve::{SolveError, SolveOptions, Solver};
 
@@ -56,22 +56,7 @@ pub struct StressMatrix {
 /// size). Unlike the least-regret sub-problem it keeps the objective (min-cost stays
 /// min-cost) and the edge penalty, because its network is a design, not a bound.
 pub fn single_scenario_problem(problem: &Problem, s: usize) -> Problem {
-    let features = problem
-        .scenario_features(s)
-        .into_iter()
-        .map(|k| {
-            let mut f = problem.features[k].clone();
-            f.scenario = f.scenario.map(|_| 0);
-            f
-        })
-        .collect();
-    Problem {
-        scenarios: vec![problem.scenarios[s].clone()],
-        features,
-        robustness: Robustness::EveryScenario,
-        scenario_best: None,
-        ..problem.clone()
-    }
+    crate::model::robust::restrict_to_scenario(problem, s)
 }
 
 /// Runs the stress test (module doc): solves each scenario alone with HiGHS (in parallel,
