@@ -127,8 +127,8 @@ enum Command {
     },
     /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
     ///
-    /// Writes coverage.csv, assessment.json, network.geojson (the cells as reserves),
-    /// stress.csv and report.html.
+    /// Writes coverage.csv, reserves.csv, assessment.json (every measure), network.geojson
+    /// (the chosen cells dissolved into reserves), stress.csv and report.html.
     Assess {
         /// The plan file (TOML).
         plan: PathBuf,
@@ -551,6 +551,7 @@ fn assess(
     let cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
     let mut files = vec![
         ("coverage.csv", export::coverage_csv(&a)),
+        ("reserves.csv", export::reserves_csv(&a)),
         ("assessment.json", driftplan::compare::compare_json(&cmp)),
         (
             "network.geojson",
@@ -796,6 +797,7 @@ fn write_solution(
             )?,
         ),
         ("coverage.csv", export::coverage_csv(assessment)),
+        ("reserves.csv", export::reserves_csv(assessment)),
         ("summary.json", export::summary_json(&summary)),
         ("features.csv", export::features_csv(&inputs.features)?),
         (

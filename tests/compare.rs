@@ -114,6 +114,10 @@ fn the_two_optima_read_from_files() {
     assert!((value(&c, "exposed_edge_km", 0) - 5.0).abs() < 1e-9);
     assert!((value(&c, "exposed_edge_km", 1) - 5.0).abs() < 1e-9);
     assert_eq!(value(&c, "reserves", 0), 2.0);
+    // Plus coast/boundary edge (hand count): {2, 4}: cell 2 south + east, cell 4 north = 3 km
+    // → 8 km; {0, 4, 5}: 0 south + west, 4 north, 5 north + east = 5 km → 10 km.
+    assert!((value(&c, "total_edge_km", 0) - 8.0).abs() < 1e-9);
+    assert!((value(&c, "total_edge_km", 1) - 10.0).abs() < 1e-9);
     // They differ only in size and shape, in s3's B and C held, and in what follows from
     // those (the largest gap too: centroids of one LAEA row differ slightly in latitude).
     let d = differences(&c, 0, 1).unwrap();
@@ -124,6 +128,7 @@ fn the_two_optima_read_from_files() {
             "area_km2",
             "share_of_region",
             "cells_selected",
+            "total_edge_km",
             "compactness_ratio",
             "largest_gap_km",
             "targets_met",
@@ -136,7 +141,7 @@ fn the_two_optima_read_from_files() {
     );
     let area = &d[0];
     assert_eq!((area.of, area.better), (DifferenceOf::Measure, Some(0)));
-    let b3 = &d[9];
+    let b3 = &d[10];
     assert_eq!(
         (b3.of, b3.a, b3.b, b3.better),
         (DifferenceOf::Feature, 0.0, 1.0, Some(1))
@@ -225,8 +230,8 @@ fn csv_and_json_read_back_with_independent_parsers() {
     let header: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
     assert_eq!(header, COMPARE_COLUMNS);
     let rows: Vec<csv::StringRecord> = r.records().map(|r| r.unwrap()).collect();
-    // 9 base + 2 share measures + 2 kinds = 13 measures, 9 features; × 2 networks.
-    assert_eq!(rows.len(), (13 + 9) * 2);
+    // 10 base + 2 share measures + 2 kinds = 14 measures, 9 features; × 2 networks.
+    assert_eq!(rows.len(), (14 + 9) * 2);
     let col = |name: &str| COMPARE_COLUMNS.iter().position(|c| *c == name).unwrap();
     let find = |row: &str, name: &str, net: &str| {
         rows.iter()
@@ -262,7 +267,7 @@ fn csv_and_json_read_back_with_independent_parsers() {
         assert!(v.get(key).is_some(), "missing {key}");
     }
     let measures = v["measures"].as_array().unwrap();
-    assert_eq!(measures.len(), 13);
+    assert_eq!(measures.len(), 14);
     let tm = measures
         .iter()
         .find(|m| m["measure"] == "targets_met")

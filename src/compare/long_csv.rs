@@ -108,8 +108,8 @@ mod tests {
             &csv::StringRecord::from(COMPARE_COLUMNS.to_vec())
         );
         let rows: Vec<csv::StringRecord> = r.records().map(|r| r.unwrap()).collect();
-        // 13 measures (9 + 2 shares + 2 kinds) × 2 networks, then 3 features × 2 networks.
-        assert_eq!(rows.len(), 13 * 2 + 3 * 2);
+        // 14 measures (10 + 2 shares + 2 kinds) × 2 networks, then 3 features × 2 networks.
+        assert_eq!(rows.len(), 14 * 2 + 3 * 2);
         // First row: cost of network `x, first` (quoted by the writer): 1, lower, best.
         assert_eq!(
             &rows[0].iter().collect::<Vec<_>>(),

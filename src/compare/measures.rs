@@ -65,7 +65,7 @@ pub fn held_share(c: &Coverage) -> f64 {
 /// * `cost` (plan cost units), `area_km2`, `share_of_region` (0–1), `cells_selected`,
 ///   `exposed_edge_km`: lower is better (a smaller, more compact network for the same
 ///   coverage).
-/// * `compactness_ratio` (reserve edge over circle perimeters, 1 = circle) and
+/// * `total_edge_km` (exposed plus coast/boundary edge), `compactness_ratio` (reserve edge over circle perimeters, 1 = circle) and
 ///   `largest_gap_km` (widest step along the poleward axis between chosen cells): lower is
 ///   better.
 /// * `reserves`: not ranked: fewer reserves are compact, more spread risk; planners weigh it.
@@ -82,6 +82,11 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
         m("cells_selected", Better::Lower, a.cells_selected as f64),
         m("reserves", Better::Neither, a.reserves.len() as f64),
         m("exposed_edge_km", Better::Lower, a.exposed_edge_km),
+        m(
+            "total_edge_km",
+            Better::Lower,
+            a.exposed_edge_km + a.boundary_edge_km,
+        ),
         m("compactness_ratio", Better::Lower, a.compactness_ratio),
         m("largest_gap_km", Better::Lower, a.largest_gap_km),
         m("targets_met", Better::Higher, a.targets_met as f64),
@@ -161,6 +166,7 @@ mod tests {
             ("cells_selected", Better::Lower, 3.0),
             ("reserves", Better::Neither, 0.0),
             ("exposed_edge_km", Better::Lower, 80.0),
+            ("total_edge_km", Better::Lower, 100.0),
             ("compactness_ratio", Better::Lower, 1.5),
             ("largest_gap_km", Better::Lower, 12.0),
             ("targets_met", Better::Higher, 2.0),
@@ -185,6 +191,6 @@ mod tests {
         assert!(!names
             .iter()
             .any(|n| n.contains("share_") && n.contains("held")));
-        assert_eq!(names.len(), 9);
+        assert_eq!(names.len(), 10);
     }
 }

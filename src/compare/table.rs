@@ -175,14 +175,14 @@ mod tests {
         assert_eq!(lines[3], row("cost", "lower", "1 *", "11  "));
         assert_eq!(lines[7], row("reserves", "none", "1  ", "1  "));
         // Tie on targets met: both marked.
-        assert_eq!(lines[11], row("targets_met", "higher", "1 *", "1 *"));
+        assert_eq!(lines[12], row("targets_met", "higher", "1 *", "1 *"));
         // Hand values: mean shares 1/3 and 2/3; the worst share of x is 0 (not -0).
         assert_eq!(
-            lines[12],
+            lines[13],
             row("mean_held_share", "higher", "0.333  ", "0.667 *")
         );
         assert_eq!(
-            lines[13],
+            lines[14],
             row("min_held_share", "higher", "0.000  ", "0.500 *")
         );
         // Split targets: a met only by x, c only by `other`; b by neither so not listed.

@@ -17,7 +17,7 @@ pub use atomic::write_atomic;
 pub use features_table::{edge_shifts_csv, features_csv};
 pub use geojson::{cells_csv, cells_geojson, network_geojson};
 pub use summary::{plan_hash, summary_json, Summary};
-pub use table::coverage_csv;
+pub use table::{coverage_csv, reserves_csv};
 
 use crate::grid::GridError;
 use std::path::{Path, PathBuf};
