@@ -497,9 +497,11 @@ fn solve(
             &inputs,
             &solution.selected,
             &assessment,
-            Some(&solution),
-            matrix.as_ref(),
-            None,
+            pipeline::ReportExtras {
+                solution: Some(&solution),
+                stress: matrix.as_ref(),
+                ..Default::default()
+            },
         )?,
     )];
     if let Some(m) = &matrix {
@@ -559,7 +561,17 @@ fn assess(
         ),
         (
             "report.html",
-            pipeline::report_html(&plan, &inputs, &selected, &a, None, matrix.as_ref(), None)?,
+            pipeline::report_html(
+                &plan,
+                &inputs,
+                &selected,
+                &a,
+                pipeline::ReportExtras {
+                    stress: matrix.as_ref(),
+                    facts: vec![("network".into(), network.display().to_string())],
+                    ..Default::default()
+                },
+            )?,
         ),
     ];
     if let Some(m) = &matrix {
@@ -707,7 +719,9 @@ fn sweep(
     ];
     let core: Vec<bool> = (0..n).map(|i| f_all.class(i) == "core").collect();
     let empty = driftplan::features::FeatureTable::default();
-    let core_assessment = pipeline::assess_network(&inputs, &core);
+    // The report maps the largest budget's network, with the selection share beside it.
+    let largest = &sw.runs[sw.runs.len() - 1];
+    let shown = pipeline::assess_network(&inputs, &largest.solution.selected);
     let files = vec![
         ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
         ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
@@ -724,11 +738,34 @@ fn sweep(
             pipeline::report_html(
                 &plan,
                 &inputs,
-                &core,
-                &core_assessment,
-                None,
-                matrix.as_ref(),
-                Some(&sw),
+                &largest.solution.selected,
+                &shown,
+                pipeline::ReportExtras {
+                    solution: Some(&largest.solution),
+                    stress: matrix.as_ref(),
+                    sweep: Some(&sw),
+                    facts: vec![
+                        (
+                            "network shown".into(),
+                            format!(
+                                "the largest budget, {:.1}% of the sea",
+                                100.0 * largest.share
+                            ),
+                        ),
+                        (
+                            "robust core".into(),
+                            format!(
+                                "{} cells chosen in all {} networks (sweep and scenario designs)",
+                                core.iter().filter(|c| **c).count(),
+                                f_all.networks
+                            ),
+                        ),
+                    ],
+                    maps: vec![(
+                        "selection share (sweep and scenario designs)".into(),
+                        f_all.share.clone(),
+                    )],
+                },
             )?,
         ),
     ];

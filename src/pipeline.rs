@@ -468,27 +468,44 @@ pub fn derived_feature_maps(inputs: &Inputs) -> Vec<(String, Vec<f64>)> {
     maps.into_iter().map(|(k, v)| (when(k), v)).collect()
 }
 
+/// What goes into `report.html` besides the plan, inputs and the network shown.
+#[derive(Default)]
+pub struct ReportExtras<'a> {
+    /// The solve that made the network, if one did.
+    pub solution: Option<&'a Solution>,
+    /// The stress test, if run.
+    pub stress: Option<&'a crate::study::StressMatrix>,
+    /// The budget sweep, if run.
+    pub sweep: Option<&'a crate::study::Sweep>,
+    /// More facts, shown after the run facts (e.g. which network is shown).
+    pub facts: Vec<(String, String)>,
+    /// More per-cell maps, shown before the derived-feature maps (e.g. selection share).
+    pub maps: Vec<(String, Vec<f64>)>,
+}
+
 /// `report.html` of a network under the plan (see [`crate::report`]).
 pub fn report_html(
     plan: &Plan,
     inputs: &Inputs,
     selected: &[bool],
     assessment: &Assessment,
-    solution: Option<&Solution>,
-    stress: Option<&crate::study::StressMatrix>,
-    sweep: Option<&crate::study::Sweep>,
+    extras: ReportExtras,
 ) -> Result<String, crate::export::ExportError> {
+    let mut facts = run_facts(plan, extras.solution, assessment);
+    facts.extend(extras.facts);
+    let mut feature_maps = extras.maps;
+    feature_maps.extend(derived_feature_maps(inputs));
     crate::report::report_html(&crate::report::ReportInput {
         title: &plan.name,
-        facts: run_facts(plan, solution, assessment),
+        facts,
         grid: &inputs.grid,
         selected,
         status: &inputs.status,
         reserves: &assessment.reserves,
-        feature_maps: derived_feature_maps(inputs),
+        feature_maps,
         coverage: &assessment.coverage,
-        stress: stress.map(crate::study::stress::report_table),
-        sweep: sweep.map(crate::study::sweep::report_points),
+        stress: extras.stress.map(crate::study::stress::report_table),
+        sweep: extras.sweep.map(crate::study::sweep::report_points),
     })
 }
 

@@ -129,7 +129,7 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         grid.len()
     );
     if !input.feature_maps.is_empty() {
-        s.push_str("<h2>Climate features</h2>\n<div class=\"maps\">");
+        s.push_str("<h2>Maps of derived features and layers</h2>\n<div class=\"maps\">");
         for (k, (name, values)) in input.feature_maps.iter().enumerate() {
             let _ = write!(
                 s,
