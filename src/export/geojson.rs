@@ -7,7 +7,9 @@
 
 use super::columns::value_names;
 use super::dissolve::dissolve;
-use super::rings::{clean_multipolygon, push_geometry, push_num, round6, split_antimeridian, Poly};
+use super::rings::{
+    clean_multipolygon, push_geometry, push_num, push_prop, round6, split_antimeridian, Poly,
+};
 use super::{ExportError, CAUTION};
 use crate::assess::Assessment;
 use crate::features::FeatureTable;
@@ -227,7 +229,7 @@ pub fn cells_geojson(
                         out.push(',');
                         out.push_str(name);
                         out.push(':');
-                        push_num(&mut out, *v);
+                        push_prop(&mut out, *v);
                     }
                     out.push_str("},\"geometry\":");
                     push_geometry(&mut out, &polys);
