@@ -107,6 +107,9 @@ enum Command {
         /// HiGHS took), to show what the exact solve buys.
         #[arg(long)]
         baselines: bool,
+        /// Skip HiGHS: run only the baselines (annealing gets the time limit).
+        #[arg(long)]
+        no_exact: bool,
     },
     /// The whole run: grid → features → optimise → assess → export.
     ///
@@ -357,6 +360,7 @@ pub fn run(args: Args) -> Result<()> {
             gap,
             edge_penalty,
             baselines,
+            no_exact,
         } => {
             println!(
                 "{:>9}  {:<24} {:>9} {:>10}  note",
@@ -371,6 +375,7 @@ pub fn run(args: Args) -> Result<()> {
                     gap,
                     edge_penalty,
                     baselines,
+                    exact: !no_exact,
                 };
                 for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
                     println!(
