@@ -164,3 +164,27 @@ fn assess_compare_and_sweep_agree_with_solve() {
     .unwrap();
     assert_eq!(gj["features"].as_array().unwrap().len(), cells.len());
 }
+
+#[test]
+fn a_missing_network_file_is_named_once() {
+    let tmp = tempfile::tempdir().unwrap();
+    let plan = common::plan_with_gap(
+        tmp.path(),
+        "max_share = 0.5",
+        "objective = \"min-cost\"",
+        0.0,
+    );
+    let out = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .arg("assess")
+        .arg(&plan)
+        .arg(tmp.path().join("nothere.geojson"))
+        .arg("--out")
+        .arg(tmp.path().join("o"))
+        .output()
+        .unwrap();
+    assert!(!out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!err.contains("panicked"), "{err}");
+    assert_eq!(err.matches("nothere.geojson").count(), 1, "{err}");
+    assert!(!tmp.path().join("o").exists(), "no half-written output");
+}
