@@ -6,10 +6,16 @@
 //! exposed(x) = Σᵢ Pᵢxᵢ − 2 Σ_{i<j} lᵢⱼ xᵢxⱼ, where Pᵢ is `exposed_if_alone_km` (every edge of
 //! cell i that counts when i stands alone: shared edges plus counted coast/boundary) and lᵢⱼ
 //! the shared edge of neighbours i, j. A shared edge inside the network is counted once in Pᵢ
-//! and once in Pⱼ, hence the 2. The product is linearised with continuous zᵢⱼ ∈ [0, 1],
-//! zᵢⱼ ≤ xᵢ, zᵢⱼ ≤ xⱼ: the objective rewards large zᵢⱼ (its coefficient is −2·weight·lᵢⱼ
-//! in a minimisation, +2·weight·lᵢⱼ in a maximisation), so at an optimum zᵢⱼ = min(xᵢ, xⱼ) =
-//! xᵢxⱼ, with no need for the third (lower-bound) row.
+//! and once in Pⱼ, hence the 2.
+//!
+//! # Linear form used by the integer program (the cut form)
+//! For binaries xᵢ + xⱼ − 2xᵢxⱼ = |xᵢ − xⱼ|, so with Bᵢ = Pᵢ − Σⱼ lᵢⱼ (the coast/boundary part
+//! of cell i's edge, [`own_edge_km`]) exposed(x) = Σᵢ Bᵢxᵢ + Σ_{i<j} lᵢⱼ|xᵢ − xⱼ|, linearised with
+//! continuous eᵢⱼ ∈ [0, 1], eᵢⱼ ≥ xᵢ − xⱼ, eᵢⱼ ≥ xⱼ − xᵢ; the penalty always works against
+//! large eᵢⱼ, so at an optimum eᵢⱼ = |xᵢ − xⱼ|. Its LP relaxation equals that of Beyer et al.'s
+//! product form (zᵢⱼ ≤ xᵢ, zᵢⱼ ≤ xⱼ), but its rows are not two-variable implications, so
+//! HiGHS's clique detection does not turn every pair into a clique (with the product form, MIP
+//! set-up spent tens of minutes partitioning those cliques on 30 000 cells).
 //!
 //! Minimisation objectives (min-cost, least-regret) add weight × exposed; maximisation
 //! objectives (max-benefit under every-scenario, worst-case, expected) subtract it.
@@ -32,6 +38,17 @@ pub fn exposed_edge_km(penalty: &EdgePenalty, selected: &[bool]) -> f64 {
         .map(|(_, _, l)| *l)
         .sum();
     alone - 2.0 * shared
+}
+
+/// Bᵢ = Pᵢ − Σⱼ lᵢⱼ: the part of each cell's counted edge that no neighbour shares (coast or
+/// region boundary when the plan counts it, else 0). Units: km.
+pub fn own_edge_km(penalty: &EdgePenalty) -> Vec<f64> {
+    let mut own = penalty.exposed_if_alone_km.clone();
+    for &(i, j, l) in &penalty.pairs {
+        own[i as usize] -= l;
+        own[j as usize] -= l;
+    }
+    own
 }
 
 /// Neighbour lists built from `pairs`: for each cell, `(neighbour, shared km)`, sorted by
@@ -73,6 +90,26 @@ pub fn unit_grid_penalty(rows: usize, cols: usize, weight: f64) -> EdgePenalty {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn own_edge_is_the_unshared_part() {
+        // 2×3 unit grid with the outer boundary counted (P = 4 everywhere): corner cells have 2
+        // neighbours → 2 km own edge; the middle cells of each row have 3 → 1 km (hand count).
+        let own = own_edge_km(&unit_grid_penalty(2, 3, 1.0));
+        assert_eq!(own, vec![2.0, 1.0, 2.0, 2.0, 1.0, 2.0]);
+        // Cut form = product form on every network of the grid (enumerated).
+        let p = unit_grid_penalty(2, 3, 1.0);
+        for mask in 0u32..64 {
+            let sel: Vec<bool> = (0..6).map(|b| mask >> b & 1 == 1).collect();
+            let cut: f64 = (0..6).filter(|&i| sel[i]).map(|i| own[i]).sum::<f64>()
+                + p.pairs
+                    .iter()
+                    .filter(|(i, j, _)| sel[*i as usize] != sel[*j as usize])
+                    .map(|(_, _, l)| l)
+                    .sum::<f64>();
+            assert_eq!(cut, exposed_edge_km(&p, &sel), "mask {mask}");
+        }
+    }
 
     #[test]
     fn perimeters_of_the_tiny_instance() {

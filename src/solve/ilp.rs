@@ -5,8 +5,8 @@
 //! * xᵢ ∈ {0, 1} per cell (required cells fixed to 1, excluded to 0);
 //! * yₖ ∈ [0, capₖ] per feature with a benefit cap (its target, or its total amount when it
 //!   is weight-only), max-benefit only (capped holding, [`crate::model::robust`]);
-//! * zᵢⱼ ∈ [0, 1] per neighbouring pair, with an edge penalty of positive weight
-//!   ([`crate::model::compact`]);
+//! * eᵢⱼ ∈ [0, 1] per neighbouring pair (1 when exactly one of the two is chosen), with an
+//!   edge penalty of positive weight ([`crate::model::compact`]);
 //! * uₚ ∈ [0, 1] per allowed position that needs a max-gap row ([`crate::model::spacing`]);
 //! * t (worst-case benefit) or r (largest regret), free.
 //!
@@ -15,7 +15,7 @@
 //! * max-benefit: yₖ − Σᵢ aᵢₖxᵢ ≤ 0; worst-case: t − Bₛ(y) ≤ 0; least-regret:
 //!   r + Bₛ(y) ≥ Bₛ*;
 //! * budget: Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max area;
-//! * edge penalty: zᵢⱼ − xᵢ ≤ 0, zᵢⱼ − xⱼ ≤ 0;
+//! * edge penalty: xᵢ − xⱼ − eᵢⱼ ≤ 0, xⱼ − xᵢ − eᵢⱼ ≤ 0;
 //! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1;
 //! * minimum size: xᵢ − Σ_{j∈N(i)} xⱼ ≤ 0 for each free cell below the minimum area
 //!   ([`crate::model::min_size`]).
@@ -85,6 +85,11 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         })
         .collect();
     let minimise = is_minimisation(problem);
+    let own_edge = problem
+        .edge_penalty
+        .as_ref()
+        .map(crate::model::compact::own_edge_km)
+        .unwrap_or_default();
     let mut objective = Expression::with_capacity(n);
     let mut constraints = Vec::new();
 
@@ -169,20 +174,22 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         }
     }
 
-    // Edge penalty: sign +1 in minimisations, −1 in maximisations.
+    // Edge penalty: sign +1 in minimisations, −1 in maximisations. Cut form (model::compact):
+    // exposed = Σᵢ Bᵢxᵢ + Σ lᵢⱼ·eᵢⱼ with eᵢⱼ ≥ |xᵢ − xⱼ|; the objective pushes eᵢⱼ down.
     if let Some(pen) = problem.edge_penalty.as_ref().filter(|p| p.weight > 0.0) {
         let sign = if minimise { 1.0 } else { -1.0 };
         for (i, &xi) in x.iter().enumerate() {
-            objective.add_mul(sign * pen.weight * pen.exposed_if_alone_km[i], xi);
+            objective.add_mul(sign * pen.weight * own_edge[i], xi);
         }
         for (q, &(i, j, l)) in pen.pairs.iter().enumerate() {
             if l <= 0.0 {
                 continue;
             }
-            let z = add(&mut vars, variable().min(0.0).max(1.0), Col::Z(q));
-            objective.add_mul(-2.0 * sign * pen.weight * l, z);
-            constraints.push(constraint::leq(z - x[i as usize], 0.0));
-            constraints.push(constraint::leq(z - x[j as usize], 0.0));
+            let (xi, xj) = (x[i as usize], x[j as usize]);
+            let e = add(&mut vars, variable().min(0.0).max(1.0), Col::Z(q));
+            objective.add_mul(sign * pen.weight * l, e);
+            constraints.push(constraint::leq(xi - xj - e, 0.0));
+            constraints.push(constraint::leq(xj - xi - e, 0.0));
         }
     }
 
@@ -275,7 +282,7 @@ impl Formulation {
                         .edge_penalty
                         .as_ref()
                         .map_or((0, 0, 0.0), |p| p.pairs[q]);
-                    xv(i as usize) * xv(j as usize)
+                    (xv(i as usize) - xv(j as usize)).abs()
                 }
                 Col::U(q) => {
                     let any = pos.as_ref().is_some_and(|pos_of| {
