@@ -201,9 +201,14 @@ struct Progress {
 }
 
 impl Progress {
+    /// Bars and spinners only on a terminal, and never with `--quiet`.
+    fn shows_bars(&self) -> bool {
+        !self.quiet && std::io::stderr().is_terminal()
+    }
+
     /// A progress bar on stderr, hidden with `--quiet` or when stderr is not a terminal.
     fn bar(&self, len: u64, what: &str) -> indicatif::ProgressBar {
-        if self.quiet || !std::io::stderr().is_terminal() {
+        if !self.shows_bars() {
             return indicatif::ProgressBar::hidden();
         }
         let bar = indicatif::ProgressBar::new(len);
@@ -217,7 +222,7 @@ impl Progress {
 
     /// A spinner for one long step, hidden like [`Progress::bar`].
     fn spinner(&self, what: &str) -> indicatif::ProgressBar {
-        if self.quiet || !std::io::stderr().is_terminal() {
+        if !self.shows_bars() {
             return indicatif::ProgressBar::hidden();
         }
         let s = indicatif::ProgressBar::new_spinner();
@@ -692,37 +697,11 @@ fn sweep(
     bar.finish_and_clear();
     // Scenario-specific designs at the plan's own budget, for the frequency layer.
     let matrix = stress(&problem, &[], &options, false, progress)?;
-    let sweep_nets: Vec<&[bool]> = sw
-        .runs
-        .iter()
-        .map(|r| r.solution.selected.as_slice())
-        .collect();
-    let scen_nets: Vec<&[bool]> = matrix
-        .iter()
-        .flat_map(|m| m.rows.iter())
-        .filter(|r| !r.selected.is_empty())
-        .map(|r| r.selected.as_slice())
-        .collect();
-    let all: Vec<&[bool]> = sweep_nets.iter().chain(&scen_nets).copied().collect();
     let n = inputs.grid.len();
-    let f_all = driftplan::study::selection_frequency(n, &all);
-    let f_sweep = driftplan::study::selection_frequency(n, &sweep_nets);
-    let f_scen = driftplan::study::selection_frequency(n, &scen_nets);
-    let layers = vec![
-        driftplan::layers::Layer {
-            name: "selection_share".into(),
-            values: f_all.share.clone(),
-        },
-        driftplan::layers::Layer {
-            name: "selection_share_sweep".into(),
-            values: f_sweep.share.clone(),
-        },
-        driftplan::layers::Layer {
-            name: "selection_share_scenarios".into(),
-            values: f_scen.share.clone(),
-        },
-    ];
-    let core: Vec<bool> = (0..n).map(|i| f_all.class(i) == "core").collect();
+    let freq = driftplan::study::frequency::SweepFrequency::new(n, &sw, matrix.as_ref());
+    let f_all = &freq.all;
+    let layers = freq.layers();
+    let core = f_all.core();
     let empty = driftplan::features::FeatureTable::default();
     // The report maps the largest budget's network, with the selection share beside it.
     let largest = &sw.runs[sw.runs.len() - 1];
@@ -732,7 +711,7 @@ fn sweep(
         ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
         (
             "selection-frequency.csv",
-            driftplan::study::frequency::frequency_csv(&f_all),
+            driftplan::study::frequency::frequency_csv(f_all),
         ),
         (
             "selection-frequency.geojson",

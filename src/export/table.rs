@@ -132,16 +132,7 @@ mod tests {
                 shortfall: 0.5,
                 met: false,
             }],
-            cost: 0.0,
-            area_km2: 0.0,
-            share_of_region: 0.0,
-            reserves: vec![],
-            exposed_edge_km: 0.0,
-            targets_met: 0,
-            boundary_edge_km: 0.0,
-            cells_selected: 0,
-            compactness_ratio: f64::NAN,
-            largest_gap_km: 0.0,
+            ..empty_assessment()
         };
         // Expected text written out by hand following RFC 4180 quoting.
         assert_eq!(

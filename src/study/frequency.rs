@@ -28,6 +28,70 @@ impl SelectionFrequency {
     }
 }
 
+impl SelectionFrequency {
+    /// The robust core: cells chosen in every network.
+    pub fn core(&self) -> Vec<bool> {
+        (0..self.share.len())
+            .map(|i| self.class(i) == "core")
+            .collect()
+    }
+}
+
+/// Selection frequency of a sweep: over all its networks and the stress test's scenario
+/// designs together, and over each group alone.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepFrequency {
+    /// Over the sweep's networks and the scenario designs.
+    pub all: SelectionFrequency,
+    /// Over the sweep's networks only.
+    pub sweep: SelectionFrequency,
+    /// Over the scenario designs only (rows of the stress test that have a network).
+    pub scenarios: SelectionFrequency,
+}
+
+impl SweepFrequency {
+    /// Counts `n_cells` cells over the sweep's networks and the designs in `stress`.
+    pub fn new(
+        n_cells: usize,
+        sweep: &crate::study::Sweep,
+        stress: Option<&crate::study::StressMatrix>,
+    ) -> Self {
+        let sweep_nets: Vec<&[bool]> = sweep
+            .runs
+            .iter()
+            .map(|r| r.solution.selected.as_slice())
+            .collect();
+        let scen_nets: Vec<&[bool]> = stress
+            .iter()
+            .flat_map(|m| m.rows.iter())
+            .filter(|r| !r.selected.is_empty())
+            .map(|r| r.selected.as_slice())
+            .collect();
+        let all: Vec<&[bool]> = sweep_nets.iter().chain(&scen_nets).copied().collect();
+        SweepFrequency {
+            all: selection_frequency(n_cells, &all),
+            sweep: selection_frequency(n_cells, &sweep_nets),
+            scenarios: selection_frequency(n_cells, &scen_nets),
+        }
+    }
+
+    /// The three shares as layers (`selection_share`, `_sweep`, `_scenarios`) for the cell
+    /// GeoJSON.
+    pub fn layers(&self) -> Vec<crate::layers::Layer> {
+        [
+            ("selection_share", &self.all),
+            ("selection_share_sweep", &self.sweep),
+            ("selection_share_scenarios", &self.scenarios),
+        ]
+        .into_iter()
+        .map(|(name, f)| crate::layers::Layer {
+            name: name.into(),
+            values: f.share.clone(),
+        })
+        .collect()
+    }
+}
+
 /// Frequency of each of `n_cells` cells over `networks` (each one flag per cell).
 pub fn selection_frequency(n_cells: usize, networks: &[&[bool]]) -> SelectionFrequency {
     let mut count = vec![0usize; n_cells];
@@ -74,6 +138,7 @@ mod tests {
         assert_eq!(f.share, vec![1.0, 0.5, 0.25, 0.0]);
         let classes: Vec<&str> = (0..4).map(|i| f.class(i)).collect();
         assert_eq!(classes, vec!["core", "frequent", "occasional", "never"]);
+        assert_eq!(f.core(), vec![true, false, false, false]);
         let csv = frequency_csv(&f);
         assert!(
             csv.starts_with("cell,selection_share,class\n0,1.000000,core\n"),
