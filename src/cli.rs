@@ -520,7 +520,9 @@ fn solve(
     export::write_outputs(out, &files)?;
     print_summary(&plan, &inputs, &solution, &assessment, out);
     if let Some(m) = &matrix {
-        println!("  stress test (targets met; rows: designed for, columns: evaluated in)");
+        println!(
+            "  stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
+        );
         for line in driftplan::study::stress::stress_table(m).lines() {
             println!("    {line}");
         }
@@ -659,7 +661,9 @@ fn compare(
     export::write_outputs(out, &files)?;
     print!("{}", driftplan::compare::compare_table(&cmp));
     if let Some(m) = &matrix {
-        println!("stress test (targets met; rows: designed for, columns: evaluated in)");
+        println!(
+            "stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
+        );
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("outputs {}", out.display());

@@ -161,7 +161,8 @@ pub const STRESS_COLUMNS: [&str; 8] = [
     "regret",
 ];
 
-/// The matrix as a terminal table: targets met / total in each cell, the worst case last.
+/// The matrix as a terminal table: targets met / total and the benefit in each cell, the worst
+/// case (fewest targets met) last.
 pub fn stress_table(m: &StressMatrix) -> String {
     let w = m
         .rows
@@ -174,9 +175,9 @@ pub fn stress_table(m: &StressMatrix) -> String {
         .scenarios
         .iter()
         .map(|s| s.chars().count())
-        .chain(std::iter::once(9))
+        .chain(std::iter::once(15))
         .max()
-        .unwrap_or(9);
+        .unwrap_or(15);
     let mut out = format!("{:<w$}", "designed for");
     for s in &m.scenarios {
         out.push_str(&format!("  {s:>cw$}"));
@@ -191,7 +192,7 @@ pub fn stress_table(m: &StressMatrix) -> String {
         for r in &row.evaluated {
             out.push_str(&format!(
                 "  {:>cw$}",
-                format!("{}/{}", r.targets_met, r.targets)
+                format!("{}/{} {:.1}", r.targets_met, r.targets, r.benefit)
             ));
         }
         let worst = row.worst_targets_met().unwrap_or(0);
@@ -281,7 +282,8 @@ mod tests {
         assert_eq!(&rows[1][5], "1.500000");
         assert_eq!(&rows[3][3], "");
         let t = stress_table(&m);
-        assert!(t.lines().nth(1).unwrap().contains("2/2"), "{t}");
+        assert!(t.lines().nth(1).unwrap().contains("2/2 2.0"), "{t}");
+        assert!(t.lines().nth(1).unwrap().contains("1/2 1.5"), "{t}");
         assert!(t.contains("infeasible: no"), "{t}");
         // The report keeps rows with a network only.
         let rt = report_table(&m);
