@@ -14,6 +14,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 pub mod climate;
+pub mod terms;
 
 /// One problem found in a plan: where (`key`) and what was expected.
 #[derive(Debug, Clone, PartialEq)]

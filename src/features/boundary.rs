@@ -6,36 +6,7 @@ use crate::grid::{Grid, Projector};
 use geo::MultiLineString;
 use rayon::prelude::*;
 
-/// How a boundary's weight falls off with distance d from it, inside the band.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Decay {
-    /// 1 − d/band: 1 on the line, 0 at the band's edge.
-    Linear,
-    /// exp(−d/scale) inside the band, 0 beyond it.
-    Exponential {
-        /// e-folding distance. Units: km.
-        scale_km: f64,
-    },
-}
-
-impl Decay {
-    /// Weight (0–1) at distance `d_km` for a band of `band_km` (0 beyond the band).
-    pub fn weight(self, d_km: f64, band_km: f64) -> f64 {
-        if d_km.is_nan() || d_km > band_km {
-            return 0.0;
-        }
-        match self {
-            Decay::Linear => {
-                if band_km > 0.0 {
-                    1.0 - d_km / band_km
-                } else {
-                    1.0
-                }
-            }
-            Decay::Exponential { scale_km } => (-d_km / scale_km).exp(),
-        }
-    }
-}
+pub use crate::plan::terms::Decay;
 
 /// Distance from `p` to the segment `a`–`b` (same units as the inputs).
 fn segment_distance(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> f64 {

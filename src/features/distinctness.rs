@@ -8,18 +8,7 @@ use rayon::prelude::*;
 use rstar::primitives::GeomWithData;
 use rstar::RTree;
 
-/// How point values are spread onto cells.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Interpolation {
-    /// Inverse-distance weighting over the points within the radius: Σ vᵢ/dᵢᵖ ÷ Σ 1/dᵢᵖ
-    /// (Shepard 1968, Proc. ACM National Conference, 517–524); power 2 is the usual choice.
-    InverseDistance {
-        /// Distance exponent p (> 0).
-        power: f64,
-    },
-    /// The value of the nearest point within the radius (ties: the earlier point).
-    Nearest,
-}
+pub use crate::plan::terms::Interpolation;
 
 /// Values at points (WGS84 `[lon, lat]`, value) spread onto cells: each cell centre takes the
 /// interpolated value of the points within `radius_km` (grid km), 0 beyond it. A point exactly

@@ -8,6 +8,8 @@ pub mod distinctness;
 pub mod edges;
 pub mod time;
 
+pub use crate::plan::terms::Target;
+
 /// What kind of thing a feature is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum FeatureKind {
@@ -38,25 +40,6 @@ impl FeatureKind {
             FeatureKind::Refugium => "refugium",
             FeatureKind::Boundary => "boundary",
             FeatureKind::Distinctness => "distinctness",
-        }
-    }
-}
-
-/// How much of a feature's total the network must hold.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Target {
-    /// A share (0–1) of the feature's total amount.
-    Share(f64),
-    /// An absolute amount in the feature's unit.
-    Amount(f64),
-}
-
-impl Target {
-    /// The absolute amount this target asks for, given the feature's total.
-    pub fn amount(self, total: f64) -> f64 {
-        match self {
-            Target::Share(s) => s * total,
-            Target::Amount(a) => a,
         }
     }
 }

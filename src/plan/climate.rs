@@ -41,11 +41,9 @@
 //! combine_years = true
 //! ```
 
+use super::terms::{Decay, Interpolation, Target};
 use super::{Checker, Extra, LayerTemplate, RawLayer};
 use crate::climate::{ExposureMetric, TrajectoryParams};
-use crate::features::boundary::Decay;
-use crate::features::distinctness::Interpolation;
-use crate::features::Target;
 use crate::layers::{Missing, Sampling};
 use serde::Deserialize;
 use std::path::PathBuf;

@@ -1,0 +1,57 @@
+//! `driftplan bench`: the scaling benchmark (figures printed, never asserted).
+
+use super::Progress;
+use anyhow::Result;
+
+/// Arguments of `driftplan bench`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct Args {
+    /// Approximate cell counts to run, comma-separated.
+    #[arg(long, value_delimiter = ',', default_value = "10000,100000")]
+    cells: Vec<usize>,
+    /// Species per region (each gives 12 features).
+    #[arg(long, default_value_t = 10)]
+    species: usize,
+    /// Solver time limit per run. Units: s.
+    #[arg(long, default_value_t = 120.0)]
+    time_limit: f64,
+    /// Solver relative gap.
+    #[arg(long, default_value_t = 0.01)]
+    gap: f64,
+    /// Edge-penalty weight per km of exposed reserve edge (off when not given).
+    #[arg(long, value_name = "WEIGHT")]
+    edge_penalty: Option<f64>,
+    /// Also run the greedy and simulated-annealing baselines (annealing gets the time
+    /// HiGHS took), to show what the exact solve buys.
+    #[arg(long)]
+    baselines: bool,
+    /// Skip HiGHS: run only the baselines (annealing gets the time limit).
+    #[arg(long)]
+    no_exact: bool,
+}
+
+pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
+    println!(
+        "{:>9}  {:<24} {:>9} {:>10}  note",
+        "cells", "stage", "seconds", "peak MiB"
+    );
+    for n in args.cells {
+        anyhow::ensure!(n >= 100, "--cells values must be at least 100, got {n}");
+        let spec = driftplan::bench::BenchSpec {
+            cells: n,
+            species: args.species,
+            time_limit_s: args.time_limit,
+            gap: args.gap,
+            edge_penalty: args.edge_penalty,
+            baselines: args.baselines,
+            exact: !args.no_exact,
+        };
+        for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
+            println!(
+                "{n:>9}  {:<24} {:>9.2} {:>10.1}  {}",
+                f.stage, f.seconds, f.peak_mib, f.note
+            );
+        }
+    }
+    Ok(())
+}

@@ -1,0 +1,101 @@
+//! `driftplan compare`: several networks side by side.
+
+use super::{file_stem, load, read_network, solve_options, stress, Progress, SolverArgs};
+use anyhow::Result;
+use driftplan::{export, pipeline};
+use std::path::{Path, PathBuf};
+
+/// Arguments of `driftplan compare`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct Args {
+    /// The plan file (TOML).
+    plan: PathBuf,
+    /// Two or more networks (GeoJSON polygons or cell-id CSV).
+    #[arg(required = true, num_args = 1..)]
+    networks: Vec<PathBuf>,
+    /// Output folder.
+    #[arg(long)]
+    out: PathBuf,
+    /// Names for the networks, comma-separated, in order (default: file stems).
+    #[arg(long, value_delimiter = ',')]
+    names: Vec<String>,
+    /// A cell counts as chosen when at least this share of its sea area lies inside the
+    /// network's polygons (GeoJSON only).
+    #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
+    min_share: f64,
+    /// Skip the scenario stress test (one extra solve per scenario).
+    #[arg(long)]
+    no_stress: bool,
+    #[command(flatten)]
+    solver: SolverArgs,
+}
+
+pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
+    compare(
+        &a.plan,
+        &a.networks,
+        &a.names,
+        &a.out,
+        a.min_share,
+        a.no_stress,
+        &a.solver,
+        progress,
+    )
+}
+
+#[allow(clippy::too_many_arguments)]
+fn compare(
+    plan_path: &Path,
+    networks: &[PathBuf],
+    names: &[String],
+    out: &Path,
+    min_share: f64,
+    no_stress: bool,
+    solver: &SolverArgs,
+    progress: &Progress,
+) -> Result<()> {
+    anyhow::ensure!(
+        names.is_empty() || names.len() == networks.len(),
+        "--names gives {} names for {} networks; give one name per network, in order",
+        names.len(),
+        networks.len()
+    );
+    let plan = load(plan_path)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let mut given = Vec::new();
+    for (i, path) in networks.iter().enumerate() {
+        let name = names.get(i).cloned().unwrap_or_else(|| file_stem(path));
+        given.push((name, read_network(path, &inputs, min_share)?));
+    }
+    let assessments: Vec<driftplan::assess::Assessment> = given
+        .iter()
+        .map(|(_, sel)| pipeline::assess_network(&inputs, sel))
+        .collect();
+    let named: Vec<(String, &driftplan::assess::Assessment)> = given
+        .iter()
+        .zip(&assessments)
+        .map(|((n, _), a)| (n.clone(), a))
+        .collect();
+    let cmp = driftplan::compare::compare(&named)?;
+    let problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, solver)?;
+    let matrix = stress(&problem, &given, &options, no_stress, progress)?;
+    let mut files = vec![
+        ("compare.csv", driftplan::compare::compare_csv(&cmp)),
+        ("compare.json", driftplan::compare::compare_json(&cmp)),
+    ];
+    if let Some(m) = &matrix {
+        files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
+    }
+    export::write_outputs(out, &files)?;
+    print!("{}", driftplan::compare::compare_table(&cmp));
+    if let Some(m) = &matrix {
+        println!(
+            "stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
+        );
+        print!("{}", driftplan::study::stress::stress_table(m));
+    }
+    println!("outputs {}", out.display());
+    println!("{}", export::CAUTION);
+    Ok(())
+}

@@ -1,0 +1,43 @@
+//! `driftplan features`: build grid, layers and features and write them for inspection.
+
+use super::{load, Progress};
+use anyhow::Result;
+use driftplan::{export, pipeline};
+use std::path::PathBuf;
+
+/// Arguments of `driftplan features`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct Args {
+    /// The plan file (TOML).
+    plan: PathBuf,
+    /// Output folder.
+    #[arg(long)]
+    out: PathBuf,
+}
+
+pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
+    let plan = load(&args.plan)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let none = vec![false; inputs.grid.len()];
+    let files = vec![
+        (
+            "cells.geojson",
+            export::geojson::cells_geojson(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
+        ),
+        (
+            "cells.csv",
+            export::cells_csv(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
+        ),
+        ("features.csv", export::features_csv(&inputs.features)?),
+        (
+            "edge-shifts.csv",
+            export::edge_shifts_csv(&inputs.edge_shifts)?,
+        ),
+    ];
+    export::write_outputs(&args.out, &files)?;
+    progress.say(&format!(
+        "wrote cells.geojson, cells.csv and features.csv to {}",
+        args.out.display()
+    ));
+    Ok(())
+}

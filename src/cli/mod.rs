@@ -1,0 +1,240 @@
+//! Command definitions (clap) and handlers, one file per command. Each handler parses its
+//! arguments, calls the library and prints; the work itself lives in the library.
+
+use anyhow::Result;
+use clap::{Parser, Subcommand};
+use driftplan::pipeline::{self, Inputs};
+use driftplan::plan::Plan;
+use std::io::IsTerminal;
+use std::path::Path;
+use std::time::Instant;
+
+mod assess;
+mod bench;
+mod check;
+mod compare;
+mod demo;
+mod features;
+mod grid;
+mod solve;
+mod sweep;
+
+/// Plan marine protected area networks that keep protecting species as their ranges shift
+/// poleward under several warming scenarios.
+///
+/// Results are decision support built on projections with large uncertainty; siting
+/// decisions rest with the planning authority, local law and consultation with those who use
+/// the sea.
+#[derive(Parser, Debug)]
+#[command(name = "driftplan", version, about, long_about)]
+pub struct Args {
+    /// Print no progress messages.
+    #[arg(long, short, global = true)]
+    quiet: bool,
+    /// What to do.
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Write the invented demo region (Merrow Coast) and its plan, then solve it.
+    ///
+    /// Writes DIR/demo-data/ and DIR/scenarios/demo.toml (the same files as the repository's
+    /// demo-data/ and scenarios/demo.toml), then runs `solve` on that plan into DIR.
+    Demo(demo::Args),
+    /// Validate a plan file and every input it names; report every problem found.
+    Check(check::Args),
+    /// Build the equal-area grid and write it (grid.geojson, grid.csv).
+    Grid(grid::Args),
+    /// Build grid, layers and features and write them for inspection (cells.geojson, cells.csv).
+    Features(features::Args),
+    /// Scaling benchmark: synthetic regions, time and peak memory of each stage.
+    ///
+    /// Builds a square synthetic region near 40°S (2 km cells, a land block in the middle),
+    /// synthetic species bands that move south with warming (3 scenarios × 4 years), and runs
+    /// grid → layers → features → model → solve → assess → export on it.
+    Bench(bench::Args),
+    /// The whole run: grid → features → optimise → assess → export.
+    ///
+    /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
+    /// stress.csv (each scenario solved alone and the network scored in every scenario) and
+    /// report.html.
+    Solve(solve::Args),
+    /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
+    ///
+    /// Writes coverage.csv, reserves.csv, assessment.json (every measure), network.geojson
+    /// (the chosen cells dissolved into reserves), stress.csv and report.html.
+    Assess(assess::Args),
+    /// Assess several networks side by side: a table, compare.csv, compare.json, stress.csv.
+    Compare(compare::Args),
+    /// One max-benefit solve per budget: the cost–benefit curve, the budget at which each
+    /// target is first met, and how often each cell is chosen.
+    ///
+    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson
+    /// and report.html. Budgets are shares of the region's sea area; `...` continues an even
+    /// step (`5%,10%,...,40%`).
+    Sweep(sweep::Args),
+}
+
+/// Runs one command.
+pub fn run(args: Args) -> Result<()> {
+    let progress = Progress::new(args.quiet);
+    match args.command {
+        Command::Demo(a) => demo::run(a, &progress),
+        Command::Check(a) => check::run(a, &progress),
+        Command::Grid(a) => grid::run(a, &progress),
+        Command::Features(a) => features::run(a, &progress),
+        Command::Bench(a) => bench::run(a, &progress),
+        Command::Solve(a) => solve::run(a, &progress),
+        Command::Assess(a) => assess::run(a, &progress),
+        Command::Compare(a) => compare::run(a, &progress),
+        Command::Sweep(a) => sweep::run(a, &progress),
+    }
+}
+
+/// Solver settings that override the plan's `[solver]` table.
+#[derive(clap::Args, Debug, Clone, Default)]
+pub(crate) struct SolverArgs {
+    /// Stop after this many seconds and return the best network found (overrides the plan).
+    #[arg(long, value_name = "SECONDS")]
+    time_limit: Option<f64>,
+    /// Stop when the proven relative gap is at most this, e.g. 0.01 for 1% (overrides the plan).
+    #[arg(long, value_name = "SHARE")]
+    gap: Option<f64>,
+    /// Solver threads (overrides the plan).
+    #[arg(long, value_name = "N")]
+    threads: Option<u32>,
+    /// Show the solver's own log on stderr.
+    #[arg(long)]
+    solver_log: bool,
+}
+
+/// Prints progress lines on stderr unless quiet; stays quiet when stderr is not a terminal
+/// only if asked to (plain lines are harmless in logs).
+pub(crate) struct Progress {
+    quiet: bool,
+    start: Instant,
+}
+
+impl Progress {
+    /// Bars and spinners only on a terminal, and never with `--quiet`.
+    fn shows_bars(&self) -> bool {
+        !self.quiet && std::io::stderr().is_terminal()
+    }
+
+    /// A progress bar on stderr, hidden with `--quiet` or when stderr is not a terminal.
+    pub(crate) fn bar(&self, len: u64, what: &str) -> indicatif::ProgressBar {
+        if !self.shows_bars() {
+            return indicatif::ProgressBar::hidden();
+        }
+        let bar = indicatif::ProgressBar::new(len);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template("{bar:30} {pos}/{len} {msg} ({elapsed})")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        bar.set_message(what.to_string());
+        bar
+    }
+
+    /// A spinner for one long step, hidden like [`Progress::bar`].
+    pub(crate) fn spinner(&self, what: &str) -> indicatif::ProgressBar {
+        if !self.shows_bars() {
+            return indicatif::ProgressBar::hidden();
+        }
+        let s = indicatif::ProgressBar::new_spinner();
+        s.set_message(what.to_string());
+        s.enable_steady_tick(std::time::Duration::from_millis(200));
+        s
+    }
+
+    fn new(quiet: bool) -> Progress {
+        Progress {
+            quiet,
+            start: Instant::now(),
+        }
+    }
+
+    /// One progress line with the elapsed time.
+    pub(crate) fn say(&self, msg: &str) {
+        if !self.quiet {
+            let t = self.start.elapsed().as_secs_f64();
+            if std::io::stderr().is_terminal() {
+                eprintln!("\x1b[2m[{t:6.1}s]\x1b[0m {msg}");
+            } else {
+                eprintln!("[{t:6.1}s] {msg}");
+            }
+        }
+    }
+}
+
+/// Reads and validates a plan file.
+pub(crate) fn load(path: &Path) -> Result<Plan> {
+    Ok(Plan::load(path)?)
+}
+
+/// Solver options from the plan with the command line's overrides.
+pub(crate) fn solve_options(
+    plan: &Plan,
+    solver: &SolverArgs,
+) -> Result<driftplan::solve::SolveOptions> {
+    let mut options = pipeline::solve_options(plan);
+    if let Some(t) = solver.time_limit {
+        anyhow::ensure!(
+            t.is_finite() && t > 0.0,
+            "--time-limit must be a positive number of seconds, got {t}"
+        );
+        options.time_limit_s = Some(t);
+    }
+    if let Some(g) = solver.gap {
+        anyhow::ensure!(
+            g.is_finite() && (0.0..1.0).contains(&g),
+            "--gap must be in [0, 1), e.g. 0.01 for 1%; got {g}"
+        );
+        options.rel_gap = g;
+    }
+    if let Some(n) = solver.threads {
+        anyhow::ensure!(n > 0, "--threads must be at least 1");
+        options.threads = Some(n);
+    }
+    options.verbose = solver.solver_log;
+    Ok(options)
+}
+
+/// The stress test with a progress bar (skipped with one scenario or when asked).
+pub(crate) fn stress(
+    problem: &driftplan::model::Problem,
+    given: &[(String, Vec<bool>)],
+    options: &driftplan::solve::SolveOptions,
+    skip: bool,
+    progress: &Progress,
+) -> Result<Option<driftplan::study::StressMatrix>> {
+    if skip || problem.scenarios.len() < 2 {
+        return Ok(None);
+    }
+    progress.say(&format!(
+        "stress test: solving each of {} scenarios alone",
+        problem.scenarios.len()
+    ));
+    let bar = progress.bar(problem.scenarios.len() as u64, "scenario solves");
+    let m = driftplan::study::stress_test(problem, given, options, &|| bar.inc(1))?;
+    bar.finish_and_clear();
+    Ok(Some(m))
+}
+
+/// Reads a network file into one flag per cell.
+pub(crate) fn read_network(path: &Path, inputs: &Inputs, min_share: f64) -> Result<Vec<bool>> {
+    // The reader's errors already name the file.
+    Ok(driftplan::assess::network_input::read_network(
+        path,
+        &inputs.grid,
+        min_share,
+    )?)
+}
+
+/// The file name without its extension, as a default network name.
+pub(crate) fn file_stem(p: &Path) -> String {
+    p.file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| p.display().to_string())
+}
