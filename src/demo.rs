@@ -243,8 +243,17 @@ fn fishing_cost(lon: f64, lat: f64) -> f64 {
         + 5.0 * (-((depth - 200.0) / 120.0).powi(2)).exp()
 }
 
-/// Lattice of CSV points: (lon, lat) in row order (south to north, west to east).
+/// Lattice of CSV points over the sea: (lon, lat) in row order (south to north, west to
+/// east). Land points are left out, as ocean products leave them out.
 fn lattice() -> Vec<(f64, f64)> {
+    full_lattice()
+        .into_iter()
+        .filter(|&(lon, lat)| depth_m(lon, lat) > 0.0)
+        .collect()
+}
+
+/// Every point of the lattice, land included.
+fn full_lattice() -> Vec<(f64, f64)> {
     let n_lon = ((EAST - WEST) / STEP).round() as i64 + 1;
     let n_lat = ((NORTH - SOUTH) / STEP).round() as i64 + 1;
     let mut pts = Vec::with_capacity((n_lon * n_lat) as usize);

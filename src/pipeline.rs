@@ -7,7 +7,7 @@ use crate::features::edges::meridian_distance_km;
 use crate::features::habitat::{habitat_feature, HabitatLayer};
 use crate::features::FeatureTable;
 use crate::grid::{build_grid, Grid, GridError};
-use crate::layers::{read_multipolygon, sample, Layer, LayerError, SourceCache};
+use crate::layers::{read_multipolygon, sample, Layer, LayerError, SamplingReport, SourceCache};
 use crate::model::{
     Budget, CellStatus, EdgePenalty, MinReserve, ModelFeature, Problem, Scenario, Spacing,
 };
@@ -66,6 +66,10 @@ pub struct Inputs {
     pub features: FeatureTable,
     /// Range-edge shifts per species and scenario (empty without a `[climate]` section).
     pub edge_shifts: Vec<crate::features::derive::EdgeShift>,
+    /// How each point-lattice layer was sampled (bilinear / coastal / nearest / missing cells).
+    pub sampling: Vec<SamplingReport>,
+    /// Per scenario: cells whose temperature gradient was below the velocity floor.
+    pub velocity_floored: Vec<(String, usize)>,
 }
 
 /// Builds the grid of a plan.
@@ -255,6 +259,7 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         },
     );
     let mut edge_shifts = Vec::new();
+    let mut velocity_floored = Vec::new();
     if let Some(climate) = &plan.climate {
         progress("deriving climate features (velocity, trajectories, edges, refugia, ...)");
         let derived = crate::features::derive::derive_climate_features(
@@ -269,6 +274,7 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         features.features.extend(derived.features);
         layers.extend(derived.layers);
         edge_shifts = derived.edge_shifts;
+        velocity_floored = derived.velocity_floored;
     }
     progress(&format!("features: {}", features.features.len()));
     Ok(Inputs {
@@ -278,7 +284,29 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         status,
         features,
         edge_shifts,
+        sampling: cache.sampling_reports(),
+        velocity_floored,
     })
+}
+
+/// What a planner should know about how the inputs were read: per group of point-lattice
+/// layers, how many cells were bilinear / coastal fallback / nearest / missing; per scenario,
+/// how many cells' temperature gradient fell below the velocity floor. `check` prints these
+/// and the run header shows them.
+pub fn input_notes(inputs: &Inputs) -> Vec<String> {
+    let mut notes: Vec<String> = crate::layers::sampling_lines(&inputs.sampling)
+        .into_iter()
+        .map(|l| format!("sampled {l}"))
+        .collect();
+    for (scenario, n) in &inputs.velocity_floored {
+        if *n > 0 {
+            notes.push(format!(
+                "climate velocity in {scenario}: {n} of {} cells have a temperature gradient below the floor (speed capped at trend ÷ floor; bearing left missing on purpose)",
+                inputs.grid.len()
+            ));
+        }
+    }
+    notes
 }
 
 /// The model's feature rows: each feature's amounts with its target as an absolute amount.
@@ -607,6 +635,8 @@ mod tests {
             layers: vec![],
             features,
             edge_shifts: vec![],
+            sampling: vec![],
+            velocity_floored: vec![],
             grid,
         };
         let maps = derived_feature_maps(&inputs);

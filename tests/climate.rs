@@ -361,3 +361,75 @@ fn results_do_not_depend_on_the_thread_count() {
     kinds.dedup();
     assert!(kinds.len() > 1, "{kinds:?}");
 }
+
+#[test]
+fn velocity_next_to_a_coast_is_trend_over_gradient_in_every_sea_cell() {
+    // SST = 20 − 0.5·(lat − 45) + 0.02·(t − 2030) as an ocean product delivers it: a 0.1°
+    // lon/lat lattice with the points on land left out. The grid has a coast (a land block
+    // covering its north-east quarter). Reference, as in the test above: 1° of meridian near
+    // 45°N from geographiclib-rs (Karney 2013), so speed = 0.02 · degree_km / 0.5 km/yr in
+    // every sea cell, coastal ones included (0.3 % for the LAEA scale and the curvature of
+    // latitude lines across the 120 km grid).
+    use driftplan::grid::{build_grid, CrsChoice, GridSpec};
+    use driftplan::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
+    let dir = tempfile::tempdir().unwrap();
+    let ring = |w: f64, s: f64, e: f64, n: f64| {
+        geo::MultiPolygon(vec![geo::Polygon::new(
+            geo::LineString::from(vec![(w, s), (e, s), (e, n), (w, n), (w, s)]),
+            vec![],
+        )])
+    };
+    let region = ring(-0.8, 44.5, 0.8, 45.5);
+    let land = ring(0.1, 45.05, 1.0, 46.0);
+    let spec = GridSpec {
+        cell_size_km: 10.0,
+        crs: CrsChoice::Auto,
+        min_sea_share: 0.1,
+    };
+    let grid = build_grid(&spec, &region, Some(&land)).unwrap();
+    let on_land = |lon: f64, lat: f64| lon > 0.15 && lat > 45.05;
+    let mut temps = Vec::new();
+    let cache = SourceCache::new();
+    for &yr in &YEARS {
+        let mut text = String::from("lon,lat,sst\n");
+        for j in 0..=14 {
+            for i in 0..=20 {
+                let (lon, lat) = (-1.0 + 0.1 * i as f64, 44.3 + 0.1 * j as f64);
+                if !on_land(lon, lat) {
+                    let t = 20.0 - 0.5 * (lat - 45.0) + 0.02 * (yr - 2030) as f64;
+                    text.push_str(&format!("{lon:.1},{lat:.1},{t}\n"));
+                }
+            }
+        }
+        let path = dir.path().join(format!("sst_{yr}.csv"));
+        std::fs::write(&path, text).unwrap();
+        let layer = sample(
+            &format!("sst_c/s/{yr}"),
+            &LayerSpec {
+                path,
+                sampling: Sampling::Interpolate,
+                field: Some("sst".into()),
+                crs: None,
+                valid_range: None,
+                missing: Missing::Error,
+            },
+            &grid,
+            &cache,
+        )
+        .unwrap();
+        temps.push(layer.values);
+    }
+    let coastal: usize = cache.sampling_reports().iter().map(|r| r.coastal).sum();
+    assert!(coastal > 0, "the test must exercise the coastal fallback");
+    let v = climate_velocity(&grid, &YEARS, &temps, &VelocityParams::default()).unwrap();
+    let degree_m: f64 = Geodesic::wgs84().inverse(44.5, 0.0, 45.5, 0.0);
+    let want = 0.02 * (degree_m / 1000.0) / 0.5;
+    for id in 0..grid.len() {
+        let got = v.speed_km_per_yr[id];
+        assert!(
+            (got / want - 1.0).abs() < 3e-3,
+            "cell {id}: {got} vs {want}"
+        );
+        assert!(v.bearing_deg[id].is_finite() && !v.floored[id]);
+    }
+}

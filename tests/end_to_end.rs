@@ -221,3 +221,39 @@ fn climate_demo_holds_leading_edge_and_refugium_targets_in_every_scenario() {
         );
     }
 }
+
+#[test]
+fn check_reports_how_lattices_with_land_left_out_were_sampled() {
+    // The demo's lattices leave out land points, as ocean products do. `check` must pass, say
+    // per group of layers how many cells were bilinear / coastal fallback / nearest /
+    // missing, and keep almost every cell bilinear (only cells next to the coast lose a
+    // corner).
+    let (dir, plan) = demo_copy();
+    let text = std::fs::read_to_string(dir.path().join("demo-data/static.csv")).unwrap();
+    let rows = text.lines().count() - 1;
+    // The full lattice is 46 × 56 points at 0.1° (121.5–117°W, 39.5–34°S).
+    assert!(rows < 46 * 56, "land points are left out ({rows} rows)");
+    let out = driftplan().arg("check").arg(&plan).output().unwrap();
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        out.status.success(),
+        "{stdout}\n{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let line = stdout
+        .lines()
+        .find(|l| l.contains("sampled habitat ("))
+        .unwrap_or_else(|| panic!("no habitat sampling line in:\n{stdout}"));
+    let count = |what: &str| -> usize {
+        let at = line.find(&format!(" {what}")).unwrap();
+        line[..at].rsplit(' ').next().unwrap().parse().unwrap()
+    };
+    let (bilinear, coastal, nearest) = (
+        count("bilinear,"),
+        count("coastal fallback"),
+        count("nearest,"),
+    );
+    assert!(coastal > 0, "{line}");
+    assert!(bilinear > 10 * (coastal + nearest), "{line}");
+    assert!(stdout.contains("sampled sst_c ("), "{stdout}");
+}

@@ -460,3 +460,161 @@ fn independent_parse_of_the_region_fixture() {
     assert_eq!(pts.len(), 4);
     assert_eq!(pts.iter().map(|p| p.1).sum::<f64>(), 22.0);
 }
+
+/// Writes a `lon,lat,v` CSV of the lattice lon 4.0 + 0.1·i (i < 21), lat 49.4 + 0.1·j
+/// (j < 13) with `v = f(lon, lat)`, leaving out the points where `land(lon, lat)`.
+fn lattice_csv(
+    dir: &Path,
+    name: &str,
+    f: &dyn Fn(f64, f64) -> f64,
+    land: &dyn Fn(f64, f64) -> bool,
+) -> PathBuf {
+    let mut text = String::from("lon,lat,v\n");
+    for j in 0..13 {
+        for i in 0..21 {
+            let (lon, lat) = (4.0 + 0.1 * i as f64, 49.4 + 0.1 * j as f64);
+            if !land(lon, lat) {
+                text.push_str(&format!("{lon:.1},{lat:.1},{}\n", f(lon, lat)));
+            }
+        }
+    }
+    let path = dir.join(name);
+    std::fs::write(&path, text).unwrap();
+    path
+}
+
+#[test]
+fn a_lattice_with_land_left_out_stays_bilinear_where_it_can() {
+    // Requirement (sampling of ocean products that omit land points): the complete lattice
+    // and the same lattice with "land" points deleted give identical values in every cell
+    // whose four corners are present; the other cells get the coastal plane, which for a
+    // plane v = a + b·lon + c·lat reproduces it exactly (bilinear is exact for such a field:
+    // Press et al., Numerical Recipes, §3.6), so every cell matches the field to 1e-9.
+    let dir = tempfile::tempdir().unwrap();
+    let f = |lon: f64, lat: f64| 12.0 + 0.9 * lon - 2.1 * lat;
+    // An island: 3 × 3 lattice points (5.1–5.3°E, 50.0–50.2°N) are land; cells over it have
+    // no corner present and take the plane through the ring of points around it.
+    let land = |lon: f64, lat: f64| (5.05..5.35).contains(&lon) && (49.95..50.25).contains(&lat);
+    let full = lattice_csv(dir.path(), "full.csv", &f, &|_, _| false);
+    let holes = lattice_csv(dir.path(), "holes.csv", &f, &land);
+    let g = grid_laea();
+    let cache = SourceCache::new();
+    let a = sample(
+        "full",
+        &spec(full, Sampling::Interpolate, Some("v"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    let b = sample(
+        "sst_c/s/2030",
+        &spec(holes, Sampling::Interpolate, Some("v"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    let reports = cache.sampling_reports();
+    let full_r = reports.iter().find(|r| r.layer == "full").unwrap();
+    let r = reports.iter().find(|r| r.layer == "sst_c/s/2030").unwrap();
+    assert_eq!(full_r.bilinear, g.len(), "{full_r:?}");
+    assert_eq!(r.bilinear + r.coastal + r.nearest + r.missing, g.len());
+    assert!(r.coastal > 0 && r.bilinear > 0, "{r:?}");
+    assert_eq!(r.missing, 0);
+    assert!(
+        r.method
+            .starts_with("bilinear on a lattice of step 0.1 × 0.1°"),
+        "{}",
+        r.method
+    );
+    let mut identical = 0;
+    for (id, c) in g.cells.iter().enumerate() {
+        let [lon, lat] = c.lonlat;
+        assert!((b.values[id] - f(lon, lat)).abs() < 1e-9, "cell {id}");
+        if a.values[id] == b.values[id] {
+            identical += 1;
+        }
+    }
+    // Every bilinear cell is bit-identical to the complete lattice's value.
+    assert!(identical >= r.bilinear, "{identical} < {}", r.bilinear);
+}
+
+#[test]
+fn points_off_one_lattice_fall_back_to_nearest_and_say_why() {
+    // A lattice with one point moved off its line (5.0 → 5.04) is not one lattice: the layer
+    // is sampled by nearest point and the report names an x coordinate off the lattice.
+    let dir = tempfile::tempdir().unwrap();
+    let path = lattice_csv(dir.path(), "off.csv", &|_, _| 1.0, &|_, _| false);
+    let text = std::fs::read_to_string(&path)
+        .unwrap()
+        .replacen("5.0,49.4,", "5.04,49.4,", 1);
+    std::fs::write(&path, text).unwrap();
+    let g = grid_laea();
+    let cache = SourceCache::new();
+    sample(
+        "off",
+        &spec(path, Sampling::Interpolate, Some("v"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    let r = &cache.sampling_reports()[0];
+    assert_eq!(r.nearest, g.len(), "{r:?}");
+    assert!(
+        r.method.contains("not one regular lattice") && r.method.contains("x = "),
+        "{}",
+        r.method
+    );
+}
+
+#[test]
+fn a_projected_lattice_with_a_hole_is_bilinear_in_its_own_crs() {
+    // An EPSG:3035 point grid of 500 m step (E 3 999 750 + 500·i, N 2 999 750 + 500·j), with
+    // v = 2 + 0.003·(E − 4e6) − 0.001·(N − 3e6) (a plane in the file's CRS) and one point left
+    // out. Every cell centre of a 1 km EPSG:3035 grid reproduces the plane: bilinear where the
+    // four corners exist, the coastal plane next to the hole (Press et al., §3.6; a plane is
+    // reproduced exactly by both rules). The PROJ round trip lonlat ↔ 3035 costs < 1 mm.
+    let dir = tempfile::tempdir().unwrap();
+    let f = |e: f64, n: f64| 2.0 + 0.003 * (e - 4.0e6) - 0.001 * (n - 3.0e6);
+    let mut text = String::from("x,y,v\n");
+    for j in 0..6 {
+        for i in 0..10 {
+            if (i, j) == (4, 2) {
+                continue;
+            }
+            let (e, n) = (
+                3_999_750.0 + 500.0 * i as f64,
+                2_999_750.0 + 500.0 * j as f64,
+            );
+            text.push_str(&format!("{e},{n},{}\n", f(e, n)));
+        }
+    }
+    let path = dir.path().join("proj.csv");
+    std::fs::write(&path, text).unwrap();
+    let g = grid_3035(4, 2);
+    let cache = SourceCache::new();
+    let layer = sample(
+        "v",
+        &spec(path, Sampling::Interpolate, Some("v"), Some("EPSG:3035")),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    for (id, c) in g.cells.iter().enumerate() {
+        let want = f(c.centre[0], c.centre[1]);
+        assert!(
+            (layer.values[id] - want).abs() < 1e-5,
+            "cell {id}: {} vs {want}",
+            layer.values[id]
+        );
+    }
+    let r = &cache.sampling_reports()[0];
+    // By hand: cell centres are at E 4 000 500 + 1000·k, lattice lines at 3 999 750 + 500·i,
+    // so a centre sits at lattice position 1.5 + 2k; the hole (i, j) = (4, 2) is a corner only
+    // of the cell centred (4 001 500, 3 000 500) — at position (3.5, 1.5).
+    assert_eq!(
+        (r.bilinear, r.coastal, r.nearest, r.missing),
+        (7, 1, 0, 0),
+        "{r:?}"
+    );
+    assert!(r.method.contains("(file units)"), "{}", r.method);
+}

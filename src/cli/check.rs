@@ -29,5 +29,8 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         count(CellStatus::Required),
         count(CellStatus::Excluded),
     );
+    for note in pipeline::input_notes(&inputs) {
+        println!("  {note}");
+    }
     Ok(())
 }

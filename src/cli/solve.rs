@@ -43,6 +43,9 @@ pub(crate) fn solve(
 ) -> Result<()> {
     let plan = load(plan_path)?;
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    for note in pipeline::input_notes(&inputs) {
+        progress.say(&note);
+    }
     let mut problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
     progress.say(&format!(
@@ -109,13 +112,15 @@ fn write_solution(
     assessment: &driftplan::assess::Assessment,
     out: &Path,
 ) -> Result<()> {
-    let summary = export::Summary::new(
+    let mut summary = export::Summary::new(
         &plan.name,
         &plan.hash,
         solution,
         assessment,
         inputs.grid.len(),
     );
+    summary.sampling = inputs.sampling.clone();
+    summary.velocity_floored_cells = inputs.velocity_floored.iter().cloned().collect();
     let files = vec![
         (
             "network.geojson",

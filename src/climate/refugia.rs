@@ -175,6 +175,7 @@ mod tests {
             gradient_c_per_km: vec![0.0; 4],
             speed_km_per_yr: speed,
             bearing_deg: vec![0.0; 4],
+            floored: vec![false; 4],
             grid_velocity: vec![[0.0, 0.0]; 4],
         };
         let a1 = [(0u32, 0.3), (1, 0.5)];

@@ -414,6 +414,7 @@ mod tests {
             gradient_c_per_km: vec![0.0; n],
             speed_km_per_yr: gv.iter().map(|v| v[0].hypot(v[1])).collect(),
             bearing_deg: vec![f64::NAN; n],
+            floored: vec![false; n],
             grid_velocity: gv,
         }
     }

@@ -48,8 +48,11 @@ pub struct Velocity {
     pub speed_km_per_yr: Vec<f64>,
     /// Direction the isotherms move, degrees clockwise from true north (0–360): down the
     /// gradient when warming, up it when cooling. `NaN` where the direction is undefined (zero
-    /// gradient or zero trend).
+    /// gradient or zero trend) and, on purpose, where the gradient is below the floor: there
+    /// the direction is set by noise in nearly flat water and is not reported.
     pub bearing_deg: Vec<f64>,
+    /// True where the gradient was below the floor (the speed is then trend ÷ floor, a cap).
+    pub floored: Vec<bool>,
     /// The velocity vector in grid axes `[east, north]`, used to trace trajectories on the
     /// grid. `[0, 0]` where the direction is undefined. Units: km/yr.
     pub grid_velocity: Vec<[f64; 2]>,
@@ -57,26 +60,30 @@ pub struct Velocity {
 
 /// Spatial gradient of a per-cell field in grid axes `[east, north]`. Units: field units/km.
 ///
-/// The 3×3 window scheme of Burrows et al. 2011: east–west differences between the adjacent
-/// pairs (west, centre) and (centre, east) of the three rows, weighted 1, 2, 1 (south, centre,
-/// north row); north–south differences likewise by column. Each difference is divided by the
-/// lattice spacing in km. Pairs with a missing member (no cell, land, non-finite value) are
-/// left out and the weights of the rest renormalised; with every neighbour present this is the
-/// Sobel-type estimate (Σ wᵣ(T_E − T_W))/(2Δ·Σ wᵣ). A direction with no usable pair gets 0
-/// (e.g. a channel one cell wide); `None` where the cell's own value is missing or neither
-/// direction has a pair.
+/// The 3×3 window of Burrows et al. 2011, as a weighted least-squares plane
+/// T ≈ a + gₓ·Δx + g_y·Δy through the window's cells with weights (1, 2, 1) ⊗ (1, 2, 1)
+/// (south/centre/north row × west/centre/east column), Δx, Δy the offsets (km) of each cell's
+/// sea-part centroid from the centre cell's. On a window of full cells this is exactly their
+/// scheme, (Σ wᵣ(T_E − T_W))/(2Δ·Σ wᵣ) east–west and likewise north–south (the weighted normal
+/// equations separate on the symmetric 3×3 design). Cells missing from the window (land,
+/// outside the grid, non-finite value) are left out; because the fit uses the true centroid
+/// positions, a linear field gives its exact gradient next to the coast and at the region's
+/// edge, where clipped cells' centroids are off their square centres. Where the cells present
+/// lie on one line (a channel one cell wide) the gradient along it is that line's weighted
+/// slope and across it 0. `None` where the cell's own value is missing or it has no usable
+/// neighbour.
 pub fn spatial_gradient(grid: &Grid, field: &[f64]) -> Result<Vec<Option<[f64; 2]>>, ClimateError> {
     check_dense("field for the spatial gradient", field, grid.len())?;
-    let spacing_km = grid.cell_size_m / 1000.0;
-    let value = |col: i64, row: i64| -> Option<f64> {
+    let cell = |col: i64, row: i64| -> Option<(usize, f64)> {
         if col < 0 || row < 0 {
             return None;
         }
-        let id = grid.cell_at(col as u32, row as u32)?;
-        let v = field[id as usize];
-        v.is_finite().then_some(v)
+        let id = grid.cell_at(col as u32, row as u32)? as usize;
+        let v = field[id];
+        v.is_finite().then_some((id, v))
     };
     const WEIGHTS: [(i64, f64); 3] = [(-1, 1.0), (0, 2.0), (1, 1.0)];
+    let spacing_km = grid.cell_size_m / 1000.0;
     let out = (0..grid.len())
         .into_par_iter()
         .map(|id| {
@@ -84,30 +91,97 @@ pub fn spatial_gradient(grid: &Grid, field: &[f64]) -> Result<Vec<Option<[f64; 2
                 return None;
             }
             let (c, r) = (grid.cells[id].col as i64, grid.cells[id].row as i64);
-            let (mut sx, mut wx, mut sy, mut wy) = (0.0, 0.0, 0.0, 0.0);
-            for (off, w) in WEIGHTS {
-                for d in [-1, 0] {
-                    // East–west pair in row r + off.
-                    if let (Some(a), Some(b)) = (value(c + d, r + off), value(c + d + 1, r + off)) {
-                        sx += w * (b - a) / spacing_km;
-                        wx += w;
+            let centre = grid.cells[id].centre;
+            // Weighted sums for the normal equations of (a, gx, gy), offsets in km.
+            let mut m = [[0.0f64; 3]; 3];
+            let mut rhs = [0.0f64; 3];
+            let mut neighbours = 0;
+            let mut vmax = 0.0f64;
+            for (dr, wr) in WEIGHTS {
+                for (dc, wc) in WEIGHTS {
+                    let Some((k, v)) = cell(c + dc, r + dr) else {
+                        continue;
+                    };
+                    if k != id {
+                        neighbours += 1;
                     }
-                    // South–north pair in column c + off.
-                    if let (Some(a), Some(b)) = (value(c + off, r + d), value(c + off, r + d + 1)) {
-                        sy += w * (b - a) / spacing_km;
-                        wy += w;
+                    vmax = vmax.max(v.abs());
+                    let p = grid.cells[k].centre;
+                    let x = [
+                        1.0,
+                        (p[0] - centre[0]) / 1000.0,
+                        (p[1] - centre[1]) / 1000.0,
+                    ];
+                    let w = wr * wc;
+                    for i in 0..3 {
+                        rhs[i] += w * x[i] * v;
+                        for j in 0..3 {
+                            m[i][j] += w * x[i] * x[j];
+                        }
                     }
                 }
             }
-            if wx == 0.0 && wy == 0.0 {
+            if neighbours == 0 {
                 return None;
             }
-            let gx = if wx > 0.0 { sx / wx } else { 0.0 };
-            let gy = if wy > 0.0 { sy / wy } else { 0.0 };
-            Some([gx, gy])
+            let g = solve_plane(&m, &rhs).unwrap_or_else(|| line_slope(&m, &rhs));
+            // Components at the round-off of the values are zero: a symmetric field gives an
+            // exact 0 (no direction), not 1e-17 pointing anywhere.
+            let noise = 1e-12 * vmax / spacing_km;
+            Some(g.map(|x| if x.abs() <= noise { 0.0 } else { x }))
         })
         .collect();
     Ok(out)
+}
+
+/// (gx, gy) of the weighted plane fit from its normal equations M·(a, gx, gy) = rhs, by
+/// Cramer's rule; `None` when the cells lie on one line (M singular to round-off).
+fn solve_plane(m: &[[f64; 3]; 3], rhs: &[f64; 3]) -> Option<[f64; 2]> {
+    let det3 = |a: &[[f64; 3]; 3]| {
+        a[0][0] * (a[1][1] * a[2][2] - a[1][2] * a[2][1])
+            - a[0][1] * (a[1][0] * a[2][2] - a[1][2] * a[2][0])
+            + a[0][2] * (a[1][0] * a[2][1] - a[1][1] * a[2][0])
+    };
+    let det = det3(m);
+    // Scale: the weight total times the spread of offsets squared, twice.
+    let scale = m[0][0] * (m[1][1] + m[2][2]).powi(2);
+    if !(det.abs() > 1e-9 * scale) {
+        return None;
+    }
+    let with = |col: usize| {
+        let mut a = *m;
+        for i in 0..3 {
+            a[i][col] = rhs[i];
+        }
+        det3(&a)
+    };
+    Some([with(1) / det, with(2) / det])
+}
+
+/// Gradient of cells on one line: the weighted least-squares slope along the line's
+/// direction (from the offsets' weighted covariance), 0 across it.
+fn line_slope(m: &[[f64; 3]; 3], rhs: &[f64; 3]) -> [f64; 2] {
+    let w = m[0][0];
+    let (mx, my, mv) = (m[0][1] / w, m[0][2] / w, rhs[0] / w);
+    let sxx = m[1][1] / w - mx * mx;
+    let syy = m[2][2] / w - my * my;
+    let sxy = m[1][2] / w - mx * my;
+    let sxv = rhs[1] / w - mx * mv;
+    let syv = rhs[2] / w - my * mv;
+    let len2 = sxx + syy;
+    if !(len2 > 0.0) {
+        return [0.0, 0.0];
+    }
+    // Unit direction of the line: the principal axis of the offsets (the larger variance).
+    let (ux, uy) = if sxx >= syy {
+        let n = (sxx * sxx + sxy * sxy).sqrt();
+        (sxx / n, sxy / n)
+    } else {
+        let n = (sxy * sxy + syy * syy).sqrt();
+        (sxy / n, syy / n)
+    };
+    let slope = (ux * sxv + uy * syv) / len2;
+    [slope * ux, slope * uy]
 }
 
 /// True-north bearing (degrees clockwise, 0–360) of the ground direction that the grid
@@ -214,6 +288,7 @@ pub fn climate_velocity(
     let mut gradient_c_per_km = vec![f64::NAN; grid.len()];
     let mut speed = vec![f64::NAN; grid.len()];
     let mut grid_velocity = vec![nan2; grid.len()];
+    let mut floored = vec![false; grid.len()];
     for id in 0..grid.len() {
         let Some(g) = gradient[id] else { continue };
         let magnitude = g[0].hypot(g[1]);
@@ -221,6 +296,7 @@ pub fn climate_velocity(
         gradient_c_per_km[id] = magnitude;
         let s = trend[id].abs() / magnitude.max(floor);
         speed[id] = s;
+        floored[id] = trend[id].is_finite() && magnitude < floor;
         grid_velocity[id] = if magnitude > 0.0 && trend[id] != 0.0 {
             // Isotherms move down the gradient when warming (−ĝ), up it when cooling.
             let k = -trend[id].signum() * s / magnitude;
@@ -240,7 +316,7 @@ pub fn climate_velocity(
                 .iter()
                 .map(|&id| {
                     let v = grid_velocity[id];
-                    if v[0].is_finite() && (v[0] != 0.0 || v[1] != 0.0) {
+                    if v[0].is_finite() && (v[0] != 0.0 || v[1] != 0.0) && !floored[id] {
                         ground_bearing_deg(&projector, grid.cells[id].centre, v)
                     } else {
                         Ok(f64::NAN)
@@ -255,6 +331,7 @@ pub fn climate_velocity(
         gradient_c_per_km,
         speed_km_per_yr: speed,
         bearing_deg: bearings.into_iter().flatten().collect(),
+        floored,
         grid_velocity,
     })
 }
@@ -293,6 +370,52 @@ mod tests {
             } else {
                 assert!(v.is_none());
             }
+        }
+    }
+
+    #[test]
+    fn gradient_of_a_plane_is_exact_where_cells_are_clipped() {
+        // Closed form again, T = 3 + 0.01·x_km − 0.02·y_km, but three cells are clipped (their
+        // sea-part centroids moved off the square centres, as at a coast) and the field is
+        // sampled at those centroids: the fit through the true positions still returns
+        // [0.01, −0.02] in every cell.
+        let mut g = grid(45.0, 5);
+        for (id, shift) in [
+            (6usize, [2_300.0, -1_700.0]),
+            (12, [-3_100.0, 900.0]),
+            (18, [0.0, 4_000.0]),
+        ] {
+            g.cells[id].centre[0] += shift[0];
+            g.cells[id].centre[1] += shift[1];
+        }
+        let f: Vec<f64> = g
+            .cells
+            .iter()
+            .map(|c| 3.0 + 0.01 * c.centre[0] / 1000.0 - 0.02 * c.centre[1] / 1000.0)
+            .collect();
+        for v in spatial_gradient(&g, &f).unwrap() {
+            let v = v.unwrap();
+            assert!(
+                (v[0] - 0.01).abs() < 1e-12 && (v[1] + 0.02).abs() < 1e-12,
+                "{v:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn a_channel_one_cell_wide_has_its_slope_along_and_none_across() {
+        // A 5 × 1 strip: the cells lie on one line, so only the east–west slope is defined.
+        // T = 7 − 0.03·x_km: by the closed form, [−0.03, 0] everywhere.
+        let g =
+            Grid::full_rectangle(Crs::auto_laea(0.0, 45.0), 10_000.0, [0.0, 0.0], 5, 1).unwrap();
+        let f: Vec<f64> = g
+            .cells
+            .iter()
+            .map(|c| 7.0 - 0.03 * c.centre[0] / 1000.0)
+            .collect();
+        for v in spatial_gradient(&g, &f).unwrap() {
+            let v = v.unwrap();
+            assert!((v[0] + 0.03).abs() < 1e-12 && v[1].abs() < 1e-12, "{v:?}");
         }
     }
 
@@ -364,5 +487,41 @@ mod tests {
         assert!((v.speed_km_per_yr[4] - 20.0).abs() < 1e-9);
         assert!(v.bearing_deg[4].is_nan());
         assert_eq!(v.grid_velocity[4], [0.0, 0.0]);
+        assert!(v.floored[4]);
+    }
+
+    #[test]
+    fn a_gradient_below_the_floor_caps_the_speed_and_leaves_the_bearing_missing() {
+        // T = 10 + 0.0001·x_km + 0.01·(t − 2030): gradient 0.0001 °C/km, below the floor of
+        // 0.0005, so speed = 0.01 / 0.0005 = 20 km/yr (closed form) and the bearing is missing
+        // on purpose; a gradient of 0.001 (above the floor) keeps its bearing: 270°, toward
+        // cooler water (west), since the centre cell sits on the grid's central meridian where
+        // grid east is true east (zero convergence; Snyder 1987).
+        let g = grid(45.0, 3);
+        for (slope, floored) in [(0.0001, true), (0.001, false)] {
+            let temps: Vec<Vec<f64>> = [0.0, 20.0]
+                .iter()
+                .map(|dt| {
+                    g.cells
+                        .iter()
+                        .map(|c| 10.0 + slope * c.centre[0] / 1000.0 + 0.01 * dt)
+                        .collect()
+                })
+                .collect();
+            let v =
+                climate_velocity(&g, &[2030, 2050], &temps, &VelocityParams::default()).unwrap();
+            assert_eq!(v.floored[4], floored);
+            if floored {
+                assert!((v.speed_km_per_yr[4] - 20.0).abs() < 1e-9);
+                assert!(v.bearing_deg[4].is_nan());
+            } else {
+                assert!((v.speed_km_per_yr[4] - 10.0).abs() < 1e-9);
+                assert!(
+                    (v.bearing_deg[4] - 270.0).abs() < 1e-6,
+                    "{}",
+                    v.bearing_deg[4]
+                );
+            }
+        }
     }
 }

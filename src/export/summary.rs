@@ -2,10 +2,12 @@
 
 use super::CAUTION;
 use crate::assess::Assessment;
+use crate::layers::SamplingReport;
 use crate::model::ScenarioResult;
 use crate::solve::Solution;
 use serde::Serialize;
 use sha2::{Digest, Sha256};
+use std::collections::BTreeMap;
 
 /// The facts of one run. Field order is the key order of `summary.json`. Non-finite numbers
 /// (e.g. a heuristic's bound and gap) are written as `null`.
@@ -55,6 +57,12 @@ pub struct Summary {
     pub caution: String,
     /// Per scenario: benefit, best achievable benefit, regret and targets met.
     pub scenarios: Vec<ScenarioResult>,
+    /// How each point-lattice layer was sampled: cells bilinear / coastal fallback / nearest
+    /// / missing (empty when the plan has no point lattices).
+    pub sampling: Vec<SamplingReport>,
+    /// Per scenario: cells whose temperature gradient was below the velocity floor (speed
+    /// capped, bearing missing on purpose). Empty without velocity from temperature.
+    pub velocity_floored_cells: BTreeMap<String, usize>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
 }
@@ -92,6 +100,8 @@ impl Summary {
             cells: grid_cells,
             caution: CAUTION.to_string(),
             scenarios: solution.scenarios.clone(),
+            sampling: Vec::new(),
+            velocity_floored_cells: BTreeMap::new(),
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }

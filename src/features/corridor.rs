@@ -106,6 +106,7 @@ mod tests {
             gradient_c_per_km: vec![0.0; 6],
             speed_km_per_yr: vec![10.0; 6],
             bearing_deg: vec![90.0; 6],
+            floored: vec![false; 6],
             grid_velocity: vec![[10.0, 0.0]; 6],
         };
         let p = TrajectoryParams {

@@ -62,6 +62,9 @@ pub struct Derived {
     pub layers: Vec<Layer>,
     /// Per species × scenario (species order, then scenario order).
     pub edge_shifts: Vec<EdgeShift>,
+    /// Per scenario: cells whose temperature gradient was below the velocity floor (speed
+    /// capped, bearing left missing on purpose); 0 when velocity was supplied or not needed.
+    pub velocity_floored: Vec<(String, usize)>,
 }
 
 /// Numeric code of a flow class in the `flow_class/<scenario>` layer: 0 source, 1 sink,
@@ -166,6 +169,7 @@ pub fn velocity_from_layers(
                 }
             })
             .collect(),
+        floored: vec![false; n],
         grid_velocity,
     })
 }
@@ -300,6 +304,8 @@ struct ScenarioOut {
     features: Vec<Feature>,
     layers: Vec<Layer>,
     shifts: Vec<EdgeShift>,
+    /// Cells whose temperature gradient was below the floor (0 without computed velocity).
+    floored: usize,
 }
 
 /// Derives every feature the plan's `[climate]` section asks for (see the module doc).
@@ -421,7 +427,8 @@ pub fn derive_climate_features(
         .map(|s| ctx.scenario(s, &habitat_lists[s]))
         .collect::<Result<_, _>>()?;
     let mut shifts = Vec::new();
-    for o in per_scenario {
+    for (s, o) in per_scenario.into_iter().enumerate() {
+        out.velocity_floored.push((scenarios[s].clone(), o.floored));
         out.features.extend(o.features);
         out.layers.extend(o.layers);
         shifts.push(o.shifts);
@@ -618,6 +625,7 @@ impl ScenarioCtx<'_> {
         let mut out = ScenarioOut::default();
         let velocity = self.velocity(s)?;
         if let Some(v) = &velocity {
+            out.floored = v.floored.iter().filter(|&&f| f).count();
             out.layers.push(self.layer(
                 format!("velocity_km_per_yr/{sc}"),
                 v.speed_km_per_yr.clone(),

@@ -1,7 +1,7 @@
 //! A thread-safe cache of parsed (and projected) source files, so each file is read once per run
 //! however many layers use it.
 
-use super::LayerError;
+use super::{LayerError, SamplingReport};
 use std::any::Any;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -16,6 +16,9 @@ type Slot = Arc<Mutex<Option<Arc<dyn Any + Send + Sync>>>>;
 #[derive(Default)]
 pub struct SourceCache {
     slots: Mutex<BTreeMap<(PathBuf, String), Slot>>,
+    /// How each point-lattice layer was sampled, by layer name (later samplings of the same
+    /// name replace earlier ones).
+    reports: Mutex<BTreeMap<String, SamplingReport>>,
 }
 
 impl std::fmt::Debug for SourceCache {
@@ -49,6 +52,16 @@ impl SourceCache {
     /// True when nothing has been cached yet.
     pub fn is_empty(&self) -> bool {
         self.len() == 0
+    }
+
+    /// Records how a layer was sampled.
+    pub(crate) fn record(&self, report: SamplingReport) {
+        lock(&self.reports).insert(report.layer.clone(), report);
+    }
+
+    /// How each point-lattice layer sampled through this cache was formed, by layer name.
+    pub fn sampling_reports(&self) -> Vec<SamplingReport> {
+        lock(&self.reports).values().cloned().collect()
     }
 
     /// The entry for `(path, kind)`, built with `load` on first use.

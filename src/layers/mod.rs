@@ -15,11 +15,13 @@ mod cache;
 mod csv;
 mod geojson;
 mod points;
+mod report;
 mod sample;
 
 pub use cache::SourceCache;
 pub use geojson::{read_lines, read_multipolygon, read_points};
 pub use points::NEAREST_MAX_SPACINGS;
+pub use report::sampling_lines;
 pub use sample::sample;
 
 /// How a source file becomes one value per cell.
@@ -35,7 +37,8 @@ pub enum Sampling {
     PointSum,
     /// GeoJSON points: mean of an attribute over points in the cell.
     PointMean,
-    /// CSV point grid: bilinear on a regular lon/lat lattice, nearest point otherwise.
+    /// CSV point grid: bilinear on a regular lattice (with a coastal fallback where points
+    /// are absent), nearest point when the points are not one lattice.
     Interpolate,
 }
 
@@ -81,6 +84,27 @@ pub struct LayerSpec {
     pub valid_range: Option<(f64, f64)>,
     /// Policy for uncovered cells.
     pub missing: Missing,
+}
+
+/// How one point-lattice layer was sampled: the rule and the number of cells each fallback
+/// served. `check`, the run header and summary.json show these, so a coastal lattice that
+/// fell back to nearest point never does so silently.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct SamplingReport {
+    /// Layer name (e.g. `habitat/kelp/ssp2-4.5/2050`, `sst_c/ssp1-2.6/2030`).
+    pub layer: String,
+    /// The file sampled.
+    pub path: String,
+    /// The rule in words (bilinear on a lattice of step …, or nearest point and why).
+    pub method: String,
+    /// Cells with all four surrounding lattice points present.
+    pub bilinear: usize,
+    /// Cells next to absent points (land): bilinear weights renormalised over those present.
+    pub coastal: usize,
+    /// Cells given the nearest present point.
+    pub nearest: usize,
+    /// Cells with no data near them (the layer's `missing` rule).
+    pub missing: usize,
 }
 
 /// Per-cell values of one layer.

@@ -5,8 +5,8 @@ use super::area::PolygonIndex;
 use super::cache::SourceCache;
 use super::csv::{self as csvfile, CsvTable};
 use super::geojson::{self as gj, Coords, GeoFile};
-use super::points::{nearest, RegularLattice, Weights};
-use super::{Layer, LayerError, LayerSpec, Missing, Sampling};
+use super::points::{nearest, Method, RegularLattice, Weights};
+use super::{Layer, LayerError, LayerSpec, Missing, Sampling, SamplingReport};
 use crate::grid::{Crs, Grid, Projector};
 use geo::MultiPolygon;
 use rayon::prelude::*;
@@ -33,7 +33,7 @@ pub fn sample(
         Sampling::PointCount | Sampling::PointSum | Sampling::PointMean => {
             points(spec, grid, cache)?
         }
-        Sampling::Interpolate => interpolate(spec, grid, cache)?,
+        Sampling::Interpolate => interpolate(name, spec, grid, cache)?,
     };
     if let Some((min, max)) = spec.valid_range {
         for (id, v) in values.iter().enumerate() {
@@ -321,9 +321,28 @@ fn points(
 /// Per-cell interpolation weights for one CSV's coordinates on one grid (shared by its columns).
 struct Interpolator {
     weights: Vec<Weights>,
+    /// How the weights were formed (e.g. "bilinear on a lattice of step 0.25 × 0.25, 812 of
+    /// 1000 positions present").
+    method: String,
+    /// Cells per rule: bilinear, coastal, nearest, missing.
+    counts: [usize; 4],
+}
+
+fn count_methods(methods: impl Iterator<Item = Method>) -> [usize; 4] {
+    let mut counts = [0; 4];
+    for m in methods {
+        counts[match m {
+            Method::Bilinear => 0,
+            Method::Coastal => 1,
+            Method::Nearest => 2,
+            Method::Missing => 3,
+        }] += 1;
+    }
+    counts
 }
 
 fn interpolate(
+    name: &str,
     spec: &LayerSpec,
     grid: &Grid,
     cache: &SourceCache,
@@ -340,7 +359,28 @@ fn interpolate(
     }
     let kind = format!("interpolate|{:?}|{}", spec.crs, grid_key(grid));
     let interp = cache.get_or_load(&spec.path, &kind, || interpolator(spec, grid, &table))?;
-    Ok(interp.weights.iter().map(|w| w.apply(values)).collect())
+    let [bilinear, coastal, nearest, missing] = interp.counts;
+    cache.record(SamplingReport {
+        layer: name.to_string(),
+        path: spec.path.display().to_string(),
+        method: interp.method.clone(),
+        bilinear,
+        coastal,
+        nearest,
+        missing,
+    });
+    // Bilinear and nearest values lie within the file's values; a coastal plane may
+    // extrapolate past them, so keep it inside the layer's valid range (a habitat share
+    // stays in 0–1 next to the coast).
+    let clamp = |v: f64| match spec.valid_range {
+        Some((min, max)) => v.clamp(min, max),
+        None => v,
+    };
+    Ok(interp
+        .weights
+        .iter()
+        .map(|w| w.apply(values).map(clamp))
+        .collect())
 }
 
 fn interpolator(
@@ -352,35 +392,59 @@ fn interpolator(
         path: spec.path.clone(),
         source,
     };
-    if let Some(lattice) = RegularLattice::detect(&table.xs, &table.ys) {
-        // Bilinear in the file's own coordinates, at each cell's lon/lat centroid.
-        let source = match &spec.crs {
-            Some(def) => Some(
-                Projector::new(&Crs {
-                    definition: def.clone(),
-                })
-                .map_err(err)?,
-            ),
-            None => None,
-        };
-        let mut weights = Vec::with_capacity(grid.len());
-        for cell in &grid.cells {
-            let [lon, lat] = cell.lonlat;
-            let q = match &source {
-                Some(s) => s.to_xy(lon, lat).map_err(err)?,
-                // A 0..360 lattice holds western longitudes as lon + 360.
-                None => {
-                    let lon = [lon, lon + 360.0, lon - 360.0]
-                        .into_iter()
-                        .find(|&l| lattice.spans_x(l))
-                        .unwrap_or(lon);
-                    [lon, lat]
-                }
+    let not_lattice = match RegularLattice::fit(&table.xs, &table.ys) {
+        Ok(lattice) => {
+            // Bilinear in the file's own coordinates, at each cell's lon/lat centroid.
+            let source = match &spec.crs {
+                Some(def) => Some(
+                    Projector::new(&Crs {
+                        definition: def.clone(),
+                    })
+                    .map_err(err)?,
+                ),
+                None => None,
             };
-            weights.push(lattice.weights_at(q[0], q[1]));
+            let mut weights = Vec::with_capacity(grid.len());
+            let mut methods = Vec::with_capacity(grid.len());
+            for cell in &grid.cells {
+                let [lon, lat] = cell.lonlat;
+                let q = match &source {
+                    Some(s) => s.to_xy(lon, lat).map_err(err)?,
+                    // A 0..360 lattice holds western longitudes as lon + 360: prefer the
+                    // variant inside the lattice, then one within a step of its edge.
+                    None => {
+                        let variants = [lon, lon + 360.0, lon - 360.0];
+                        let lon = variants
+                            .iter()
+                            .copied()
+                            .min_by_key(|&l| lattice.x_reach(l))
+                            .unwrap_or(lon);
+                        [lon, lat]
+                    }
+                };
+                let (w, m) = lattice.weights_at(q[0], q[1]);
+                weights.push(w);
+                methods.push(m);
+            }
+            let (positions, present) = lattice.positions();
+            let (dx, dy) = lattice.steps();
+            let units = if spec.crs.is_some() {
+                " (file units)"
+            } else {
+                "°"
+            };
+            return Ok(Interpolator {
+                counts: count_methods(methods.into_iter()),
+                weights,
+                method: format!(
+                    "bilinear on a lattice of step {} × {}{units}, {present} of {positions} positions present",
+                    round_sig(dx),
+                    round_sig(dy)
+                ),
+            });
         }
-        return Ok(Interpolator { weights });
-    }
+        Err(e) => e,
+    };
     // Nearest point, measured in the grid's equal-area metres.
     let to_grid = ToGrid::new(spec, grid)?;
     let pts = table
@@ -390,6 +454,33 @@ fn interpolator(
         .map(|(&x, &y)| to_grid.point([x, y]))
         .collect::<Result<Vec<_>, _>>()?;
     let queries: Vec<[f64; 2]> = grid.cells.iter().map(|c| c.centre).collect();
-    let (weights, _limit) = nearest(&pts, &queries, grid.cell_size_m);
-    Ok(Interpolator { weights })
+    let (weights, limit) = nearest(&pts, &queries, grid.cell_size_m);
+    let reason = not_lattice.describe(&|row| {
+        table
+            .lines
+            .get(row)
+            .map(|l| format!("line {l}"))
+            .unwrap_or_else(|| format!("row {row}"))
+    });
+    Ok(Interpolator {
+        counts: count_methods(weights.iter().map(|w| match w {
+            Weights::Outside => Method::Missing,
+            _ => Method::Nearest,
+        })),
+        weights,
+        method: format!(
+            "nearest point within {:.1} km, because the points are not one regular lattice: {reason}",
+            limit / 1000.0
+        ),
+    })
+}
+
+/// `x` to 6 significant digits, for messages (a lattice step of 0.25 prints as 0.25, not
+/// 0.25000000000000355).
+fn round_sig(x: f64) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let scale = 10f64.powi(5 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
 }
