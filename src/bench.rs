@@ -180,6 +180,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                         path: dir.join(format!("{name}_{year}.csv")),
                         sampling: Sampling::Interpolate,
                         field: Some(format!("sp{k}")),
+                        layer: None,
                         crs: None,
                         valid_range: Some((0.0, 1.0)),
                         missing: Missing::Error,

@@ -61,7 +61,9 @@ pub struct LayerTemplate {
     pub sampling: Sampling,
     /// Property / column template, if any.
     pub field: Option<String>,
-    /// CRS of the file's coordinates (`None`: WGS84 lon/lat).
+    /// Layer of a multi-layer vector file (GeoPackage), if named.
+    pub layer: Option<String>,
+    /// CRS of the file's coordinates (`None`: the file's own, else WGS84 lon/lat).
     pub crs: Option<String>,
     /// Values outside this range are errors.
     pub valid_range: Option<(f64, f64)>,
@@ -81,6 +83,7 @@ impl LayerTemplate {
             path: PathBuf::from(fill(&self.path)),
             sampling: self.sampling,
             field: self.field.as_deref().map(fill),
+            layer: self.layer.clone(),
             crs: self.crs.clone(),
             valid_range: self.valid_range,
             missing: self.missing,
@@ -269,6 +272,8 @@ pub(crate) struct RawLayer {
     path: Option<String>,
     column: Option<String>,
     attribute: Option<String>,
+    band: Option<u32>,
+    layer: Option<String>,
     sampling: Option<String>,
     crs: Option<String>,
     min: Option<f64>,
@@ -412,6 +417,8 @@ impl Checker {
                 "path",
                 "column",
                 "attribute",
+                "band",
+                "layer",
                 "sampling",
                 "crs",
                 "min",
@@ -435,15 +442,23 @@ impl Checker {
         let path = self.resolve(rel).to_string_lossy().into_owned();
         let lower = rel.to_ascii_lowercase();
         let is_csv = lower.ends_with(".csv");
-        let is_geojson = lower.ends_with(".geojson") || lower.ends_with(".json");
-        if !is_csv && !is_geojson {
+        let is_raster = crate::layers::RASTER_EXTENSIONS
+            .iter()
+            .any(|e| lower.ends_with(&format!(".{e}")));
+        let is_vector = [".geojson", ".json", ".gpkg", ".shp", ".fgb"]
+            .iter()
+            .any(|e| lower.ends_with(e));
+        if !is_csv && !is_vector && !is_raster {
             self.push(
                 format!("{key}.path"),
-                format!("`{rel}`: expected a .csv point grid or a .geojson/.json file"),
+                format!(
+                    "`{rel}`: not a format driftplan reads ({}); expected a .csv point grid, a .geojson, .gpkg, .shp or .fgb vector file, or a .tif raster",
+                    crate::layers::FORMATS
+                ),
             );
         }
         let sampling = match raw.sampling.as_deref() {
-            None if is_csv => Sampling::Interpolate,
+            None if is_csv || is_raster => Sampling::Interpolate,
             None if raw.attribute.is_some() => Sampling::AreaMean,
             None => Sampling::AreaShare,
             Some("interpolate") => Sampling::Interpolate,
@@ -460,23 +475,34 @@ impl Checker {
                 Sampling::AreaShare
             }
         };
-        if is_csv && sampling != Sampling::Interpolate {
+        if (is_csv || is_raster) && sampling != Sampling::Interpolate {
             self.push(
                 format!("{key}.sampling"),
-                "a CSV point grid can only be sampled with `interpolate`",
+                "a CSV point grid or a raster can only be sampled with `interpolate`",
             );
         }
-        if is_geojson && sampling == Sampling::Interpolate {
+        if is_vector && sampling == Sampling::Interpolate {
             self.push(
                 format!("{key}.sampling"),
                 "`interpolate` needs a CSV `lon,lat,value` point grid",
             );
         }
-        let field = raw.column.clone().or_else(|| raw.attribute.clone());
-        let needs_field = matches!(
-            sampling,
-            Sampling::Interpolate | Sampling::AreaMean | Sampling::PointSum | Sampling::PointMean
-        );
+        let field = raw
+            .column
+            .clone()
+            .or_else(|| raw.attribute.clone())
+            .or_else(|| raw.band.map(|b| b.to_string()));
+        if raw.band == Some(0) {
+            self.push(format!("{key}.band"), "bands count from 1");
+        }
+        let needs_field = !is_raster
+            && matches!(
+                sampling,
+                Sampling::Interpolate
+                    | Sampling::AreaMean
+                    | Sampling::PointSum
+                    | Sampling::PointMean
+            );
         if needs_field && field.is_none() {
             let which = if is_csv { "column" } else { "attribute" };
             self.push(
@@ -513,6 +539,7 @@ impl Checker {
             path,
             sampling,
             field,
+            layer: raw.layer.clone(),
             crs: raw.crs.clone(),
             valid_range,
             missing,

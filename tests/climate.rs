@@ -409,6 +409,7 @@ fn velocity_next_to_a_coast_is_trend_over_gradient_in_every_sea_cell() {
                 path,
                 sampling: Sampling::Interpolate,
                 field: Some("sst".into()),
+                layer: None,
                 crs: None,
                 valid_range: None,
                 missing: Missing::Error,

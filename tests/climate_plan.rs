@@ -512,6 +512,7 @@ fn template(
         path: fixture(path).to_string_lossy().into_owned(),
         sampling,
         field: field.map(str::to_string),
+        layer: None,
         crs: None,
         valid_range: None,
         missing,

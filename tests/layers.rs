@@ -17,6 +17,7 @@ fn spec(path: PathBuf, sampling: Sampling, field: Option<&str>, crs: Option<&str
         path,
         sampling,
         field: field.map(str::to_string),
+        layer: None,
         crs: crs.map(str::to_string),
         valid_range: None,
         missing: Missing::Zero,

@@ -116,6 +116,7 @@ pub fn polygon_shares(path: &Path, grid: &Grid) -> Result<Vec<f64>, NetworkError
         path: path.to_path_buf(),
         sampling: Sampling::AreaShare,
         field: None,
+        layer: None,
         crs: None,
         valid_range: None,
         // No polygon over a cell means the cell is outside the network, not missing data.

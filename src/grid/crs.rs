@@ -1,7 +1,9 @@
-//! Coordinate transforms between WGS84 lon/lat and the grid's projected CRS, through PROJ.
+//! Coordinate transforms between WGS84 lon/lat and the grid's projected CRS, through PROJ as
+//! GDAL's spatial-reference layer (OSR) links it: one PROJ for transforms and file readers.
 
 use super::ellipsoid::lonlat_box_area_km2;
 use super::{Crs, GridError};
+use gdal::spatial_ref::{AxisMappingStrategy, CoordTransform, SpatialRef};
 use geo::{Coord, LineString, MultiPolygon, Polygon, Rect};
 
 /// WGS84 longitude/latitude in that axis order (RFC 7946 order). `OGC:CRS84` is EPSG:4326
@@ -20,13 +22,30 @@ impl Crs {
     }
 }
 
+/// GDAL prints its errors on stderr unless told otherwise; driftplan reports them itself
+/// (with the file and CRS), so GDAL is silenced once per process.
+pub(crate) fn quiet_gdal() {
+    static ONCE: std::sync::Once = std::sync::Once::new();
+    ONCE.call_once(|| gdal::config::set_error_handler(|_, _, _| {}));
+}
+
+/// A spatial reference from any definition GDAL/PROJ reads (`EPSG:3035`, a PROJ string,
+/// WKT, `OGC:CRS84`), with x = easting/longitude and y = northing/latitude whatever the
+/// authority's axis order.
+pub(crate) fn spatial_ref(definition: &str) -> Result<SpatialRef, String> {
+    quiet_gdal();
+    let mut srs = SpatialRef::from_definition(definition).map_err(|e| e.to_string())?;
+    srs.set_axis_mapping_strategy(AxisMappingStrategy::TraditionalGisOrder);
+    Ok(srs)
+}
+
 /// Transforms points and polygons both ways between lon/lat and one projected CRS.
 ///
-/// A `Projector` wraps two PROJ objects; PROJ objects must not be shared between threads, so
-/// parallel code creates one per worker (`rayon`'s `map_init`).
+/// A `Projector` wraps two GDAL coordinate transformations, which must not be shared
+/// between threads, so parallel code creates one per worker (`rayon`'s `map_init`).
 pub struct Projector {
-    forward: proj::Proj,
-    inverse: proj::Proj,
+    forward: CoordTransform,
+    inverse: CoordTransform,
     crs: Crs,
 }
 
@@ -36,65 +55,53 @@ impl std::fmt::Debug for Projector {
     }
 }
 
+/// One point through a transformation; `None` with the reason when it fails or is not finite.
+fn convert(t: &CoordTransform, a: f64, b: f64) -> Result<[f64; 2], String> {
+    let (mut x, mut y, mut z) = ([a], [b], [0.0]);
+    t.transform_coords(&mut x, &mut y, &mut z)
+        .map_err(|e| e.to_string())?;
+    if !(x[0].is_finite() && y[0].is_finite()) {
+        return Err("result is not finite".into());
+    }
+    Ok([x[0], y[0]])
+}
+
 impl Projector {
     /// Builds transforms lon/lat ⇄ `crs`. Fails with the CRS text when PROJ does not know it.
     pub fn new(crs: &Crs) -> Result<Projector, GridError> {
-        let make = |from: &str, to: &str| {
-            proj::Proj::new_known_crs(from, to, None).map_err(|e| GridError::Crs {
-                definition: crs.definition.clone(),
-                reason: e.to_string(),
-            })
+        let err = |reason: String| GridError::Crs {
+            definition: crs.definition.clone(),
+            reason,
+        };
+        let lonlat = spatial_ref(LONLAT).map_err(err)?;
+        let target = spatial_ref(&crs.definition).map_err(err)?;
+        let make = |from: &SpatialRef, to: &SpatialRef| {
+            CoordTransform::new(from, to).map_err(|e| err(e.to_string()))
         };
         Ok(Projector {
-            forward: make(LONLAT, &crs.definition)?,
-            inverse: make(&crs.definition, LONLAT)?,
+            forward: make(&lonlat, &target)?,
+            inverse: make(&target, &lonlat)?,
             crs: crs.clone(),
+        })
+    }
+
+    /// lon/lat degrees → projected metres.
+    pub fn to_xy(&self, lon: f64, lat: f64) -> Result<[f64; 2], GridError> {
+        convert(&self.forward, lon, lat).map_err(|reason| GridError::Transform { lon, lat, reason })
+    }
+
+    /// Projected metres → lon/lat degrees.
+    pub fn to_lonlat(&self, x: f64, y: f64) -> Result<[f64; 2], GridError> {
+        convert(&self.inverse, x, y).map_err(|reason| GridError::Transform {
+            lon: x,
+            lat: y,
+            reason,
         })
     }
 
     /// The projected CRS.
     pub fn crs(&self) -> &Crs {
         &self.crs
-    }
-
-    /// lon/lat degrees → projected metres.
-    pub fn to_xy(&self, lon: f64, lat: f64) -> Result<[f64; 2], GridError> {
-        let (x, y) = self
-            .forward
-            .convert((lon, lat))
-            .map_err(|e| GridError::Transform {
-                lon,
-                lat,
-                reason: e.to_string(),
-            })?;
-        if !(x.is_finite() && y.is_finite()) {
-            return Err(GridError::Transform {
-                lon,
-                lat,
-                reason: "result is not finite".into(),
-            });
-        }
-        Ok([x, y])
-    }
-
-    /// Projected metres → lon/lat degrees.
-    pub fn to_lonlat(&self, x: f64, y: f64) -> Result<[f64; 2], GridError> {
-        let (lon, lat) = self
-            .inverse
-            .convert((x, y))
-            .map_err(|e| GridError::Transform {
-                lon: x,
-                lat: y,
-                reason: e.to_string(),
-            })?;
-        if !(lon.is_finite() && lat.is_finite()) {
-            return Err(GridError::Transform {
-                lon: x,
-                lat: y,
-                reason: "result is not finite".into(),
-            });
-        }
-        Ok([lon, lat])
     }
 
     /// Checks that the CRS keeps areas in square metres over the lon/lat rectangle `bounds`:

@@ -2,6 +2,7 @@
 //! feature and the expected form.
 
 use super::LayerError;
+use crate::grid::{Crs, Projector};
 use ::geojson::{GeoJson, GeometryValue, JsonObject, Position};
 use geo::{Coord, LineString, MultiPolygon, Polygon};
 use std::path::{Path, PathBuf};
@@ -24,6 +25,9 @@ pub(crate) struct GeoFile {
     pub path: PathBuf,
     /// Its features in file order.
     pub features: Vec<RawFeature>,
+    /// The file's own CRS when its coordinates are not WGS84 lon/lat (a GeoJSON `crs` member,
+    /// the layer CRS of a GeoPackage or shapefile), as a definition PROJ reads.
+    pub crs: Option<String>,
 }
 
 /// Reads and parses a GeoJSON file. Malformed JSON reports serde's line and column.
@@ -38,6 +42,11 @@ pub(crate) fn parse_file(path: &Path) -> Result<GeoFile, LayerError> {
         column: e.column(),
         message: e.to_string(),
     })?;
+    let crs = match &parsed {
+        GeoJson::FeatureCollection(fc) => crs_member(fc.foreign_members.as_ref()),
+        GeoJson::Feature(f) => crs_member(f.foreign_members.as_ref()),
+        GeoJson::Geometry(g) => crs_member(g.foreign_members.as_ref()),
+    };
     let features = match parsed {
         GeoJson::FeatureCollection(fc) => fc
             .features
@@ -65,7 +74,35 @@ pub(crate) fn parse_file(path: &Path) -> Result<GeoFile, LayerError> {
     Ok(GeoFile {
         path: path.to_path_buf(),
         features,
+        crs,
     })
+}
+
+/// The CRS named by a GeoJSON `crs` member (GeoJSON 2008 form, still written by GDAL for
+/// projected data: `{"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::3035"}}`),
+/// as `EPSG:3035`; `None` when absent or naming WGS84 lon/lat (CRS84 / EPSG:4326).
+fn crs_member(members: Option<&JsonObject>) -> Option<String> {
+    let name = members?
+        .get("crs")?
+        .get("properties")?
+        .get("name")?
+        .as_str()?
+        .to_string();
+    let upper = name.to_ascii_uppercase();
+    if upper.ends_with("CRS84") || upper.ends_with("EPSG::4326") || upper == "EPSG:4326" {
+        return None;
+    }
+    // urn:ogc:def:crs:EPSG::3035 → EPSG:3035; other names go to PROJ as written.
+    match upper.strip_prefix("URN:OGC:DEF:CRS:") {
+        Some(rest) => {
+            let mut parts = rest.split(':').filter(|p| !p.is_empty());
+            match (parts.next(), parts.last()) {
+                (Some(auth), Some(code)) => Some(format!("{auth}:{code}")),
+                _ => Some(name),
+            }
+        }
+        None => Some(name),
+    }
 }
 
 /// How coordinates are checked: WGS84 lon/lat ranges, or only finiteness for a projected CRS.
@@ -336,29 +373,74 @@ impl GeoFile {
     }
 }
 
-/// Every Polygon / MultiPolygon geometry of a GeoJSON file (FeatureCollection, Feature or bare
-/// Geometry) as one multipolygon in WGS84 lon/lat degrees. Region and land-mask files are read
-/// with this.
+/// A vector file read for a lon/lat use, with its projector back to lon/lat when the file's
+/// coordinates are in another CRS.
+fn lonlat_file(path: &Path) -> Result<(GeoFile, Option<Projector>), LayerError> {
+    let file = super::vector::read(path, None)?;
+    let projector = match &file.crs {
+        None => None,
+        Some(def) => Some(
+            Projector::new(&Crs {
+                definition: def.clone(),
+            })
+            .map_err(|source| LayerError::Projection {
+                path: path.to_path_buf(),
+                source,
+            })?,
+        ),
+    };
+    Ok((file, projector))
+}
+
+fn projection_error(path: &Path) -> impl Fn(crate::grid::GridError) -> LayerError + '_ {
+    move |source| LayerError::Projection {
+        path: path.to_path_buf(),
+        source,
+    }
+}
+
+/// Every Polygon / MultiPolygon geometry of a vector file (GeoJSON FeatureCollection, Feature or
+/// bare Geometry; GeoPackage, shapefile, FlatGeobuf) as one multipolygon in WGS84 lon/lat
+/// degrees; a file in another CRS is unprojected (edges densified to 1 km first). Region and
+/// land-mask files are read with this.
 ///
 /// Errors name the file and feature: malformed JSON (serde's line/column), non-polygon or null
 /// geometries, non-finite coordinates, lon outside −180..180 or lat outside −90..90, rings that
 /// are unclosed or have fewer than 4 positions.
 pub fn read_multipolygon(path: &Path) -> Result<MultiPolygon<f64>, LayerError> {
-    let file = parse_file(path)?;
-    let polys = file.polygons(Coords::LonLat)?;
-    Ok(MultiPolygon(
-        polys.into_iter().flat_map(|(_, mp)| mp.0).collect(),
-    ))
+    let (file, projector) = lonlat_file(path)?;
+    let coords = if projector.is_some() {
+        Coords::Projected
+    } else {
+        Coords::LonLat
+    };
+    let polys = file.polygons(coords)?;
+    let mp = MultiPolygon(polys.into_iter().flat_map(|(_, mp)| mp.0).collect());
+    match projector {
+        None => Ok(mp),
+        Some(p) => p
+            .polygon_to_lonlat(&mp, 1000.0)
+            .map_err(projection_error(path)),
+    }
 }
 
-/// Every Point / MultiPoint of a GeoJSON file as `([lon, lat], value)` in WGS84 degrees. The value
-/// is the numeric property `field`, or 1.0 when `field` is `None`. Points whose property is JSON
-/// `null` carry no data and are left out.
+/// Every Point / MultiPoint of a vector file as `([lon, lat], value)` in WGS84 degrees. The value
+/// is the numeric property `field`, or 1.0 when `field` is `None`. Points whose property is
+/// null carry no data and are left out.
 pub fn read_points(path: &Path, field: Option<&str>) -> Result<Vec<([f64; 2], f64)>, LayerError> {
-    let file = parse_file(path)?;
-    let pts = file.points(Coords::LonLat)?;
+    let (file, projector) = lonlat_file(path)?;
+    let coords = if projector.is_some() {
+        Coords::Projected
+    } else {
+        Coords::LonLat
+    };
+    let pts = file.points(coords)?;
     let mut out = Vec::with_capacity(pts.len());
     for (index, p) in pts {
+        let p = match &projector {
+            None => p,
+            Some(pr) => pr.to_lonlat(p[0], p[1]).map_err(projection_error(path))?,
+        };
         match field {
             None => out.push((p, 1.0)),
             Some(f) => {
@@ -371,14 +453,27 @@ pub fn read_points(path: &Path, field: Option<&str>) -> Result<Vec<([f64; 2], f6
     Ok(out)
 }
 
-/// Every LineString / MultiLineString of a GeoJSON file, WGS84 lon/lat degrees.
+/// Every LineString / MultiLineString of a vector file, WGS84 lon/lat degrees.
 pub fn read_lines(path: &Path) -> Result<Vec<LineString<f64>>, LayerError> {
-    let file = parse_file(path)?;
-    Ok(file
-        .lines(Coords::LonLat)?
-        .into_iter()
-        .map(|(_, l)| l)
-        .collect())
+    let (file, projector) = lonlat_file(path)?;
+    let coords = if projector.is_some() {
+        Coords::Projected
+    } else {
+        Coords::LonLat
+    };
+    let lines = file.lines(coords)?.into_iter().map(|(_, l)| l);
+    match projector {
+        None => Ok(lines.collect()),
+        Some(p) => lines
+            .map(|l| {
+                l.0.iter()
+                    .map(|c| p.to_lonlat(c.x, c.y).map(|q| Coord { x: q[0], y: q[1] }))
+                    .collect::<Result<Vec<_>, _>>()
+                    .map(LineString)
+                    .map_err(projection_error(path))
+            })
+            .collect(),
+    }
 }
 
 #[cfg(test)]

@@ -15,14 +15,18 @@ mod cache;
 mod csv;
 mod geojson;
 mod points;
+mod raster;
 mod report;
 mod sample;
+mod vector;
 
 pub use cache::SourceCache;
 pub use geojson::{read_lines, read_multipolygon, read_points};
 pub use points::NEAREST_MAX_SPACINGS;
+pub use raster::RASTER_EXTENSIONS;
 pub use report::sampling_lines;
 pub use sample::sample;
+pub use vector::FORMATS;
 
 /// How a source file becomes one value per cell.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -78,7 +82,11 @@ pub struct LayerSpec {
     pub sampling: Sampling,
     /// GeoJSON property, or CSV column, that holds the value (not needed for share/count).
     pub field: Option<String>,
-    /// CRS of the file's coordinates; `None` means WGS84 lon/lat (RFC 7946).
+    /// Which layer of a multi-layer vector file (a GeoPackage) to read; `None` for files with
+    /// one layer.
+    pub layer: Option<String>,
+    /// CRS of the file's coordinates; `None` means the file's own CRS (a GeoPackage or
+    /// shapefile layer's, a GeoJSON `crs` member), or else WGS84 lon/lat (RFC 7946).
     pub crs: Option<String>,
     /// Values outside this closed range are reported as errors.
     pub valid_range: Option<(f64, f64)>,
@@ -105,6 +113,9 @@ pub struct SamplingReport {
     pub nearest: usize,
     /// Cells with no data near them (the layer's `missing` rule).
     pub missing: usize,
+    /// Cells given the area-weighted mean of the raster pixels inside them (rasters finer
+    /// than the cells).
+    pub pixel_mean: usize,
 }
 
 /// Per-cell values of one layer.

@@ -205,6 +205,28 @@ impl RegularLattice {
         })
     }
 
+    /// A lattice from its parts: `nx × ny` positions at `x0 + i·dx`, `y0 + j·dy` (steps may be
+    /// negative), `rows[j·nx + i]` the data row there or `u32::MAX` when absent.
+    pub(crate) fn from_parts(
+        x0: f64,
+        dx: f64,
+        nx: usize,
+        y0: f64,
+        dy: f64,
+        ny: usize,
+        rows: Vec<u32>,
+    ) -> RegularLattice {
+        RegularLattice {
+            x0,
+            dx,
+            nx,
+            y0,
+            dy,
+            ny,
+            rows,
+        }
+    }
+
     /// Number of lattice positions and of those holding a point.
     pub(crate) fn positions(&self) -> (usize, usize) {
         let present = self.rows.iter().filter(|&&r| r != u32::MAX).count();

@@ -10,10 +10,10 @@ const MAX_LINES: usize = 12;
 /// (`habitat`, `sst_c`, …), a rule and the same cell counts are one line.
 pub fn sampling_lines(reports: &[SamplingReport]) -> Vec<String> {
     // (stem, method, counts) → (layers, first layer name)
-    let mut groups: Vec<(String, &str, [usize; 4], usize, &str)> = Vec::new();
+    let mut groups: Vec<(String, &str, [usize; 5], usize, &str)> = Vec::new();
     for r in reports {
         let stem = r.layer.split('/').next().unwrap_or(&r.layer).to_string();
-        let counts = [r.bilinear, r.coastal, r.nearest, r.missing];
+        let counts = [r.bilinear, r.coastal, r.nearest, r.missing, r.pixel_mean];
         match groups
             .iter_mut()
             .find(|g| g.0 == stem && g.1 == r.method && g.2 == counts)
@@ -31,8 +31,13 @@ pub fn sampling_lines(reports: &[SamplingReport]) -> Vec<String> {
             } else {
                 format!("{stem} ({n} layers)")
             };
+            let pixels = if c[4] > 0 {
+                format!("{} pixel mean, ", c[4])
+            } else {
+                String::new()
+            };
             format!(
-                "{which}: {method}; cells: {} bilinear, {} coastal fallback, {} nearest, {} missing",
+                "{which}: {method}; cells: {pixels}{} bilinear, {} coastal fallback, {} nearest, {} missing",
                 c[0], c[1], c[2], c[3]
             )
         })
@@ -59,6 +64,7 @@ mod tests {
             coastal,
             nearest: 0,
             missing: 1,
+            pixel_mean: 0,
         }
     }
 

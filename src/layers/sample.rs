@@ -4,8 +4,10 @@
 use super::area::PolygonIndex;
 use super::cache::SourceCache;
 use super::csv::{self as csvfile, CsvTable};
-use super::geojson::{self as gj, Coords, GeoFile};
+use super::geojson::{Coords, GeoFile};
 use super::points::{nearest, Method, RegularLattice, Weights};
+use super::raster::{self, Raster};
+use super::vector;
 use super::{Layer, LayerError, LayerSpec, Missing, Sampling, SamplingReport};
 use crate::grid::{Crs, Grid, Projector};
 use geo::MultiPolygon;
@@ -32,6 +34,9 @@ pub fn sample(
         Sampling::AreaMean => area_mean(spec, grid, cache)?,
         Sampling::PointCount | Sampling::PointSum | Sampling::PointMean => {
             points(spec, grid, cache)?
+        }
+        Sampling::Interpolate if raster::is_raster(&spec.path) => {
+            raster_values(name, spec, grid, cache)?
         }
         Sampling::Interpolate => interpolate(name, spec, grid, cache)?,
     };
@@ -81,12 +86,17 @@ fn describe_cell(grid: &Grid, id: usize) -> String {
     format!("cell {id} (lon {lon:.4}, lat {lat:.4})")
 }
 
-fn coords(spec: &LayerSpec) -> Coords {
-    if spec.crs.is_some() {
+fn coords(crs: Option<&str>) -> Coords {
+    if crs.is_some() {
         Coords::Projected
     } else {
         Coords::LonLat
     }
+}
+
+/// The CRS a vector file's coordinates are in: the plan's `crs`, else the file's own.
+fn file_crs<'a>(spec: &'a LayerSpec, file: &'a GeoFile) -> Option<&'a str> {
+    spec.crs.as_deref().or(file.crs.as_deref())
 }
 
 fn field(spec: &LayerSpec) -> Result<&str, LayerError> {
@@ -143,16 +153,17 @@ struct ToGrid<'a> {
 }
 
 impl<'a> ToGrid<'a> {
-    fn new(spec: &'a LayerSpec, grid: &Grid) -> Result<ToGrid<'a>, LayerError> {
+    /// From coordinates in `crs` (`None`: WGS84 lon/lat) of the file at `path`.
+    fn new(path: &'a Path, crs: Option<&str>, grid: &Grid) -> Result<ToGrid<'a>, LayerError> {
         let err = |source| LayerError::Projection {
-            path: spec.path.clone(),
+            path: path.to_path_buf(),
             source,
         };
-        let same = spec.crs.as_deref() == Some(grid.crs.definition.as_str());
-        let source = match (&spec.crs, same) {
+        let same = crs == Some(grid.crs.definition.as_str());
+        let source = match (crs, same) {
             (Some(def), false) => Some(
                 Projector::new(&Crs {
-                    definition: def.clone(),
+                    definition: def.to_string(),
                 })
                 .map_err(err)?,
             ),
@@ -168,7 +179,7 @@ impl<'a> ToGrid<'a> {
         let step_m = grid.cell_size_m / 2.0;
         let step_deg = (grid.cell_size_m / 2.0 / 111_320.0).clamp(1e-5, 0.25);
         Ok(ToGrid {
-            path: &spec.path,
+            path,
             grid: grid_proj,
             source,
             step_m,
@@ -207,7 +218,10 @@ impl<'a> ToGrid<'a> {
 }
 
 fn geo_file(spec: &LayerSpec, cache: &SourceCache) -> Result<std::sync::Arc<GeoFile>, LayerError> {
-    cache.get_or_load(&spec.path, "geojson", || gj::parse_file(&spec.path))
+    let kind = format!("vector|{:?}", spec.layer);
+    cache.get_or_load(&spec.path, &kind, || {
+        vector::read(&spec.path, spec.layer.as_deref())
+    })
 }
 
 /// The polygon file projected into the grid's CRS and cut on its lattice; one entry per
@@ -218,11 +232,17 @@ fn polygon_index(
     cache: &SourceCache,
 ) -> Result<(std::sync::Arc<GeoFile>, std::sync::Arc<PolygonIndex>), LayerError> {
     let file = geo_file(spec, cache)?;
-    let kind = format!("polygons|{:?}|{}", spec.crs, grid_key(grid));
+    let kind = format!(
+        "polygons|{:?}|{:?}|{}",
+        spec.crs,
+        spec.layer,
+        grid_key(grid)
+    );
     let index = cache.get_or_load(&spec.path, &kind, || {
-        let to_grid = ToGrid::new(spec, grid)?;
+        let crs = file_crs(spec, &file);
+        let to_grid = ToGrid::new(&spec.path, crs, grid)?;
         let projected = file
-            .polygons(coords(spec))?
+            .polygons(coords(crs))?
             .iter()
             .map(|(_, mp)| to_grid.polygon(mp))
             .collect::<Result<Vec<_>, _>>()?;
@@ -290,10 +310,11 @@ fn points(
         Sampling::PointCount => None,
         _ => Some(field(spec)?),
     };
-    let to_grid = ToGrid::new(spec, grid)?;
+    let crs = file_crs(spec, &file);
+    let to_grid = ToGrid::new(&spec.path, crs, grid)?;
     let mut sum = vec![0.0; grid.len()];
     let mut count = vec![0u32; grid.len()];
-    for (index, p) in file.points(coords(spec))? {
+    for (index, p) in file.points(coords(crs))? {
         let v = match field {
             None => 1.0,
             Some(f) => match file.number(index, f)? {
@@ -348,7 +369,7 @@ fn interpolate(
     cache: &SourceCache,
 ) -> Result<Vec<Option<f64>>, LayerError> {
     let column = field(spec)?;
-    let c = coords(spec);
+    let c = coords(spec.crs.as_deref());
     let table: std::sync::Arc<CsvTable> =
         cache.get_or_load(&spec.path, &format!("csv|{c:?}"), || {
             csvfile::parse_file(&spec.path, c)
@@ -368,6 +389,7 @@ fn interpolate(
         coastal,
         nearest,
         missing,
+        pixel_mean: 0,
     });
     // Bilinear and nearest values lie within the file's values; a coastal plane may
     // extrapolate past them, so keep it inside the layer's valid range (a habitat share
@@ -446,7 +468,7 @@ fn interpolator(
         Err(e) => e,
     };
     // Nearest point, measured in the grid's equal-area metres.
-    let to_grid = ToGrid::new(spec, grid)?;
+    let to_grid = ToGrid::new(&spec.path, spec.crs.as_deref(), grid)?;
     let pts = table
         .xs
         .iter()
@@ -483,4 +505,174 @@ fn round_sig(x: f64) -> f64 {
     }
     let scale = 10f64.powi(5 - x.abs().log10().floor() as i32);
     (x * scale).round() / scale
+}
+
+/// The band a raster layer reads: the layer's `band` (1-based), band 1 by default.
+fn band(spec: &LayerSpec) -> Result<usize, LayerError> {
+    match spec.field.as_deref() {
+        None => Ok(1),
+        Some(b) => b.trim().parse::<usize>().map_err(|_| LayerError::Spec {
+            path: spec.path.clone(),
+            message: format!("band `{b}` is not a band number (expected e.g. `band = 1`)"),
+        }),
+    }
+}
+
+/// A raster sampled onto the grid. Coarser than the cells (a pixel's ground area at the
+/// raster's centre ≥ a cell's): bilinear at each cell's centroid on the pixel centres, nodata
+/// pixels absent as land points are in a lattice (same coastal fallback, same counts). Finer:
+/// the mean of the pixels whose centres fall in the cell, weighted by pixel area (for a
+/// lon/lat raster ∝ cos(latitude); equal in a projected one) — the area-weighted mean of the
+/// pixels inside the cell to within a pixel along its edge; a cell no pixel centre falls in
+/// (a sliver) falls back to bilinear.
+fn raster_values(
+    name: &str,
+    spec: &LayerSpec,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<Option<f64>>, LayerError> {
+    let b = band(spec)?;
+    let r: std::sync::Arc<Raster> =
+        cache.get_or_load(&spec.path, &format!("raster|{b}"), || {
+            raster::read(&spec.path, b)
+        })?;
+    for (k, v) in r.values.iter().enumerate() {
+        if v.is_finite() {
+            check_range(
+                spec,
+                || format!("band {b}, pixel (col {}, row {})", k % r.nx, k / r.nx),
+                *v,
+            )?;
+        }
+    }
+    let crs = spec.crs.as_deref().or(r.crs.as_deref());
+    let err = |source| LayerError::Projection {
+        path: spec.path.clone(),
+        source,
+    };
+    let source = match crs {
+        Some(def) => Some(
+            Projector::new(&Crs {
+                definition: def.to_string(),
+            })
+            .map_err(err)?,
+        ),
+        None => None,
+    };
+    let grid_proj = Projector::new(&grid.crs).map_err(err)?;
+    // Ground area of the central pixel, in the grid's equal-area m².
+    let to_grid = |p: [f64; 2]| -> Result<[f64; 2], LayerError> {
+        let ll = match &source {
+            Some(s) => s.to_lonlat(p[0], p[1]).map_err(err)?,
+            None => p,
+        };
+        grid_proj.to_xy(ll[0], ll[1]).map_err(err)
+    };
+    let c = r.centre(r.nx / 2, r.ny / 2);
+    let (hx, hy) = (0.5 * r.dx, 0.5 * r.dy);
+    let corners = [
+        to_grid([c[0] - hx, c[1] - hy])?,
+        to_grid([c[0] + hx, c[1] - hy])?,
+        to_grid([c[0] + hx, c[1] + hy])?,
+        to_grid([c[0] - hx, c[1] + hy])?,
+    ];
+    let pixel_m2 = 0.5
+        * (0..4)
+            .map(|k| {
+                let (p, q) = (corners[k], corners[(k + 1) % 4]);
+                p[0] * q[1] - q[0] * p[1]
+            })
+            .sum::<f64>()
+            .abs();
+    let cell_m2 = grid.cell_size_m * grid.cell_size_m;
+    let lattice = r.lattice();
+    let bilinear_at = |lonlat: [f64; 2]| -> Result<(Weights, Method), LayerError> {
+        let q = match &source {
+            Some(s) => s.to_xy(lonlat[0], lonlat[1]).map_err(err)?,
+            None => {
+                let variants = [lonlat[0], lonlat[0] + 360.0, lonlat[0] - 360.0];
+                let lon = variants
+                    .iter()
+                    .copied()
+                    .min_by_key(|&l| lattice.x_reach(l))
+                    .unwrap_or(lonlat[0]);
+                [lon, lonlat[1]]
+            }
+        };
+        Ok(lattice.weights_at(q[0], q[1]))
+    };
+    let mut values = vec![None; grid.len()];
+    let mut pixel_mean = 0;
+    if pixel_m2 < cell_m2 {
+        // Sum value × weight per cell over the pixels whose centres fall in it.
+        let mut num = vec![0.0; grid.len()];
+        let mut den = vec![0.0; grid.len()];
+        for j in 0..r.ny {
+            for i in 0..r.nx {
+                let v = r.values[j * r.nx + i];
+                if !v.is_finite() {
+                    continue;
+                }
+                let p = r.centre(i, j);
+                let ll = match &source {
+                    Some(s) => s.to_lonlat(p[0], p[1]).map_err(err)?,
+                    None => p,
+                };
+                let Ok(xy) = grid_proj.to_xy(ll[0], ll[1]) else {
+                    continue;
+                };
+                if let Some(id) = grid.locate(xy) {
+                    let w = if source.is_none() {
+                        ll[1].to_radians().cos()
+                    } else {
+                        1.0
+                    };
+                    num[id as usize] += w * v;
+                    den[id as usize] += w;
+                }
+            }
+        }
+        for id in 0..grid.len() {
+            if den[id] > 0.0 {
+                values[id] = Some(num[id] / den[id]);
+                pixel_mean += 1;
+            }
+        }
+    }
+    let mut counted = Vec::new();
+    for (id, cell) in grid.cells.iter().enumerate() {
+        if values[id].is_some() {
+            continue;
+        }
+        let (w, m) = bilinear_at(cell.lonlat)?;
+        values[id] = w.apply(&r.values);
+        counted.push(m);
+    }
+    let clamp = |v: f64| match spec.valid_range {
+        Some((min, max)) => v.clamp(min, max),
+        None => v,
+    };
+    let [bilinear, coastal, nearest, missing] = count_methods(counted.into_iter());
+    let (positions, present) = lattice.positions();
+    let rule = if pixel_m2 < cell_m2 {
+        "area-weighted mean of the pixels in each cell"
+    } else {
+        "bilinear on pixel centres"
+    };
+    cache.record(SamplingReport {
+        layer: name.to_string(),
+        path: spec.path.display().to_string(),
+        method: format!(
+            "raster band {b}, {rule} ({} × {} pixels of {:.3} km², {present} of {positions} with data)",
+            r.nx,
+            r.ny,
+            pixel_m2 / 1e6
+        ),
+        bilinear,
+        coastal,
+        nearest,
+        missing,
+        pixel_mean,
+    });
+    Ok(values.into_iter().map(|v| v.map(clamp)).collect())
 }

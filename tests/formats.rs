@@ -1,0 +1,319 @@
+//! Vector formats a planner holds — GeoPackage, shapefile, FlatGeobuf, projected GeoJSON — read
+//! through the same plan keys as GeoJSON. The files are made from the demo's GeoJSON with GDAL's
+//! own `ogr2ogr` (Debian gdal-bin), an outside converter, so the checks do not trust
+//! driftplan's readers to agree with themselves.
+
+mod common;
+
+use std::path::Path;
+use std::process::Command;
+
+fn ogr2ogr(args: &[&str]) {
+    let out = Command::new("ogr2ogr")
+        .args(args)
+        .output()
+        .expect("ogr2ogr (Debian gdal-bin) is needed for these tests; .ci/run installs it");
+    assert!(
+        out.status.success(),
+        "ogr2ogr {args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
+
+fn solve(plan: &Path, out: &Path) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .arg("solve")
+        .arg(plan)
+        .arg("--out")
+        .arg(out)
+        .arg("--quiet")
+        .arg("--no-stress")
+        .output()
+        .unwrap()
+}
+
+#[test]
+fn geopackage_shapefile_and_flatgeobuf_give_the_same_network_as_geojson() {
+    // Requirement: the demo gives a byte-identical network when its vector layers (region,
+    // land, protected areas, shipping lane) are read from GeoPackage, shapefile or FlatGeobuf
+    // instead of GeoJSON. ogr2ogr copies the coordinates exactly (doubles in all three).
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(d, "max_share = 0.3", "objective = \"min-cost\"");
+    let base = d.join("base");
+    let out = solve(&plan, &base);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let want = std::fs::read(base.join("network.geojson")).unwrap();
+    let text = std::fs::read_to_string(&plan).unwrap();
+    for (ext, driver) in [
+        ("gpkg", "GPKG"),
+        ("shp", "ESRI Shapefile"),
+        ("fgb", "FlatGeobuf"),
+    ] {
+        let mut t = text.clone();
+        for name in ["region", "land", "protected", "shipping-lane"] {
+            let src = d.join(format!("demo-data/{name}.geojson"));
+            let dst = d.join(format!("demo-data/{name}.{ext}"));
+            ogr2ogr(&["-f", driver, dst.to_str().unwrap(), src.to_str().unwrap()]);
+            t = t.replace(&format!("{name}.geojson"), &format!("{name}.{ext}"));
+        }
+        let p = d.join(format!("scenarios/plan-{ext}.toml"));
+        std::fs::write(&p, t).unwrap();
+        let o = d.join(ext);
+        let out = solve(&p, &o);
+        assert!(
+            out.status.success(),
+            "{ext}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let got = std::fs::read(o.join("network.geojson")).unwrap();
+        assert!(
+            got == want,
+            "{ext}: the network differs from the GeoJSON run's"
+        );
+    }
+}
+
+#[test]
+fn projected_vector_files_are_read_in_their_own_crs() {
+    // ogr2ogr reprojects the demo's protected areas to UTM zone 11S (EPSG:32711) in a
+    // GeoPackage and in GeoJSON (which GDAL writes with a `crs` member). Read in their own CRS,
+    // each cell's covered share matches the lon/lat original's within 0.005: ogr2ogr moves only
+    // the vertices, so an edge straight in UTM bows from the same edge straight in lon/lat by
+    // tens of metres over the 30–40 km edges, against 20 km cells (our own estimate).
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(d, "max_share = 0.3", "objective = \"min-cost\"");
+    let src = d.join("demo-data/protected.geojson");
+    let shares = |plan: &Path, tag: &str| -> Vec<f64> {
+        let o = d.join(tag);
+        let out = solve(plan, &o);
+        assert!(
+            out.status.success(),
+            "{tag}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let mut rdr = csv::Reader::from_path(o.join("cells.csv")).unwrap();
+        let col = rdr
+            .headers()
+            .unwrap()
+            .iter()
+            .position(|h| h == "required_share")
+            .expect("cells.csv has the required_share column");
+        rdr.records()
+            .map(|r| r.unwrap()[col].parse().unwrap())
+            .collect()
+    };
+    let want = shares(&plan, "lonlat");
+    assert!(want.iter().any(|&s| s > 0.5));
+    let text = std::fs::read_to_string(&plan).unwrap();
+    for (ext, driver) in [("gpkg", "GPKG"), ("geojson", "GeoJSON")] {
+        let dst = d.join(format!("demo-data/protected-utm.{ext}"));
+        ogr2ogr(&[
+            "-f",
+            driver,
+            "-t_srs",
+            "EPSG:32711",
+            dst.to_str().unwrap(),
+            src.to_str().unwrap(),
+        ]);
+        if ext == "geojson" {
+            let g = std::fs::read_to_string(&dst).unwrap();
+            assert!(
+                g.contains("EPSG::32711"),
+                "GDAL writes the crs member: {}",
+                &g[..200]
+            );
+        }
+        let p = d.join(format!("scenarios/plan-utm-{ext}.toml"));
+        std::fs::write(
+            &p,
+            text.replace("protected.geojson", &format!("protected-utm.{ext}")),
+        )
+        .unwrap();
+        let got = shares(&p, &format!("utm-{ext}"));
+        assert_eq!(got.len(), want.len());
+        for (k, (a, b)) in got.iter().zip(&want).enumerate() {
+            assert!((a - b).abs() < 0.005, "{ext}: cell {k}: {a} vs {b}");
+        }
+    }
+}
+
+#[test]
+fn a_file_in_a_format_driftplan_does_not_read_is_named_plainly() {
+    // A planner's spreadsheet saved as .xlsx, and a "GeoPackage" that is not one.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(d, "max_share = 0.3", "objective = \"min-cost\"");
+    let text = std::fs::read_to_string(&plan).unwrap();
+    std::fs::write(d.join("demo-data/protected.gpkg"), "not a database\n").unwrap();
+    for (name, needle) in [
+        ("protected.xlsx", "not a format driftplan reads"),
+        ("protected.gpkg", "not a format driftplan reads"),
+    ] {
+        let p = d.join("scenarios/plan-bad.toml");
+        std::fs::write(&p, text.replace("protected.geojson", name)).unwrap();
+        if name.ends_with(".xlsx") {
+            std::fs::write(d.join("demo-data").join(name), [0x50u8, 0x4b, 3, 4, 0xff]).unwrap();
+        }
+        let out = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+            .arg("check")
+            .arg(&p)
+            .output()
+            .unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(!out.status.success());
+        assert!(err.contains(needle) && err.contains(name), "{name}: {err}");
+        assert!(!err.contains("UTF-8") && !err.contains("panicked"), "{err}");
+    }
+}
+
+/// Writes an ESRI ASCII grid of `f(lon, lat)` on pixel centres lon0 + (i + 0.5)·step,
+/// lat0 + (j + 0.5)·step (i < nx, j < ny), with nodata where `land`, and turns it into a
+/// GeoTIFF with GDAL's own gdal_translate (EPSG:4326), optionally packed as Int16 with a
+/// scale and offset.
+#[allow(clippy::too_many_arguments)]
+fn geotiff(
+    dir: &Path,
+    name: &str,
+    (lon0, lat0, step, nx, ny): (f64, f64, f64, usize, usize),
+    f: &dyn Fn(f64, f64) -> f64,
+    land: &dyn Fn(f64, f64) -> bool,
+    packed: Option<(f64, f64)>,
+) -> std::path::PathBuf {
+    let mut asc = format!(
+        "ncols {nx}\nnrows {ny}\nxllcorner {lon0}\nyllcorner {lat0}\ncellsize {step}\nNODATA_value -9999\n"
+    );
+    for j in (0..ny).rev() {
+        let row: Vec<String> = (0..nx)
+            .map(|i| {
+                let (lon, lat) = (
+                    lon0 + (i as f64 + 0.5) * step,
+                    lat0 + (j as f64 + 0.5) * step,
+                );
+                if land(lon, lat) {
+                    "-9999".to_string()
+                } else {
+                    match packed {
+                        Some((scale, offset)) => {
+                            format!("{}", ((f(lon, lat) - offset) / scale).round())
+                        }
+                        None => format!("{}", f(lon, lat)),
+                    }
+                }
+            })
+            .collect();
+        asc.push_str(&row.join(" "));
+        asc.push('\n');
+    }
+    let src = dir.join(format!("{name}.asc"));
+    std::fs::write(&src, asc).unwrap();
+    let dst = dir.join(format!("{name}.tif"));
+    let mut args = vec!["-q", "-of", "GTiff", "-a_srs", "EPSG:4326"];
+    let (s, o);
+    if let Some((scale, offset)) = packed {
+        s = scale.to_string();
+        o = offset.to_string();
+        args.extend(["-ot", "Int16", "-a_scale", &s, "-a_offset", &o]);
+    }
+    let out = Command::new("gdal_translate")
+        .args(&args)
+        .arg(&src)
+        .arg(&dst)
+        .output()
+        .expect("gdal_translate (Debian gdal-bin) is needed; .ci/run installs it");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    dst
+}
+
+#[test]
+fn geotiffs_coarser_and_finer_than_the_cells() {
+    use driftplan::grid::{Crs, Grid};
+    use driftplan::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
+    // 10 km cells of a LAEA grid centred at 5°E 50°N (100 km²). A plane
+    // v = 12 + 0.9·lon − 2.1·lat (bilinear reproduces it exactly: Press et al., Numerical
+    // Recipes, §3.6; the mean of a plane over a cell is its value at the cell's centroid).
+    let dir = tempfile::tempdir().unwrap();
+    let f = |lon: f64, lat: f64| 12.0 + 0.9 * lon - 2.1 * lat;
+    let grid = Grid::full_rectangle(
+        Crs::auto_laea(5.0, 50.0),
+        10_000.0,
+        [-55_000.0, -55_000.0],
+        10,
+        10,
+    )
+    .unwrap();
+    let spec = |path: std::path::PathBuf| LayerSpec {
+        path,
+        sampling: Sampling::Interpolate,
+        field: None,
+        layer: None,
+        crs: None,
+        valid_range: None,
+        missing: Missing::Error,
+    };
+    // Coarse: 0.2° pixels (≈ 14 × 22 km) packed as Int16 with scale 0.001 and offset −90, an
+    // "island" of nodata pixels. Tolerance: half the scale (quantisation) — the coastal plane
+    // is exact for a plane too.
+    let island = |lon: f64, lat: f64| (5.1..5.5).contains(&lon) && (50.0..50.3).contains(&lat);
+    let coarse = geotiff(
+        dir.path(),
+        "coarse",
+        (3.9, 49.3, 0.2, 12, 8),
+        &f,
+        &island,
+        Some((0.001, -90.0)),
+    );
+    let cache = SourceCache::new();
+    let layer = sample("coarse", &spec(coarse), &grid, &cache).unwrap();
+    for (id, c) in grid.cells.iter().enumerate() {
+        let want = f(c.lonlat[0], c.lonlat[1]);
+        assert!(
+            (layer.values[id] - want).abs() <= 0.0005 + 1e-9,
+            "cell {id}: {} vs {want}",
+            layer.values[id]
+        );
+    }
+    let r = &cache.sampling_reports()[0];
+    assert!(
+        r.method.contains("bilinear on pixel centres"),
+        "{}",
+        r.method
+    );
+    assert!(
+        r.coastal > 0 && r.bilinear > 0 && r.pixel_mean == 0,
+        "{r:?}"
+    );
+    // Fine: 0.01° pixels (≈ 0.7 × 1.1 km), float. Pixel centres assign each pixel to one cell,
+    // so a cell's mean is the plane at the centroid of its pixel centres, within half a pixel
+    // of the cell's own: tolerance (0.9 + 2.1) · 0.005.
+    let fine = geotiff(
+        dir.path(),
+        "fine",
+        (3.9, 49.3, 0.01, 240, 160),
+        &f,
+        &|_, _| false,
+        None,
+    );
+    let cache = SourceCache::new();
+    let layer = sample("fine", &spec(fine), &grid, &cache).unwrap();
+    for (id, c) in grid.cells.iter().enumerate() {
+        let want = f(c.lonlat[0], c.lonlat[1]);
+        assert!(
+            (layer.values[id] - want).abs() <= 3.0 * 0.005,
+            "cell {id}: {} vs {want}",
+            layer.values[id]
+        );
+    }
+    let r = &cache.sampling_reports()[0];
+    assert_eq!(r.pixel_mean, grid.len(), "{r:?}");
+    assert!(r.method.contains("area-weighted mean"), "{}", r.method);
+}
