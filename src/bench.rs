@@ -181,6 +181,8 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                         sampling: Sampling::Interpolate,
                         field: Some(format!("sp{k}")),
                         layer: None,
+                        year: None,
+                        years_window: 1,
                         crs: None,
                         valid_range: Some((0.0, 1.0)),
                         missing: Missing::Error,

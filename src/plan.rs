@@ -63,6 +63,8 @@ pub struct LayerTemplate {
     pub field: Option<String>,
     /// Layer of a multi-layer vector file (GeoPackage), if named.
     pub layer: Option<String>,
+    /// NetCDF files: average this many years centred on the year asked for (1: that year).
+    pub years_window: u32,
     /// CRS of the file's coordinates (`None`: the file's own, else WGS84 lon/lat).
     pub crs: Option<String>,
     /// Values outside this range are errors.
@@ -84,6 +86,8 @@ impl LayerTemplate {
             sampling: self.sampling,
             field: self.field.as_deref().map(fill),
             layer: self.layer.clone(),
+            year: (year != 0).then_some(year),
+            years_window: self.years_window,
             crs: self.crs.clone(),
             valid_range: self.valid_range,
             missing: self.missing,
@@ -98,9 +102,11 @@ impl LayerTemplate {
     /// True when the path or field depends on the scenario or year.
     pub fn varies_by_scenario_or_year(&self) -> bool {
         let f = self.field.as_deref().unwrap_or("");
-        ["{scenario}", "{year}"]
-            .iter()
-            .any(|t| self.path.contains(t) || f.contains(t))
+        let netcdf = self.path.to_ascii_lowercase().ends_with(".nc");
+        netcdf
+            || ["{scenario}", "{year}"]
+                .iter()
+                .any(|t| self.path.contains(t) || f.contains(t))
     }
 }
 
@@ -273,6 +279,8 @@ pub(crate) struct RawLayer {
     column: Option<String>,
     attribute: Option<String>,
     band: Option<u32>,
+    variable: Option<String>,
+    years_window: Option<u32>,
     layer: Option<String>,
     sampling: Option<String>,
     crs: Option<String>,
@@ -418,6 +426,8 @@ impl Checker {
                 "column",
                 "attribute",
                 "band",
+                "variable",
+                "years_window",
                 "layer",
                 "sampling",
                 "crs",
@@ -491,7 +501,21 @@ impl Checker {
             .column
             .clone()
             .or_else(|| raw.attribute.clone())
-            .or_else(|| raw.band.map(|b| b.to_string()));
+            .or_else(|| raw.band.map(|b| b.to_string()))
+            .or_else(|| raw.variable.clone());
+        let is_netcdf = lower.ends_with(".nc");
+        if raw.years_window.is_some() && !is_netcdf {
+            self.push(
+                format!("{key}.years_window"),
+                "`years_window` is for NetCDF files with a time axis (`.nc`)",
+            );
+        }
+        if raw.years_window == Some(0) {
+            self.push(
+                format!("{key}.years_window"),
+                "a window of at least 1 year, e.g. `years_window = 20`",
+            );
+        }
         if raw.band == Some(0) {
             self.push(format!("{key}.band"), "bands count from 1");
         }
@@ -540,6 +564,7 @@ impl Checker {
             sampling,
             field,
             layer: raw.layer.clone(),
+            years_window: raw.years_window.unwrap_or(1).max(1),
             crs: raw.crs.clone(),
             valid_range,
             missing,

@@ -410,6 +410,8 @@ fn velocity_next_to_a_coast_is_trend_over_gradient_in_every_sea_cell() {
                 sampling: Sampling::Interpolate,
                 field: Some("sst".into()),
                 layer: None,
+                year: None,
+                years_window: 1,
                 crs: None,
                 valid_range: None,
                 missing: Missing::Error,

@@ -513,6 +513,7 @@ fn template(
         sampling,
         field: field.map(str::to_string),
         layer: None,
+        years_window: 1,
         crs: None,
         valid_range: None,
         missing,

@@ -256,6 +256,8 @@ fn geotiffs_coarser_and_finer_than_the_cells() {
         sampling: Sampling::Interpolate,
         field: None,
         layer: None,
+        year: None,
+        years_window: 1,
         crs: None,
         valid_range: None,
         missing: Missing::Error,
@@ -316,4 +318,161 @@ fn geotiffs_coarser_and_finer_than_the_cells() {
     let r = &cache.sampling_reports()[0];
     assert_eq!(r.pixel_mean, grid.len(), "{r:?}");
     assert!(r.method.contains("area-weighted mean"), "{}", r.method);
+}
+
+#[test]
+fn netcdf_cf_sea_temperature_matches_the_equivalent_csv_lattice() {
+    use driftplan::grid::{Crs, Grid};
+    use driftplan::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
+    // A CF file as climate models deliver it, written from CDL text by ncgen (Debian
+    // netcdf-bin, an outside writer): a no-leap calendar in days since 1850-01-01, Kelvin
+    // packed as short with scale_factor 0.01 and add_offset 273.15, a _FillValue, 0–360
+    // longitudes and latitudes listed north to south. Two steps in 2030 (January and July,
+    // ±1 °C of season), one in 2029 and one in 2031 (trend 0.1 °C/yr). The year's value is the
+    // mean of its steps (CF practice for annual means); `years_window = 3` averages 2029–2031.
+    // Reference: the same field as a CSV lon/lat lattice in °C (−180..180 longitudes).
+    let dir = tempfile::tempdir().unwrap();
+    let base = |lon: f64, lat: f64| 12.0 + 0.3 * (lon - 355.0) - 0.8 * (lat - 50.0);
+    let lons: Vec<f64> = (0..13).map(|i| 353.5 + 0.25 * i as f64).collect();
+    let lats: Vec<f64> = (0..9).map(|j| 51.0 - 0.25 * j as f64).collect();
+    // (year, day of year in a 365-day year, seasonal anomaly)
+    let steps = [
+        (2029, 181, 0.0),
+        (2030, 15, -1.0),
+        (2030, 196, 1.0),
+        (2031, 181, 0.0),
+    ];
+    let value = |k: usize, lon: f64, lat: f64| {
+        let (y, _, season) = steps[k];
+        base(lon, lat) + season + 0.1 * (y - 2030) as f64
+    };
+    let mut cdl = format!(
+        "netcdf sst {{\ndimensions:\n time = UNLIMITED ; lat = {} ; lon = {} ;\nvariables:\n \
+         double time(time) ; time:units = \"days since 1850-01-01\" ; time:calendar = \"noleap\" ; time:standard_name = \"time\" ;\n \
+         double lat(lat) ; lat:units = \"degrees_north\" ; lat:standard_name = \"latitude\" ;\n \
+         double lon(lon) ; lon:units = \"degrees_east\" ; lon:standard_name = \"longitude\" ;\n \
+         short tos(time, lat, lon) ; tos:units = \"K\" ; tos:scale_factor = 0.01 ; tos:add_offset = 273.15 ; tos:_FillValue = -32768s ;\n\
+         data:\n time = ",
+        lats.len(),
+        lons.len()
+    );
+    let times: Vec<String> = steps
+        .iter()
+        .map(|(y, doy, _)| format!("{}", (y - 1850) * 365 + doy))
+        .collect();
+    cdl.push_str(&times.join(", "));
+    cdl.push_str(" ;\n lat = ");
+    cdl.push_str(
+        &lats
+            .iter()
+            .map(|v| v.to_string())
+            .collect::<Vec<_>>()
+            .join(", "),
+    );
+    cdl.push_str(" ;\n lon = ");
+    cdl.push_str(
+        &lons
+            .iter()
+            .map(|v| v.to_string())
+            .collect::<Vec<_>>()
+            .join(", "),
+    );
+    cdl.push_str(" ;\n tos = ");
+    let mut packed = Vec::new();
+    for k in 0..steps.len() {
+        for &lat in &lats {
+            for &lon in &lons {
+                // Packed = (K − 273.15) / 0.01 = °C × 100.
+                packed.push(format!("{}", (value(k, lon, lat) * 100.0).round()));
+            }
+        }
+    }
+    cdl.push_str(&packed.join(", "));
+    cdl.push_str(" ;\n}\n");
+    let cdl_path = dir.path().join("sst.cdl");
+    std::fs::write(&cdl_path, cdl).unwrap();
+    let nc = dir.path().join("sst.nc");
+    let out = Command::new("ncgen")
+        .arg("-o")
+        .arg(&nc)
+        .arg(&cdl_path)
+        .output()
+        .expect("ncgen (Debian netcdf-bin) is needed; .ci/run installs it");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+
+    let grid = Grid::full_rectangle(
+        Crs::auto_laea(-5.0, 50.0),
+        10_000.0,
+        [-55_000.0, -55_000.0],
+        10,
+        10,
+    )
+    .unwrap();
+    let csv = |name: &str, f: &dyn Fn(f64, f64) -> f64| {
+        let mut text = String::from("lon,lat,t\n");
+        for &lat in &lats {
+            for &lon in &lons {
+                text.push_str(&format!("{},{lat},{}\n", lon - 360.0, f(lon, lat)));
+            }
+        }
+        let p = dir.path().join(name);
+        std::fs::write(&p, text).unwrap();
+        p
+    };
+    let spec = |path: std::path::PathBuf, field: &str, window: u32| LayerSpec {
+        path,
+        sampling: Sampling::Interpolate,
+        field: Some(field.into()),
+        layer: None,
+        year: Some(2030),
+        years_window: window,
+        crs: None,
+        valid_range: None,
+        missing: Missing::Error,
+    };
+    let q = |v: f64| (v * 100.0).round() / 100.0; // the file's packing
+    for (window, want_csv) in [
+        (
+            1,
+            csv("y2030.csv", &|lon, lat| {
+                0.5 * (q(value(1, lon, lat)) + q(value(2, lon, lat)))
+            }),
+        ),
+        (
+            3,
+            csv("w3.csv", &|lon, lat| {
+                (0..4).map(|k| q(value(k, lon, lat))).sum::<f64>() / 4.0
+            }),
+        ),
+    ] {
+        let cache = SourceCache::new();
+        let got = sample("sst", &spec(nc.clone(), "tos", window), &grid, &cache).unwrap();
+        let want = sample("csv", &spec(want_csv, "t", 1), &grid, &cache).unwrap();
+        for id in 0..grid.len() {
+            assert!(
+                (got.values[id] - want.values[id]).abs() < 1e-6,
+                "window {window}, cell {id}: {} vs {}",
+                got.values[id],
+                want.values[id]
+            );
+        }
+    }
+    // A year outside the time axis is named with the axis's span.
+    let mut s = spec(nc.clone(), "tos", 1);
+    s.year = Some(2050);
+    let e = sample("sst", &s, &grid, &SourceCache::new())
+        .unwrap_err()
+        .to_string();
+    assert!(
+        e.contains("no time steps in 2050") && e.contains("2029–2031"),
+        "{e}"
+    );
+    let e = sample("sst", &spec(nc, "sst", 1), &grid, &SourceCache::new())
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("no variable `sst`"), "{e}");
 }

@@ -18,6 +18,8 @@ fn spec(path: PathBuf, sampling: Sampling, field: Option<&str>, crs: Option<&str
         sampling,
         field: field.map(str::to_string),
         layer: None,
+        year: None,
+        years_window: 1,
         crs: crs.map(str::to_string),
         valid_range: None,
         missing: Missing::Zero,

@@ -117,6 +117,8 @@ pub fn polygon_shares(path: &Path, grid: &Grid) -> Result<Vec<f64>, NetworkError
         sampling: Sampling::AreaShare,
         field: None,
         layer: None,
+        year: None,
+        years_window: 1,
         crs: None,
         valid_range: None,
         // No polygon over a cell means the cell is outside the network, not missing data.

@@ -12,6 +12,7 @@ use std::path::PathBuf;
 
 mod area;
 mod cache;
+mod cf_time;
 mod csv;
 mod geojson;
 mod points;
@@ -85,6 +86,11 @@ pub struct LayerSpec {
     /// Which layer of a multi-layer vector file (a GeoPackage) to read; `None` for files with
     /// one layer.
     pub layer: Option<String>,
+    /// The year asked for, when the file holds a time axis (NetCDF-CF); `None` for layers
+    /// that do not depend on the year.
+    pub year: Option<i32>,
+    /// NetCDF-CF: the mean over this many years centred on `year` (1: that year's steps).
+    pub years_window: u32,
     /// CRS of the file's coordinates; `None` means the file's own CRS (a GeoPackage or
     /// shapefile layer's, a GeoJSON `crs` member), or else WGS84 lon/lat (RFC 7946).
     pub crs: Option<String>,

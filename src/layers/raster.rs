@@ -3,7 +3,7 @@
 
 use super::points::RegularLattice;
 use super::LayerError;
-use gdal::Dataset;
+use gdal::{Dataset, Metadata};
 use std::path::Path;
 
 /// Extensions read as rasters (through GDAL).
@@ -57,6 +57,11 @@ impl Raster {
 
 /// Reads band `band` (1-based) of the raster at `path`.
 pub(crate) fn read(path: &Path, band: usize) -> Result<Raster, LayerError> {
+    read_mean(path, &path.to_string_lossy(), &[band])
+}
+
+/// Opens `source` (a file, or a GDAL subdataset name such as `NETCDF:"f.nc":tos`) as a raster.
+fn open(path: &Path, source: &str) -> Result<Dataset, LayerError> {
     crate::grid::crs::quiet_gdal();
     if !path.exists() {
         return Err(LayerError::Io {
@@ -64,18 +69,177 @@ pub(crate) fn read(path: &Path, band: usize) -> Result<Raster, LayerError> {
             source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such file"),
         });
     }
-    let spec = |message: String| LayerError::Spec {
-        path: path.to_path_buf(),
-        message,
-    };
-    let ds = Dataset::open_ex(
-        path,
+    Dataset::open_ex(
+        source,
         gdal::DatasetOptions {
             open_flags: gdal::GdalOpenFlags::GDAL_OF_RASTER,
             ..Default::default()
         },
     )
-    .map_err(|e| super::vector::unreadable(path, &e.to_string()))?;
+    .map_err(|e| super::vector::unreadable(path, &e.to_string()))
+}
+
+/// Kelvin units of the CF `units` attribute (UDUNITS spellings), converted to °C on reading.
+fn is_kelvin(units: &str) -> bool {
+    matches!(
+        units.trim().to_ascii_lowercase().as_str(),
+        "k" | "kelvin" | "degk" | "deg_k" | "degrees_k" | "kelvins"
+    )
+}
+
+/// A NetCDF-CF variable for one year: the mean of its time steps in that year, or in the
+/// `window` years centred on it (`window = 20` → year − 10 … year + 9). Packed values are
+/// unpacked (`scale_factor`, `add_offset`), `_FillValue` / `missing_value` are nodata, Kelvin
+/// becomes °C; 0–360 longitudes and descending latitudes come through GDAL's north-up view.
+pub(crate) fn read_netcdf(
+    path: &Path,
+    variable: Option<&str>,
+    year: i32,
+    window: u32,
+) -> Result<Raster, LayerError> {
+    let spec = |message: String| LayerError::Spec {
+        path: path.to_path_buf(),
+        message,
+    };
+    let Some(var) = variable else {
+        let ds = open(path, &path.to_string_lossy())?;
+        let names: Vec<String> = ds
+            .metadata_domain("SUBDATASETS")
+            .unwrap_or_default()
+            .iter()
+            .filter(|l| l.contains("_NAME="))
+            .filter_map(|l| l.rsplit(':').next().map(str::to_string))
+            .collect();
+        return Err(spec(format!(
+            "name the NetCDF variable to read with `variable = \"…\"` (the file has: {})",
+            if names.is_empty() {
+                "one variable".to_string()
+            } else {
+                names.join(", ")
+            }
+        )));
+    };
+    let source = format!("NETCDF:\"{}\":{var}", path.display());
+    let ds = open(path, &source).map_err(|_| {
+        spec(format!(
+            "has no variable `{var}` GDAL can read as a lat/lon grid"
+        ))
+    })?;
+    let extra = ds.metadata_item("NETCDF_DIM_EXTRA", "").unwrap_or_default();
+    let dims: Vec<&str> = extra
+        .trim_matches(|c| c == '{' || c == '}')
+        .split(',')
+        .map(str::trim)
+        .filter(|d| !d.is_empty())
+        .collect();
+    let time = match dims.as_slice() {
+        [t] => *t,
+        [] => {
+            return Err(spec(format!(
+                "variable `{var}` has no time axis; a NetCDF layer needs one (CF time coordinate)"
+            )))
+        }
+        more => {
+            return Err(spec(format!(
+                "variable `{var}` has dimensions {more:?} besides lat/lon; driftplan reads one 2-D field per time step (select a depth level first, e.g. with `ncks -d`)"
+            )))
+        }
+    };
+    let units = ds
+        .metadata_item(&format!("{time}#units"), "")
+        .ok_or_else(|| {
+            spec(format!(
+                "time axis `{time}` has no `units` attribute (CF §4.4)"
+            ))
+        })?;
+    let calendar = super::cf_time::Calendar::parse(
+        ds.metadata_item(&format!("{time}#calendar"), "").as_deref(),
+    )
+    .map_err(|m| spec(format!("time axis `{time}`: {m}")))?;
+    let mut values = Vec::new();
+    for b in 1..=ds.raster_count() {
+        let band = ds
+            .rasterband(b)
+            .map_err(|e| spec(format!("band {b}: {e}")))?;
+        let v = band
+            .metadata_item(&format!("NETCDF_DIM_{time}"), "")
+            .and_then(|t| t.trim().parse::<f64>().ok())
+            .ok_or_else(|| spec(format!("time step {b} has no time value")))?;
+        values.push(v);
+    }
+    let years = super::cf_time::years(&values, &units, calendar)
+        .map_err(|m| spec(format!("time axis `{time}`: {m}")))?;
+    let half = window as i32 / 2;
+    let (first, last) = (year - half, year - half + window as i32 - 1);
+    let bands: Vec<usize> = years
+        .iter()
+        .enumerate()
+        .filter(|(_, y)| (first..=last).contains(*y))
+        .map(|(k, _)| k + 1)
+        .collect();
+    if bands.is_empty() {
+        let (lo, hi) = (years.iter().min(), years.iter().max());
+        return Err(spec(format!(
+            "variable `{var}` has no time steps in {} (its time axis covers {}–{})",
+            if window == 1 {
+                year.to_string()
+            } else {
+                format!("{first}–{last}")
+            },
+            lo.map(|y| y.to_string()).unwrap_or_default(),
+            hi.map(|y| y.to_string()).unwrap_or_default()
+        )));
+    }
+    let kelvin = ds
+        .metadata_item(&format!("{var}#units"), "")
+        .is_some_and(|u| is_kelvin(&u));
+    let mut r = read_mean(path, &source, &bands)?;
+    if kelvin {
+        for v in &mut r.values {
+            *v -= 273.15;
+        }
+    }
+    Ok(r)
+}
+
+/// The per-pixel mean of `bands` (1-based) of `source`, with nodata, scale and offset applied;
+/// a pixel that is nodata in any of the bands is nodata. A raster with no CRS is taken as
+/// WGS84 lon/lat (as NetCDF-CF files without a grid mapping are).
+fn read_mean(path: &Path, source: &str, bands: &[usize]) -> Result<Raster, LayerError> {
+    let band = bands[0];
+    let mut acc: Option<Raster> = None;
+    for &b in bands {
+        let r = read_band(path, source, b)?;
+        acc = Some(match acc {
+            None => r,
+            Some(mut a) => {
+                for (x, y) in a.values.iter_mut().zip(&r.values) {
+                    *x += y;
+                }
+                a
+            }
+        });
+    }
+    let mut r = acc.ok_or_else(|| LayerError::Spec {
+        path: path.to_path_buf(),
+        message: format!("band {band}: nothing to read"),
+    })?;
+    let n = bands.len() as f64;
+    if n > 1.0 {
+        for v in &mut r.values {
+            *v /= n;
+        }
+    }
+    Ok(r)
+}
+
+/// Band `band` (1-based) of `source` (a path or GDAL subdataset name) of the file `path`.
+fn read_band(path: &Path, source: &str, band: usize) -> Result<Raster, LayerError> {
+    let spec = |message: String| LayerError::Spec {
+        path: path.to_path_buf(),
+        message,
+    };
+    let ds = open(path, source)?;
     let count = ds.raster_count();
     if band == 0 || band > count {
         return Err(spec(format!(

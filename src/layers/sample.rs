@@ -531,16 +531,35 @@ fn raster_values(
     grid: &Grid,
     cache: &SourceCache,
 ) -> Result<Vec<Option<f64>>, LayerError> {
-    let b = band(spec)?;
-    let r: std::sync::Arc<Raster> =
+    let netcdf = vector::ext(&spec.path) == "nc";
+    let (b, what) = if netcdf {
+        (
+            0,
+            format!("variable {}", spec.field.as_deref().unwrap_or("?")),
+        )
+    } else {
+        let b = band(spec)?;
+        (b, format!("band {b}"))
+    };
+    let r: std::sync::Arc<Raster> = if netcdf {
+        let year = spec.year.ok_or_else(|| LayerError::Spec {
+            path: spec.path.clone(),
+            message: "a NetCDF layer is read for a year of the plan; use it where the plan has years (temperature, habitat)".into(),
+        })?;
+        let kind = format!("netcdf|{:?}|{year}|{}", spec.field, spec.years_window);
+        cache.get_or_load(&spec.path, &kind, || {
+            raster::read_netcdf(&spec.path, spec.field.as_deref(), year, spec.years_window)
+        })?
+    } else {
         cache.get_or_load(&spec.path, &format!("raster|{b}"), || {
             raster::read(&spec.path, b)
-        })?;
+        })?
+    };
     for (k, v) in r.values.iter().enumerate() {
         if v.is_finite() {
             check_range(
                 spec,
-                || format!("band {b}, pixel (col {}, row {})", k % r.nx, k / r.nx),
+                || format!("{what}, pixel (col {}, row {})", k % r.nx, k / r.nx),
                 *v,
             )?;
         }
@@ -663,7 +682,7 @@ fn raster_values(
         layer: name.to_string(),
         path: spec.path.display().to_string(),
         method: format!(
-            "raster band {b}, {rule} ({} × {} pixels of {:.3} km², {present} of {positions} with data)",
+            "raster {what}, {rule} ({} × {} pixels of {:.3} km², {present} of {positions} with data)",
             r.nx,
             r.ny,
             pixel_m2 / 1e6

@@ -138,7 +138,14 @@ fn read_ogr(path: &Path, layer: Option<&str>) -> Result<GeoFile, LayerError> {
 
 /// A file's CRS as a definition for [`crate::grid::Projector`]: `AUTH:CODE` when it has one,
 /// else its WKT; `None` for WGS84 lon/lat (EPSG:4326, CRS84), which needs no transform.
+///
+/// Any geographic CRS counts as lon/lat: datum shifts between WGS84 and e.g. ETRS89 or a
+/// climate model's sphere are metres, far below a planning cell, and lon/lat files keep
+/// their 0–360 longitudes working.
 pub(crate) fn srs_definition(srs: &gdal::spatial_ref::SpatialRef) -> Option<String> {
+    if srs.is_geographic() {
+        return None;
+    }
     let auth = match (srs.auth_name(), srs.auth_code()) {
         (Some(name), Ok(code)) => Some(format!("{name}:{code}")),
         _ => None,
