@@ -1,6 +1,7 @@
 //! `driftplan sweep`: one solve per budget, the cost–benefit curve.
 
-use super::{load, solve_options, stress, Progress, SolverArgs};
+use super::{load_with, solve_options, stress, Progress, SolverArgs};
+use driftplan::solve::time;
 use anyhow::Result;
 use driftplan::{export, pipeline};
 use std::path::{Path, PathBuf};
@@ -33,7 +34,7 @@ fn sweep(
 ) -> Result<()> {
     let shares =
         driftplan::study::parse_budgets(budgets).map_err(|e| anyhow::anyhow!("--budgets: {e}"))?;
-    let plan = load(plan_path)?;
+    let plan = load_with(plan_path, solver)?;
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
@@ -44,16 +45,21 @@ fn sweep(
         100.0 * shares[shares.len() - 1]
     ));
     let bar = progress.bar(shares.len() as u64, "budgets");
+    // One time limit for every solve of the command (solve::time): the budgets' share, in
+    // rounds of parallel solves, up to two solves per budget; the stress test the rest.
+    let clock = driftplan::solve::time::TimeBudget::start(plan.solver.time_limit_s);
+    let stress_solves = problem.scenarios.len() * usize::from(problem.scenarios.len() > 1);
+    let rounds = 2 * time::parallel_rounds(shares.len(), time::workers());
     let sw = driftplan::study::sweep(
         &problem,
         &shares,
         inputs.grid.sea_area_km2,
-        &options,
+        &clock.options(&options, time::sweep_share(shares.len(), stress_solves), rounds),
         &|| bar.inc(1),
     )?;
     bar.finish_and_clear();
     // Scenario-specific designs at the plan's own budget, for the frequency layer.
-    let matrix = stress(&problem, &[], &options, false, progress)?;
+    let matrix = stress(&problem, &[], &clock.options(&options, 1.0, 1), false, progress)?;
     let n = inputs.grid.len();
     let freq = driftplan::study::frequency::SweepFrequency::new(n, &sw, matrix.as_ref());
     let f_all = &freq.all;

@@ -51,6 +51,9 @@ pub struct Summary {
     pub cells_selected: usize,
     /// Cells in the grid.
     pub cells: usize,
+    /// Plain warnings about the run (e.g. a gap above 5 %: the network may be far from the
+    /// best one); empty when there is nothing to warn about.
+    pub warnings: Vec<String>,
     /// What these results are and are not.
     pub caution: String,
     /// Per scenario: benefit, best achievable benefit, regret and targets met.
@@ -90,6 +93,7 @@ impl Summary {
             targets_total: assessment.coverage.len(),
             cells_selected: assessment.cells_selected,
             cells: grid_cells,
+            warnings: crate::solve::warnings(solution),
             caution: CAUTION.to_string(),
             scenarios: solution.scenarios.clone(),
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
@@ -173,6 +177,8 @@ mod tests {
         assert_eq!(v["scenarios"][0]["regret"], 0.5);
         assert_eq!(v["status"], "heuristic");
         assert_eq!(v["cells"], 2);
+        // A heuristic proves no bound: no gap warning (its status already says so).
+        assert_eq!(v["warnings"], serde_json::json!([]));
         assert!(v["caution"]
             .as_str()
             .unwrap()
