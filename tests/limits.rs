@@ -103,7 +103,10 @@ fn check_names_the_budget_key_the_required_cells_break() {
     let tmp = tempfile::tempdir().unwrap();
     let d = tmp.path();
     for (budget, key) in [
-        ("max_cost = 1", "`budget.max_cost` = 1 is below the cost of the required cells"),
+        (
+            "max_cost = 1",
+            "`budget.max_cost` = 1 is below the cost of the required cells",
+        ),
         ("max_share = 0.0001", "`budget.max_share` = 0.0001"),
     ] {
         let plan = common::plan_with(d, budget, "objective = \"min-cost\"");
@@ -156,7 +159,10 @@ fn an_over_tight_budget_writes_a_diagnosis_and_exits_3() {
     );
     assert!(err.contains(&expect), "{err}\nexpected: {expect}");
     // No more than ten shortfalls are listed; the rest are counted.
-    let listed = err.lines().filter(|l| l.starts_with("  ") && l.contains('%')).count();
+    let listed = err
+        .lines()
+        .filter(|l| l.starts_with("  ") && l.contains('%'))
+        .count();
     assert!(listed <= 10, "{err}");
     let rows: Vec<csv::StringRecord> = csv::Reader::from_path(out.join("diagnosis.csv"))
         .unwrap()
@@ -168,11 +174,15 @@ fn an_over_tight_budget_writes_a_diagnosis_and_exits_3() {
     let num = |r: &csv::StringRecord, i: usize| r[i].parse::<f64>().unwrap();
     let mut short = 0;
     for r in &rows {
-        let (total, target, best, share, gap) = (num(r, 1), num(r, 2), num(r, 3), num(r, 4), num(r, 6));
+        let (total, target, best, share, gap) =
+            (num(r, 1), num(r, 2), num(r, 3), num(r, 4), num(r, 6));
         assert!(best <= total + 1e-9 && best >= 0.0, "{r:?}");
         assert!((share - best / total).abs() < 1e-6, "{r:?}");
         // shortfall = max(target − best, 0) (its definition).
-        assert!((gap - (target - best).max(0.0)).abs() < 1e-6 * target.max(1.0), "{r:?}");
+        assert!(
+            (gap - (target - best).max(0.0)).abs() < 1e-6 * target.max(1.0),
+            "{r:?}"
+        );
         short += (gap > 0.0) as usize;
     }
     assert!(short > 0);
@@ -199,16 +209,27 @@ fn least_regret_regret_is_never_negative() {
         0.2,
     );
     let out = d.join("out");
-    ok(driftplan(&[os("solve"), plan.as_os_str(), os("--out"), out.as_os_str()]));
+    ok(driftplan(&[
+        os("solve"),
+        plan.as_os_str(),
+        os("--out"),
+        out.as_os_str(),
+    ]));
     let s = read_json(&out.join("summary.json"));
     assert!(s["objective"].as_f64().unwrap() >= 0.0);
     for x in s["scenarios"].as_array().unwrap() {
         let regret = x["regret"].as_f64().unwrap();
         assert!(regret >= 0.0, "{x}");
-        assert!(x["best"].as_f64().unwrap() >= x["benefit"].as_f64().unwrap(), "{x}");
+        assert!(
+            x["best"].as_f64().unwrap() >= x["benefit"].as_f64().unwrap(),
+            "{x}"
+        );
     }
     let mut seen = 0;
-    for r in csv::Reader::from_path(out.join("stress.csv")).unwrap().records() {
+    for r in csv::Reader::from_path(out.join("stress.csv"))
+        .unwrap()
+        .records()
+    {
         let r = r.unwrap();
         if let Ok(regret) = r[7].parse::<f64>() {
             assert!(regret >= 0.0, "{r:?}");
@@ -217,4 +238,147 @@ fn least_regret_regret_is_never_negative() {
     }
     // Every network (3 scenario designs + the robust one) in every scenario has a regret.
     assert_eq!(seen, 12);
+}
+
+/// A tiny invented plan: a 0.36° × 0.2° box near 40°S on a 10 km grid (12 cells), two species
+/// and a cost from one CSV lattice, targets 50 %, a cost budget of `max_cost`, solved exactly.
+fn tiny_plan(dir: &Path, max_cost: f64) -> PathBuf {
+    std::fs::create_dir_all(dir.join("data")).unwrap();
+    std::fs::write(
+        dir.join("data/region.geojson"),
+        r#"{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[150.0,-40.2],[150.36,-40.2],[150.36,-40.0],[150.0,-40.0],[150.0,-40.2]]]}}]}"#,
+    )
+    .unwrap();
+    let mut csv = String::from("lon,lat,kelp,sponge,cost\n");
+    for i in -2i32..12 {
+        for j in -2i32..10 {
+            csv.push_str(&format!(
+                "{:.3},{:.3},{},{},{}\n",
+                150.0 + 0.04 * i as f64,
+                -40.2 + 0.03 * j as f64,
+                ((i * 7 + j * 3).rem_euclid(5)) as f64 / 4.0,
+                ((i * 2 + j * 5).rem_euclid(3)) as f64 / 2.0,
+                1 + (i * 3 + j * 5).rem_euclid(7)
+            ));
+        }
+    }
+    std::fs::write(dir.join("data/layers.csv"), csv).unwrap();
+    let plan = dir.join("tiny.toml");
+    std::fs::write(
+        &plan,
+        format!(
+            r#"name = "tiny"
+region = "data/region.geojson"
+[grid]
+cell_size_km = 10
+crs = "auto"
+[scenarios]
+names = ["now"]
+years = [2030]
+[targets]
+default = 0.5
+[cost]
+path = "data/layers.csv"
+column = "cost"
+[budget]
+max_cost = {max_cost}
+[optimise]
+objective = "min-cost"
+robustness = "every-scenario"
+[solver]
+gap = 0
+[[species]]
+name = "kelp"
+habitat = {{ path = "data/layers.csv", column = "kelp" }}
+[[species]]
+name = "sponge"
+habitat = {{ path = "data/layers.csv", column = "sponge" }}
+"#
+        ),
+    )
+    .unwrap();
+    plan
+}
+
+#[test]
+fn diagnosis_rows_equal_brute_force_on_a_tiny_plan() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    // Per-cell cost and amounts as driftplan samples them (`features` writes cells.csv).
+    let plan = tiny_plan(d, 1.0);
+    ok(driftplan(&[
+        os("features"),
+        plan.as_os_str(),
+        os("--out"),
+        d.join("f").as_os_str(),
+    ]));
+    let mut rdr = csv::Reader::from_path(d.join("f/cells.csv")).unwrap();
+    let head = rdr.headers().unwrap().clone();
+    let col = |name: &str| head.iter().position(|h| h == name).unwrap();
+    let c_cost = col("cost");
+    let c_feat = [
+        col("habitat_kelp_now_2030_km2"),
+        col("habitat_sponge_now_2030_km2"),
+    ];
+    let cells: Vec<csv::StringRecord> = rdr.records().map(|r| r.unwrap()).collect();
+    let n = cells.len();
+    assert!((6..=16).contains(&n), "{n} cells");
+    let v = |r: &csv::StringRecord, c: usize| r[c].parse::<f64>().unwrap();
+    let cost: Vec<f64> = cells.iter().map(|r| v(r, c_cost)).collect();
+    let amount: Vec<Vec<f64>> = c_feat
+        .iter()
+        .map(|&c| cells.iter().map(|r| v(r, c)).collect())
+        .collect();
+    // A budget of a quarter of the region's cost cannot buy half of both species here.
+    let budget = (0.25 * cost.iter().sum::<f64>()).round();
+    let plan = tiny_plan(d, budget);
+    let out = d.join("out");
+    let run = driftplan(&[os("solve"), plan.as_os_str(), os("--out"), out.as_os_str()]);
+    let err = text(&run.stderr);
+    assert_eq!(run.status.code(), Some(3), "{err}");
+    let rows: Vec<csv::StringRecord> = csv::Reader::from_path(out.join("diagnosis.csv"))
+        .unwrap()
+        .records()
+        .map(|r| r.unwrap())
+        .collect();
+    assert_eq!(rows.len(), 2);
+    // Brute force over all 2ⁿ networks (independent of the solvers).
+    let held = |k: usize, mask: u32| -> f64 {
+        (0..n)
+            .filter(|i| mask & (1 << i) != 0)
+            .map(|i| amount[k][i])
+            .sum()
+    };
+    let spent = |mask: u32| -> f64 {
+        (0..n)
+            .filter(|i| mask & (1 << i) != 0)
+            .map(|i| cost[i])
+            .sum()
+    };
+    let targets: Vec<f64> = rows.iter().map(|r| r[2].parse().unwrap()).collect();
+    for (k, r) in rows.iter().enumerate() {
+        let total: f64 = amount[k].iter().sum();
+        let best = (0u32..1 << n)
+            .filter(|&m| spent(m) <= budget)
+            .map(|m| held(k, m))
+            .fold(0.0, f64::max);
+        let got: f64 = r[3].parse().unwrap();
+        assert!(
+            (got - best).abs() <= 1e-6 * best.max(1.0),
+            "{r:?}: brute force {best}"
+        );
+        let share: f64 = r[4].parse().unwrap();
+        assert!((share - best / total).abs() < 1e-6, "{r:?}");
+        assert!((targets[k] - 0.5 * total).abs() < 1e-6 * total, "{r:?}");
+    }
+    // The cheapest network meeting both targets without the budget, by brute force.
+    let cheapest = (0u32..1 << n)
+        .filter(|&m| (0..2).all(|k| held(k, m) >= targets[k] * (1.0 - 1e-9)))
+        .map(spent)
+        .fold(f64::INFINITY, f64::min);
+    assert!(cheapest > budget);
+    assert!(
+        err.contains(&format!("meets every target costs {cheapest:.1} (")),
+        "{err}\nbrute force: {cheapest}"
+    );
 }

@@ -70,9 +70,13 @@ pub(crate) fn solve(
     };
     let solution = match pipeline::optimise(&problem, &main) {
         Ok(s) => s,
-        Err(RunError::Solve(e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)))) => {
+        Err(RunError::Solve(
+            e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
+        )) => {
             spinner.finish_and_clear();
-            return Err(cannot_be_met(&plan, &problem, &clock, &options, &e, out, progress)?);
+            return Err(cannot_be_met(
+                &plan, &problem, &clock, &options, &e, out, progress,
+            )?);
         }
         Err(e) => return Err(e.into()),
     };
@@ -140,7 +144,9 @@ fn cannot_be_met(
     let d = diagnose_budget(problem, &clock.options(options, 1.0, 1))?;
     export::write_outputs(out, &[("diagnosis.csv", diagnosis_csv(&d))])?;
     let keys: Vec<String> = [
-        plan.budget.max_cost.map(|c| format!("`budget.max_cost` = {c}")),
+        plan.budget
+            .max_cost
+            .map(|c| format!("`budget.max_cost` = {c}")),
         plan.budget
             .max_share
             .map(|s| format!("`budget.max_share` = {s}")),

@@ -1,8 +1,8 @@
 //! `driftplan sweep`: one solve per budget, the cost–benefit curve.
 
 use super::{load_with, solve_options, stress, Progress, SolverArgs};
-use driftplan::solve::time;
 use anyhow::Result;
+use driftplan::solve::time;
 use driftplan::{export, pipeline};
 use std::path::{Path, PathBuf};
 
@@ -54,12 +54,22 @@ fn sweep(
         &problem,
         &shares,
         inputs.grid.sea_area_km2,
-        &clock.options(&options, time::sweep_share(shares.len(), stress_solves), rounds),
+        &clock.options(
+            &options,
+            time::sweep_share(shares.len(), stress_solves),
+            rounds,
+        ),
         &|| bar.inc(1),
     )?;
     bar.finish_and_clear();
     // Scenario-specific designs at the plan's own budget, for the frequency layer.
-    let matrix = stress(&problem, &[], &clock.options(&options, 1.0, 1), false, progress)?;
+    let matrix = stress(
+        &problem,
+        &[],
+        &clock.options(&options, 1.0, 1),
+        false,
+        progress,
+    )?;
     let n = inputs.grid.len();
     let freq = driftplan::study::frequency::SweepFrequency::new(n, &sw, matrix.as_ref());
     let f_all = &freq.all;

@@ -183,10 +183,7 @@ impl Diagnosis {
     pub fn worst(&self) -> Vec<&DiagnosisRow> {
         let mut short: Vec<&DiagnosisRow> =
             self.rows.iter().filter(|r| r.shortfall() > 0.0).collect();
-        short.sort_by(|a, b| {
-            (b.shortfall() / b.target)
-                .total_cmp(&(a.shortfall() / a.target))
-        });
+        short.sort_by(|a, b| (b.shortfall() / b.target).total_cmp(&(a.shortfall() / a.target)));
         short
     }
 }
@@ -195,10 +192,7 @@ impl Diagnosis {
 /// feature alone, cap = its total) and the cheapest network meeting every target (a min-cost
 /// solve of `problem` without its budget). Half of `options`' time limit goes to the feature
 /// solves, in equal parts, the rest to the cheapest network (see [`super::time`]).
-pub fn diagnose_budget(
-    problem: &Problem,
-    options: &SolveOptions,
-) -> Result<Diagnosis, SolveError> {
+pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diagnosis, SolveError> {
     problem.validate()?;
     let with_target: Vec<usize> = (0..problem.features.len())
         .filter(|&k| problem.features[k].target > 0.0)
@@ -285,7 +279,8 @@ pub fn diagnose_budget(
 /// `diagnosis.csv`: one row per feature with a target — total, target, the best amount and
 /// share reachable within the budget, whether that best is proven, and the shortfall.
 pub fn diagnosis_csv(d: &Diagnosis) -> String {
-    let mut s = String::from("feature,total,target,best_within_budget,best_share,proven,shortfall\n");
+    let mut s =
+        String::from("feature,total,target,best_within_budget,best_share,proven,shortfall\n");
     for r in &d.rows {
         let name = if r.feature.contains([',', '"', '\n']) {
             format!("\"{}\"", r.feature.replace('"', "\"\""))
@@ -352,7 +347,10 @@ pub fn diagnosis_text(d: &Diagnosis, limit: usize) -> String {
                  region){}\n",
                 100.0 * share,
                 if gap.is_finite() && *gap > 1e-9 {
-                    format!(", within {} of the least cost", super::progress::gap_percent(*gap))
+                    format!(
+                        ", within {} of the least cost",
+                        super::progress::gap_percent(*gap)
+                    )
                 } else {
                     String::new()
                 }

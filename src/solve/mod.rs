@@ -179,7 +179,9 @@ pub fn with_scenario_best(
         // Each Bₛ* solve gets one equal part of the time, the robust solve the rest
         // (solve::time); only the robust solve reports live progress.
         let sub = SolveOptions {
-            time_limit_s: options.time_limit_s.map(|t| time::share_limit(t, 1.0, n + 1)),
+            time_limit_s: options
+                .time_limit_s
+                .map(|t| time::share_limit(t, 1.0, n + 1)),
             progress: None,
             ..options.clone()
         };
@@ -269,7 +271,10 @@ mod tests {
         assert!(warnings(&solution(SolveStatus::GapLimit, 0.05)).is_empty());
         let w = warnings(&solution(SolveStatus::TimeLimit, 0.081));
         assert_eq!(w.len(), 1);
-        assert!(w[0].contains("8.10%") && w[0].contains("time limit"), "{w:?}");
+        assert!(
+            w[0].contains("8.10%") && w[0].contains("time limit"),
+            "{w:?}"
+        );
         let w = warnings(&solution(SolveStatus::TimeLimit, f64::INFINITY));
         assert!(w[0].contains("before proving any bound"), "{w:?}");
         assert!(warnings(&solution(SolveStatus::Heuristic, f64::NAN)).is_empty());
