@@ -382,3 +382,41 @@ fn diagnosis_rows_equal_brute_force_on_a_tiny_plan() {
         "{err}\nbrute force: {cheapest}"
     );
 }
+
+#[test]
+fn the_time_limit_is_shared_by_the_main_solve_and_the_stress_test() {
+    // solve::time (and README): with a stress test to follow, the main solve may use half of
+    // the limit; the 3 stress solves share what is left in ⌈3 / workers⌉ rounds — 3 rounds on
+    // one worker. Hand computation for --time-limit 40: main 20 s; stress at most 40/3 = 13.3 s
+    // each, and at least (40 − 10)/3 = 10 s since the coarse demo solves in far less than 10 s.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(d, "max_share = 0.5", "objective = \"min-cost\"");
+    let out = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .env("RAYON_NUM_THREADS", "1")
+        .args([
+            os("solve"),
+            plan.as_os_str(),
+            os("--time-limit"),
+            os("40"),
+            os("--out"),
+        ])
+        .arg(d.join("out"))
+        .output()
+        .unwrap();
+    let err = text(&out.stderr);
+    assert!(out.status.success(), "{err}");
+    assert!(
+        err.contains(
+            "time limit 40 s for all solves; this solve at most 20 s, the stress test the rest"
+        ),
+        "{err}"
+    );
+    let each: f64 = err
+        .split("scenarios alone (at most ")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse().ok())
+        .unwrap_or_else(|| panic!("no stress limit in:\n{err}"));
+    assert!((10.0..=13.34).contains(&each), "{each} s each\n{err}");
+}

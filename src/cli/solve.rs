@@ -55,18 +55,25 @@ pub(crate) fn solve(
     } else {
         problem.scenarios.len()
     };
-    progress.say(&format!(
-        "optimising with HiGHS: {} cells, {} feature targets; {}",
-        problem.n_cells(),
-        problem.features.len(),
-        plan.solver.describe()
-    ));
     // One time limit for every solve of the command (solve::time).
     let clock = TimeBudget::start(plan.solver.time_limit_s);
+    let main = clock.options(&options, time::main_solve_share(stress_solves), 1);
+    progress.say(&format!(
+        "optimising with HiGHS: {} cells, {} feature targets; {}; this solve at most {:.0} s{}",
+        problem.n_cells(),
+        problem.features.len(),
+        plan.solver.describe(),
+        main.time_limit_s.unwrap_or(f64::INFINITY),
+        if stress_solves > 0 {
+            ", the stress test the rest"
+        } else {
+            ""
+        }
+    ));
     let spinner = progress.spinner("solving: building the integer program");
     let main = SolveOptions {
         progress: Some(progress.solver_sink(&spinner)),
-        ..clock.options(&options, time::main_solve_share(stress_solves), 1)
+        ..main
     };
     let solution = match pipeline::optimise(&problem, &main) {
         Ok(s) => s,

@@ -133,15 +133,20 @@ fn sweep(
     );
     for r in &sw.runs {
         println!(
-            "{:>7.1}% {:>10.1} {:>12.4} {:>4}/{:<4}  {:<10} {:.3}%",
+            "{:>7.1}% {:>10.1} {:>12.4} {:>4}/{:<4}  {:<10} {}",
             100.0 * r.share,
             r.cost,
             r.solution.objective,
             r.targets_met,
             r.met.len(),
             r.solution.status.as_str(),
-            100.0 * r.solution.gap
+            driftplan::solve::progress::gap_percent(r.solution.gap)
         );
+    }
+    for r in &sw.runs {
+        for w in driftplan::solve::warnings(&r.solution) {
+            println!("warning: budget {:.1}%: {w}", 100.0 * r.share);
+        }
     }
     println!(
         "robust core: {} cells chosen in all {} networks (the report maps it); outputs {}",

@@ -183,6 +183,18 @@ mod tests {
             .as_str()
             .unwrap()
             .starts_with("Decision support only"));
+        // An exact solve that ends above a 5 % gap carries a plain warning (solve::warnings).
+        let loose = Solution {
+            status: SolveStatus::TimeLimit,
+            solver: "highs".into(),
+            bound: 6.44,
+            gap: 0.08,
+            ..sol.clone()
+        };
+        let v: serde_json::Value =
+            serde_json::from_str(&summary_json(&Summary::new("demo", "x", &loose, &a, 2))).unwrap();
+        let w = v["warnings"][0].as_str().unwrap();
+        assert!(w.contains("8.00%") && w.contains("time limit"), "{w}");
         // Key order follows the struct: `plan` first, `driftplan_version` last.
         let first = text.find("\"plan\"").unwrap();
         let last = text.find("\"driftplan_version\"").unwrap();
