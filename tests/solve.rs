@@ -900,3 +900,41 @@ fn least_regret_never_reports_negative_regret() {
     }
     assert!(solved >= 4, "only {solved} instances solved");
 }
+
+#[test]
+fn highs_reports_live_progress_through_the_sink() {
+    use driftplan::solve::progress::{ProgressSink, SolveProgress};
+    use std::sync::{Arc, Mutex};
+    // A 225-cell min-cost problem with an edge penalty: HiGHS branches, so it checks its
+    // limits (and calls the progress callback) at least once; the 2 s limit only keeps the
+    // test short (it usually stops there). No timing is asserted.
+    let p = medium(3, 15, 15, 20, 1.0);
+    let seen: Arc<Mutex<Vec<SolveProgress>>> = Arc::default();
+    let sink_seen = seen.clone();
+    let o = SolveOptions {
+        time_limit_s: Some(2.0),
+        progress: Some(ProgressSink::new(move |s| {
+            sink_seen.lock().unwrap().push(*s)
+        })),
+        ..opts()
+    };
+    let s = Highs::default().solve(&p, &o).unwrap();
+    let seen = seen.lock().unwrap();
+    assert!(!seen.is_empty(), "no progress reported");
+    for snap in seen.iter() {
+        assert!(snap.elapsed_s >= 0.0);
+        assert!(!snap.describe().contains("inf"), "{}", snap.describe());
+        // Minimisation: every proven bound is at most every network found, and at most the
+        // final objective (weak duality; 1e-6 relative for HiGHS's tolerances).
+        if snap.bound.is_finite() {
+            assert!(
+                snap.bound <= s.objective * (1.0 + 1e-6),
+                "{snap:?} vs {}",
+                s.objective
+            );
+        }
+        if snap.bound.is_finite() && snap.objective.is_finite() {
+            assert!(snap.bound <= snap.objective * (1.0 + 1e-6), "{snap:?}");
+        }
+    }
+}

@@ -70,7 +70,13 @@ pub(crate) fn solve(
             ""
         }
     ));
-    let spinner = progress.spinner("solving: building the integer program");
+    let least_regret = driftplan::model::robust::effective_robustness(&problem)
+        == driftplan::model::Robustness::LeastRegret;
+    let spinner = progress.spinner(if least_regret {
+        "solving: each scenario alone first (its best benefit), then the robust network"
+    } else {
+        "solving: building the integer program"
+    });
     let main = SolveOptions {
         progress: Some(progress.solver_sink(&spinner)),
         ..main
