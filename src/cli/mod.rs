@@ -27,6 +27,9 @@ mod sweep;
 /// Results are decision support built on projections with large uncertainty; siting
 /// decisions rest with the planning authority, local law and consultation with those who use
 /// the sea.
+///
+/// Exit codes: 0 success; 1 a bad plan, bad input or a failure; 2 a bad command line; 3 the
+/// plan is valid but its targets cannot all be met (see diagnosis.csv).
 #[derive(Parser, Debug)]
 #[command(name = "driftplan", version, about, long_about)]
 pub struct Args {
@@ -61,7 +64,9 @@ enum Command {
     ///
     /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
     /// stress.csv (each scenario solved alone and the network scored in every scenario) and
-    /// report.html.
+    /// report.html. When the targets cannot all be met it writes only diagnosis.csv (per
+    /// feature the best the budget allows), says what the cheapest network meeting every target
+    /// costs, and exits with code 3.
     Solve(solve::Args),
     /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
     ///
@@ -98,10 +103,12 @@ pub fn run(args: Args) -> Result<()> {
 /// Solver settings that override the plan's `[solver]` table.
 #[derive(clap::Args, Debug, Clone, Default)]
 pub(crate) struct SolverArgs {
-    /// Stop after this many seconds and return the best network found (overrides the plan).
+    /// Seconds for all the solves of the command together (main solve, stress or sweep
+    /// solves); the best networks found by then are returned. Overrides the plan; default 300.
     #[arg(long, value_name = "SECONDS")]
     time_limit: Option<f64>,
-    /// Stop when the proven relative gap is at most this, e.g. 0.01 for 1% (overrides the plan).
+    /// Stop when the proven relative gap is at most this, e.g. 0.01 for 1% (overrides the plan;
+    /// default 0.005).
     #[arg(long, value_name = "SHARE")]
     gap: Option<f64>,
     /// Solver threads (overrides the plan).
