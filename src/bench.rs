@@ -314,6 +314,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
         threads: None,
         verbose: false,
         seed: 1,
+        progress: None,
     };
     let solution = if spec.exact {
         Some(timed(&mut figures, "solve", || {

@@ -10,8 +10,33 @@ fn main() {
         Ok(()) => {}
         Err(e) => {
             eprintln!("error: {}", message(&e));
-            std::process::exit(1);
+            std::process::exit(exit_code(&e));
         }
+    }
+}
+
+/// 3 when the plan's targets cannot all be met (README, "Exit codes"), else 1 (a bad plan or
+/// input, or a failure); clap exits with 2 on a bad command line before this.
+fn exit_code(e: &anyhow::Error) -> i32 {
+    use driftplan::pipeline::RunError;
+    use driftplan::solve::SolveError;
+    let cannot = e.chain().any(|c| {
+        c.downcast_ref::<cli::CannotBeMet>().is_some()
+            || matches!(
+                c.downcast_ref::<RunError>(),
+                Some(RunError::Solve(
+                    SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)
+                ))
+            )
+            || matches!(
+                c.downcast_ref::<SolveError>(),
+                Some(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))
+            )
+    });
+    if cannot {
+        cli::EXIT_CANNOT_BE_MET
+    } else {
+        1
     }
 }
 

@@ -49,6 +49,14 @@ pub enum RunError {
     /// The optimiser failed or the targets cannot be met.
     #[error(transparent)]
     Solve(#[from] SolveError),
+    /// The required cells alone break a budget limit of the plan.
+    #[error("{}: {}", .file.display(), .problems.join("; "))]
+    RequiredOverBudget {
+        /// The plan file.
+        file: std::path::PathBuf,
+        /// One sentence per broken limit, naming its key.
+        problems: Vec<String>,
+    },
 }
 
 /// Everything the optimiser and the outputs need, derived from a plan.
@@ -309,6 +317,58 @@ pub fn input_notes(inputs: &Inputs) -> Vec<String> {
     notes
 }
 
+/// Fails when the required cells alone cost more than `budget.max_cost` or cover more than
+/// `budget.max_share` of the region's sea: no network can then meet the plan, and saying so
+/// with the key is better than an infeasible solve later.
+pub fn check_budget(plan: &Plan, inputs: &Inputs) -> Result<(), RunError> {
+    let required: Vec<usize> = (0..inputs.status.len())
+        .filter(|&i| inputs.status[i] == CellStatus::Required)
+        .collect();
+    let source = plan
+        .required
+        .as_ref()
+        .map(|r| format!("`{}`", r.layer.path))
+        .unwrap_or_default();
+    let cost: f64 = required.iter().map(|&i| inputs.cost[i]).sum();
+    let area: f64 = required
+        .iter()
+        .map(|&i| inputs.grid.cells[i].sea_area_km2)
+        .sum();
+    let share = area / inputs.grid.sea_area_km2;
+    let mut problems = Vec::new();
+    if let Some(max) = plan.budget.max_cost {
+        if !crate::model::evaluate::at_least(max, cost) {
+            problems.push(format!(
+                "`budget.max_cost` = {max} is below the cost of the required cells alone \
+                 ({cost:.1} for {} cells required by {source}); raise `budget.max_cost` to at \
+                 least {cost:.1} or require fewer cells",
+                required.len()
+            ));
+        }
+    }
+    if let Some(max) = plan.budget.max_share {
+        if !crate::model::evaluate::at_least(max, share) {
+            problems.push(format!(
+                "`budget.max_share` = {max} ({:.1}% of the region's sea) is below the share the \
+                 required cells alone cover ({:.1}%: {} cells required by {source}); raise \
+                 `budget.max_share` to at least {:.4} or require fewer cells",
+                100.0 * max,
+                100.0 * share,
+                required.len(),
+                share
+            ));
+        }
+    }
+    if problems.is_empty() {
+        Ok(())
+    } else {
+        Err(RunError::RequiredOverBudget {
+            file: plan.file.clone(),
+            problems,
+        })
+    }
+}
+
 /// The model's feature rows: each feature's amounts with its target as an absolute amount.
 pub fn model_features(table: &FeatureTable) -> Vec<ModelFeature> {
     table
@@ -400,14 +460,16 @@ pub fn edge_penalty(grid: &Grid, weight: f64, count_coast_edges: bool) -> EdgePe
     }
 }
 
-/// Solver options from the plan, with CLI overrides already applied by the caller.
+/// Solver options from the plan, with CLI overrides already applied by the caller. The time
+/// limit is the whole command's (see [`crate::solve::time`]).
 pub fn solve_options(plan: &Plan) -> SolveOptions {
     SolveOptions {
-        time_limit_s: plan.solver.time_limit_s,
+        time_limit_s: Some(plan.solver.time_limit_s),
         rel_gap: plan.solver.gap,
         threads: plan.solver.threads,
         verbose: false,
         seed: 1,
+        progress: None,
     }
 }
 
@@ -436,9 +498,20 @@ pub fn run_facts(
         f.push(("solver".into(), s.solver.clone()));
         f.push(("status".into(), s.status.as_str().into()));
         f.push(("objective".into(), format!("{:.4}", s.objective)));
-        f.push(("bound".into(), format!("{:.4}", s.bound)));
-        f.push(("gap".into(), format!("{:.3}%", 100.0 * s.gap)));
+        f.push((
+            "bound".into(),
+            if s.bound.is_finite() {
+                format!("{:.4}", s.bound)
+            } else {
+                "none proven".into()
+            },
+        ));
+        f.push(("gap".into(), crate::solve::progress::gap_percent(s.gap)));
         f.push(("solve time".into(), format!("{:.1} s", s.seconds)));
+        f.push(("solver settings".into(), plan.solver.describe()));
+        for w in crate::solve::warnings(s) {
+            f.push(("warning".into(), w));
+        }
     }
     f.push(("cost".into(), format!("{:.1}", a.cost)));
     f.push((

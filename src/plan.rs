@@ -155,15 +155,65 @@ pub struct BudgetPlan {
     pub max_share: Option<f64>,
 }
 
+/// Relative gap used when the plan states none: 0.5 %. Exact solves of large grids can spend
+/// many minutes proving the last fraction of a percent; within 0.5 % of the optimum is far
+/// below the uncertainty of the habitat projections (common practice, no source).
+pub const DEFAULT_GAP: f64 = 0.005;
+
+/// Time limit used when the plan states none: 300 s for all the solves of one command.
+pub const DEFAULT_TIME_LIMIT_S: f64 = 300.0;
+
 /// Solver controls.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SolverPlan {
-    /// Wall-clock limit. Units: s.
-    pub time_limit_s: Option<f64>,
+    /// Wall-clock limit for all the solves of one command (the main solve and the stress or
+    /// sweep solves share it, see [`crate::solve::time`]). Units: s.
+    pub time_limit_s: f64,
     /// Relative gap at which to stop.
     pub gap: f64,
     /// Solver threads.
     pub threads: Option<u32>,
+    /// Whether `time_limit_s` is [`DEFAULT_TIME_LIMIT_S`] because the plan states none.
+    pub time_limit_is_default: bool,
+    /// Whether `gap` is [`DEFAULT_GAP`] because the plan states none.
+    pub gap_is_default: bool,
+}
+
+impl Default for SolverPlan {
+    fn default() -> Self {
+        SolverPlan {
+            time_limit_s: DEFAULT_TIME_LIMIT_S,
+            gap: DEFAULT_GAP,
+            threads: None,
+            time_limit_is_default: true,
+            gap_is_default: true,
+        }
+    }
+}
+
+impl SolverPlan {
+    /// One line for the run header and `check`, e.g. `gap 0.5% (default), time limit 300 s
+    /// for all solves (default)`.
+    pub fn describe(&self) -> String {
+        let mark = |d: bool| if d { " (default)" } else { "" };
+        format!(
+            "gap {}%{}, time limit {} s for all solves{}{}",
+            trim_number(100.0 * self.gap),
+            mark(self.gap_is_default),
+            trim_number(self.time_limit_s),
+            mark(self.time_limit_is_default),
+            self.threads
+                .map(|t| format!(", {t} threads"))
+                .unwrap_or_default()
+        )
+    }
+}
+
+/// A number with at most three decimals and no trailing zeros (`0.5`, `300`, `0.125`).
+fn trim_number(x: f64) -> String {
+    let s = format!("{x:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    s.to_string()
 }
 
 /// Spatial rules of the optimisation (`[optimise]` keys beyond objective and robustness).
@@ -1050,11 +1100,7 @@ impl Plan {
         }
 
         let solver = match &raw.solver {
-            None => SolverPlan {
-                time_limit_s: None,
-                gap: 0.0,
-                threads: None,
-            },
+            None => SolverPlan::default(),
             Some(s) => {
                 ck.unknown("solver", &s.extra, &["time_limit_s", "gap", "threads"]);
                 if let Some(t) = s.time_limit_s {
@@ -1065,7 +1111,7 @@ impl Plan {
                         );
                     }
                 }
-                let gap = s.gap.unwrap_or(0.0);
+                let gap = s.gap.unwrap_or(DEFAULT_GAP);
                 if !(gap.is_finite() && (0.0..1.0).contains(&gap)) {
                     ck.push(
                         "solver.gap",
@@ -1076,9 +1122,11 @@ impl Plan {
                     ck.push("solver.threads", "must be at least 1");
                 }
                 SolverPlan {
-                    time_limit_s: s.time_limit_s,
+                    time_limit_s: s.time_limit_s.unwrap_or(DEFAULT_TIME_LIMIT_S),
                     gap,
                     threads: s.threads,
+                    time_limit_is_default: s.time_limit_s.is_none(),
+                    gap_is_default: s.gap.is_none(),
                 }
             }
         };

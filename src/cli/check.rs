@@ -17,6 +17,7 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     let plan = load(&args.plan)?;
     progress.say("plan file is valid; reading every input");
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    pipeline::check_budget(&plan, &inputs)?;
     let count = |status| inputs.status.iter().filter(|s| **s == status).count();
     println!(
         "{}: OK — {} cells, {} features ({} species × {} scenarios × {} years), {} required and {} excluded cells",
@@ -32,5 +33,6 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     for note in pipeline::input_notes(&inputs) {
         println!("  {note}");
     }
+    println!("  solver: HiGHS, {}", plan.solver.describe());
     Ok(())
 }

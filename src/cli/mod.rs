@@ -4,7 +4,9 @@
 use anyhow::Result;
 use clap::{Parser, Subcommand};
 use driftplan::pipeline::{self, Inputs};
-use driftplan::plan::Plan;
+use driftplan::plan::{Plan, SolverPlan};
+use driftplan::solve::progress::ProgressSink;
+use driftplan::solve::time;
 use std::io::IsTerminal;
 use std::path::Path;
 use std::time::Instant;
@@ -25,6 +27,9 @@ mod sweep;
 /// Results are decision support built on projections with large uncertainty; siting
 /// decisions rest with the planning authority, local law and consultation with those who use
 /// the sea.
+///
+/// Exit codes: 0 success; 1 a bad plan, bad input or a failure; 2 a bad command line; 3 the
+/// plan is valid but its targets cannot all be met (see diagnosis.csv).
 #[derive(Parser, Debug)]
 #[command(name = "driftplan", version, about, long_about)]
 pub struct Args {
@@ -59,7 +64,9 @@ enum Command {
     ///
     /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
     /// stress.csv (each scenario solved alone and the network scored in every scenario) and
-    /// report.html.
+    /// report.html. When the targets cannot all be met it writes only diagnosis.csv (per
+    /// feature the best the budget allows), says what the cheapest network meeting every target
+    /// costs, and exits with code 3.
     Solve(solve::Args),
     /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
     ///
@@ -96,10 +103,12 @@ pub fn run(args: Args) -> Result<()> {
 /// Solver settings that override the plan's `[solver]` table.
 #[derive(clap::Args, Debug, Clone, Default)]
 pub(crate) struct SolverArgs {
-    /// Stop after this many seconds and return the best network found (overrides the plan).
+    /// Seconds for all the solves of the command together (main solve, stress or sweep
+    /// solves); the best networks found by then are returned. Overrides the plan; default 300.
     #[arg(long, value_name = "SECONDS")]
     time_limit: Option<f64>,
-    /// Stop when the proven relative gap is at most this, e.g. 0.01 for 1% (overrides the plan).
+    /// Stop when the proven relative gap is at most this, e.g. 0.01 for 1% (overrides the plan;
+    /// default 0.005).
     #[arg(long, value_name = "SHARE")]
     gap: Option<f64>,
     /// Solver threads (overrides the plan).
@@ -148,6 +157,28 @@ impl Progress {
         s
     }
 
+    /// Where a solve's live progress goes: the spinner's message on a terminal, a plain line
+    /// every 30 s otherwise (logs), nothing with `--quiet`.
+    pub(crate) fn solver_sink(&self, spinner: &indicatif::ProgressBar) -> ProgressSink {
+        let bars = self.shows_bars();
+        let quiet = self.quiet;
+        let start = self.start;
+        let spinner = spinner.clone();
+        let last = std::sync::Mutex::new(0.0f64);
+        ProgressSink::new(move |p| {
+            if bars {
+                spinner.set_message(format!("solving: {}", p.describe()));
+            } else if !quiet {
+                let mut last = last.lock().unwrap_or_else(|e| e.into_inner());
+                if p.elapsed_s - *last >= 30.0 {
+                    *last = p.elapsed_s;
+                    let t = start.elapsed().as_secs_f64();
+                    eprintln!("[{t:6.1}s] solving: {}", p.describe());
+                }
+            }
+        })
+    }
+
     fn new(quiet: bool) -> Progress {
         Progress {
             quiet,
@@ -173,35 +204,72 @@ pub(crate) fn load(path: &Path) -> Result<Plan> {
     Ok(Plan::load(path)?)
 }
 
-/// Solver options from the plan with the command line's overrides.
-pub(crate) fn solve_options(
-    plan: &Plan,
-    solver: &SolverArgs,
-) -> Result<driftplan::solve::SolveOptions> {
-    let mut options = pipeline::solve_options(plan);
+/// Reads and validates a plan file, then applies the command line's solver overrides to its
+/// `[solver]` settings (so headers, `check` and the report show what is used).
+pub(crate) fn load_with(path: &Path, solver: &SolverArgs) -> Result<Plan> {
+    let mut plan = load(path)?;
+    plan.solver = solver_settings(&plan, solver)?;
+    Ok(plan)
+}
+
+/// The plan's `[solver]` settings with the command line's overrides.
+pub(crate) fn solver_settings(plan: &Plan, solver: &SolverArgs) -> Result<SolverPlan> {
+    let mut s = plan.solver.clone();
     if let Some(t) = solver.time_limit {
         anyhow::ensure!(
             t.is_finite() && t > 0.0,
             "--time-limit must be a positive number of seconds, got {t}"
         );
-        options.time_limit_s = Some(t);
+        s.time_limit_s = t;
+        s.time_limit_is_default = false;
     }
     if let Some(g) = solver.gap {
         anyhow::ensure!(
             g.is_finite() && (0.0..1.0).contains(&g),
             "--gap must be in [0, 1), e.g. 0.01 for 1%; got {g}"
         );
-        options.rel_gap = g;
+        s.gap = g;
+        s.gap_is_default = false;
     }
     if let Some(n) = solver.threads {
         anyhow::ensure!(n > 0, "--threads must be at least 1");
-        options.threads = Some(n);
+        s.threads = Some(n);
     }
+    Ok(s)
+}
+
+/// Solver options from the plan with the command line's overrides. The time limit is the
+/// whole command's; callers share it out with [`driftplan::solve::time::TimeBudget`].
+pub(crate) fn solve_options(
+    plan: &Plan,
+    solver: &SolverArgs,
+) -> Result<driftplan::solve::SolveOptions> {
+    let settings = solver_settings(plan, solver)?;
+    let mut options = pipeline::solve_options(plan);
+    options.time_limit_s = Some(settings.time_limit_s);
+    options.rel_gap = settings.gap;
+    options.threads = settings.threads;
     options.verbose = solver.solver_log;
     Ok(options)
 }
 
-/// The stress test with a progress bar (skipped with one scenario or when asked).
+/// A plan whose targets cannot all be met (exit code 3, distinct from a bad plan's 1).
+#[derive(Debug)]
+pub(crate) struct CannotBeMet(pub String);
+
+impl std::fmt::Display for CannotBeMet {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+impl std::error::Error for CannotBeMet {}
+
+/// Exit code for "the plan's targets cannot all be met".
+pub(crate) const EXIT_CANNOT_BE_MET: i32 = 3;
+
+/// The stress test with a progress bar (skipped with one scenario or when asked). The time
+/// limit in `options` is the whole test's.
 pub(crate) fn stress(
     problem: &driftplan::model::Problem,
     given: &[(String, Vec<bool>)],
@@ -212,12 +280,25 @@ pub(crate) fn stress(
     if skip || problem.scenarios.len() < 2 {
         return Ok(None);
     }
+    let n = problem.scenarios.len();
+    // `options`' time limit is the whole stress test's: its solves share it in rounds.
+    let rounds = time::parallel_rounds(n, time::workers());
+    let options = driftplan::solve::SolveOptions {
+        time_limit_s: options
+            .time_limit_s
+            .map(|t| time::share_limit(t, 1.0, rounds)),
+        progress: None,
+        ..options.clone()
+    };
     progress.say(&format!(
-        "stress test: solving each of {} scenarios alone",
-        problem.scenarios.len()
+        "stress test: solving each of {n} scenarios alone{}",
+        options
+            .time_limit_s
+            .map(|t| format!(" (at most {t:.0} s each)"))
+            .unwrap_or_default()
     ));
-    let bar = progress.bar(problem.scenarios.len() as u64, "scenario solves");
-    let m = driftplan::study::stress_test(problem, given, options, &|| bar.inc(1))?;
+    let bar = progress.bar(n as u64, "scenario solves");
+    let m = driftplan::study::stress_test(problem, given, &options, &|| bar.inc(1))?;
     bar.finish_and_clear();
     Ok(Some(m))
 }

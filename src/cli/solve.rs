@@ -1,11 +1,15 @@
 //! `driftplan solve`: the whole run, grid → features → optimise → assess → export.
 
-use super::{load, solve_options, stress, Progress, SolverArgs};
+use super::{load_with, solve_options, stress, CannotBeMet, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::export;
-use driftplan::pipeline::{self, Inputs};
+use driftplan::model::Problem;
+use driftplan::pipeline::{self, Inputs, RunError};
 use driftplan::plan::Plan;
-use driftplan::solve::Solution;
+use driftplan::solve::diagnose::{diagnose_budget, diagnosis_csv, diagnosis_text};
+use driftplan::solve::progress::gap_percent;
+use driftplan::solve::time::{self, TimeBudget};
+use driftplan::solve::{Solution, SolveError, SolveOptions};
 use std::path::{Path, PathBuf};
 
 /// Arguments of `driftplan solve`.
@@ -41,24 +45,57 @@ pub(crate) fn solve(
     no_stress: bool,
     progress: &Progress,
 ) -> Result<()> {
-    let plan = load(plan_path)?;
+    let plan = load_with(plan_path, solver)?;
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     for note in pipeline::input_notes(&inputs) {
         progress.say(&note);
     }
+    pipeline::check_budget(&plan, &inputs)?;
     let mut problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
+    let stress_solves = if no_stress || problem.scenarios.len() < 2 {
+        0
+    } else {
+        problem.scenarios.len()
+    };
+    // One time limit for every solve of the command (solve::time).
+    let clock = TimeBudget::start(plan.solver.time_limit_s);
+    let main = clock.options(&options, time::main_solve_share(stress_solves), 1);
     progress.say(&format!(
-        "optimising with HiGHS: {} cells, {} feature targets{}",
+        "optimising with HiGHS: {} cells, {} feature targets; {}; this solve at most {:.0} s{}",
         problem.n_cells(),
         problem.features.len(),
-        options
-            .time_limit_s
-            .map(|t| format!(", time limit {t} s"))
-            .unwrap_or_default()
+        plan.solver.describe(),
+        main.time_limit_s.unwrap_or(f64::INFINITY),
+        if stress_solves > 0 {
+            ", the stress test the rest"
+        } else {
+            ""
+        }
     ));
-    let spinner = progress.spinner("solving");
-    let solution = pipeline::optimise(&problem, &options)?;
+    let least_regret = driftplan::model::robust::effective_robustness(&problem)
+        == driftplan::model::Robustness::LeastRegret;
+    let spinner = progress.spinner(if least_regret {
+        "solving: each scenario alone first (its best benefit), then the robust network"
+    } else {
+        "solving: building the integer program"
+    });
+    let main = SolveOptions {
+        progress: Some(progress.solver_sink(&spinner)),
+        ..main
+    };
+    let solution = match pipeline::optimise(&problem, &main) {
+        Ok(s) => s,
+        Err(RunError::Solve(
+            e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
+        )) => {
+            spinner.finish_and_clear();
+            return Err(cannot_be_met(
+                &plan, &problem, &clock, &options, &e, out, progress,
+            )?);
+        }
+        Err(e) => return Err(e.into()),
+    };
     spinner.finish_and_clear();
     let assessment = pipeline::assess_network(&inputs, &solution.selected);
     problem.scenario_best = solution.scenario_best.clone();
@@ -70,7 +107,7 @@ pub(crate) fn solve(
     let matrix = stress(
         &problem,
         &[(label, solution.selected.clone())],
-        &options,
+        &clock.options(&options, 1.0, 1),
         no_stress,
         progress,
     )?;
@@ -103,6 +140,48 @@ pub(crate) fn solve(
         }
     }
     Ok(())
+}
+
+/// The "cannot be met" error for an infeasible plan, after writing `diagnosis.csv` (per
+/// feature: the best the budget allows) and finding the cheapest network meeting every target.
+fn cannot_be_met(
+    plan: &Plan,
+    problem: &Problem,
+    clock: &TimeBudget,
+    options: &SolveOptions,
+    error: &SolveError,
+    out: &Path,
+    progress: &Progress,
+) -> Result<anyhow::Error> {
+    if problem.objective != driftplan::model::Objective::MinCost {
+        return Ok(CannotBeMet(format!("the plan cannot be met: {error}")).into());
+    }
+    progress.say("the targets cannot all be met: finding the best each target can reach and the cheapest network that meets them all");
+    let d = diagnose_budget(problem, &clock.options(options, 1.0, 1))?;
+    export::write_outputs(out, &[("diagnosis.csv", diagnosis_csv(&d))])?;
+    let keys: Vec<String> = [
+        plan.budget
+            .max_cost
+            .map(|c| format!("`budget.max_cost` = {c}")),
+        plan.budget
+            .max_share
+            .map(|s| format!("`budget.max_share` = {s}")),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let within = if keys.is_empty() {
+        String::new()
+    } else {
+        format!(" within {}", keys.join(" and "))
+    };
+    Ok(CannotBeMet(format!(
+        "the targets of {} cannot all be met{within}:\n{}per-feature details in {}",
+        plan.file.display(),
+        diagnosis_text(&d, 10),
+        out.join("diagnosis.csv").display()
+    ))
+    .into())
 }
 
 fn write_solution(
@@ -172,14 +251,22 @@ fn print_summary(
         plan.scenarios.len(),
         plan.years.len()
     );
+    let bound = if solution.bound.is_finite() {
+        format!("bound {:.3}", solution.bound)
+    } else {
+        "no bound proven".to_string()
+    };
     println!(
-        "  solver      HiGHS, {} (objective {:.3}, bound {:.3}, gap {:.3}%) in {:.1} s",
+        "  solver      HiGHS, {} (objective {:.3}, {bound}, gap {}) in {:.1} s",
         solution.status.as_str(),
         solution.objective,
-        solution.bound,
-        100.0 * solution.gap,
+        gap_percent(solution.gap),
         solution.seconds
     );
+    println!("  settings    {}", plan.solver.describe());
+    for w in driftplan::solve::warnings(solution) {
+        println!("  warning     {w}");
+    }
     println!("  cost        {:.1}", a.cost);
     println!(
         "  area        {:.0} km² ({:.1}% of the region's sea)",

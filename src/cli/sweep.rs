@@ -1,7 +1,8 @@
 //! `driftplan sweep`: one solve per budget, the cost–benefit curve.
 
-use super::{load, solve_options, stress, Progress, SolverArgs};
+use super::{load_with, solve_options, stress, Progress, SolverArgs};
 use anyhow::Result;
+use driftplan::solve::time;
 use driftplan::{export, pipeline};
 use std::path::{Path, PathBuf};
 
@@ -33,7 +34,7 @@ fn sweep(
 ) -> Result<()> {
     let shares =
         driftplan::study::parse_budgets(budgets).map_err(|e| anyhow::anyhow!("--budgets: {e}"))?;
-    let plan = load(plan_path)?;
+    let plan = load_with(plan_path, solver)?;
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
@@ -44,16 +45,31 @@ fn sweep(
         100.0 * shares[shares.len() - 1]
     ));
     let bar = progress.bar(shares.len() as u64, "budgets");
+    // One time limit for every solve of the command (solve::time): the budgets' share, in
+    // rounds of parallel solves, up to two solves per budget; the stress test the rest.
+    let clock = driftplan::solve::time::TimeBudget::start(plan.solver.time_limit_s);
+    let stress_solves = problem.scenarios.len() * usize::from(problem.scenarios.len() > 1);
+    let rounds = 2 * time::parallel_rounds(shares.len(), time::workers());
     let sw = driftplan::study::sweep(
         &problem,
         &shares,
         inputs.grid.sea_area_km2,
-        &options,
+        &clock.options(
+            &options,
+            time::sweep_share(shares.len(), stress_solves),
+            rounds,
+        ),
         &|| bar.inc(1),
     )?;
     bar.finish_and_clear();
     // Scenario-specific designs at the plan's own budget, for the frequency layer.
-    let matrix = stress(&problem, &[], &options, false, progress)?;
+    let matrix = stress(
+        &problem,
+        &[],
+        &clock.options(&options, 1.0, 1),
+        false,
+        progress,
+    )?;
     let n = inputs.grid.len();
     let freq = driftplan::study::frequency::SweepFrequency::new(n, &sw, matrix.as_ref());
     let f_all = &freq.all;
@@ -117,15 +133,20 @@ fn sweep(
     );
     for r in &sw.runs {
         println!(
-            "{:>7.1}% {:>10.1} {:>12.4} {:>4}/{:<4}  {:<10} {:.3}%",
+            "{:>7.1}% {:>10.1} {:>12.4} {:>4}/{:<4}  {:<10} {}",
             100.0 * r.share,
             r.cost,
             r.solution.objective,
             r.targets_met,
             r.met.len(),
             r.solution.status.as_str(),
-            100.0 * r.solution.gap
+            driftplan::solve::progress::gap_percent(r.solution.gap)
         );
+    }
+    for r in &sw.runs {
+        for w in driftplan::solve::warnings(&r.solution) {
+            println!("warning: budget {:.1}%: {w}", 100.0 * r.share);
+        }
     }
     println!(
         "robust core: {} cells chosen in all {} networks (the report maps it); outputs {}",

@@ -53,6 +53,9 @@ pub struct Summary {
     pub cells_selected: usize,
     /// Cells in the grid.
     pub cells: usize,
+    /// Plain warnings about the run (e.g. a gap above 5 %: the network may be far from the
+    /// best one); empty when there is nothing to warn about.
+    pub warnings: Vec<String>,
     /// What these results are and are not.
     pub caution: String,
     /// Per scenario: benefit, best achievable benefit, regret and targets met.
@@ -98,6 +101,7 @@ impl Summary {
             targets_total: assessment.coverage.len(),
             cells_selected: assessment.cells_selected,
             cells: grid_cells,
+            warnings: crate::solve::warnings(solution),
             caution: CAUTION.to_string(),
             scenarios: solution.scenarios.clone(),
             sampling: Vec::new(),
@@ -183,10 +187,24 @@ mod tests {
         assert_eq!(v["scenarios"][0]["regret"], 0.5);
         assert_eq!(v["status"], "heuristic");
         assert_eq!(v["cells"], 2);
+        // A heuristic proves no bound: no gap warning (its status already says so).
+        assert_eq!(v["warnings"], serde_json::json!([]));
         assert!(v["caution"]
             .as_str()
             .unwrap()
             .starts_with("Decision support only"));
+        // An exact solve that ends above a 5 % gap carries a plain warning (solve::warnings).
+        let loose = Solution {
+            status: SolveStatus::TimeLimit,
+            solver: "highs".into(),
+            bound: 6.44,
+            gap: 0.08,
+            ..sol.clone()
+        };
+        let v: serde_json::Value =
+            serde_json::from_str(&summary_json(&Summary::new("demo", "x", &loose, &a, 2))).unwrap();
+        let w = v["warnings"][0].as_str().unwrap();
+        assert!(w.contains("8.00%") && w.contains("time limit"), "{w}");
         // Key order follows the struct: `plan` first, `driftplan_version` last.
         let first = text.find("\"plan\"").unwrap();
         let last = text.find("\"driftplan_version\"").unwrap();

@@ -31,7 +31,7 @@ pub struct ScenarioResult {
     pub benefit_max: f64,
     /// Bₛ*, the best benefit the scenario alone allows, when known.
     pub best: Option<f64>,
-    /// Bₛ* − Bₛ when Bₛ* is known. Units: weighted targets.
+    /// max(Bₛ* − Bₛ, 0) when Bₛ* is known (≥ 0 by definition). Units: weighted targets.
     pub regret: Option<f64>,
     /// Targets of this scenario's features that are met.
     pub targets_met: usize,
@@ -128,7 +128,10 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                     .map(|&k| problem.features[k].weight)
                     .sum(),
                 best: b_star,
-                regret: b_star.map(|b| b - benefit),
+                // Bₛ* is the best benefit known (a solve stopped at its gap or time limit can
+                // fall short of the optimum); a network that beats it shows the scenario can
+                // reach its own benefit, so its regret there is 0, never negative.
+                regret: b_star.map(|b| (b - benefit).max(0.0)),
                 targets_met: ks.iter().filter(|&&k| met[k]).count(),
                 targets: ks.len(),
             }

@@ -101,7 +101,7 @@ pub fn scenario_shares(problem: &Problem) -> Vec<f64> {
 }
 
 /// Combine per-scenario benefits by the rule of a `MaxBenefit` problem (before any edge
-/// penalty): Σ Bₛ, min Bₛ, Σ πₛBₛ, or max (Bₛ* − Bₛ). Returns NaN for least-regret when `best`
+/// penalty): Σ Bₛ, min Bₛ, Σ πₛBₛ, or max(0, maxₛ(Bₛ* − Bₛ)). Returns NaN for least-regret when `best`
 /// is unknown.
 pub fn combine(problem: &Problem, benefits: &[f64], best: Option<&[f64]>) -> f64 {
     match effective_robustness(problem) {
@@ -117,7 +117,8 @@ pub fn combine(problem: &Problem, benefits: &[f64], best: Option<&[f64]>) -> f64
                 .iter()
                 .zip(benefits)
                 .map(|(bs, b)| bs - b)
-                .fold(f64::NEG_INFINITY, f64::max),
+                // Regret is ≥ 0 (model::evaluate): start the maximum at 0.
+                .fold(0.0, f64::max),
             None => f64::NAN,
         },
     }

@@ -17,10 +17,11 @@
 //! "at most"; a feature that passes every step may still fail jointly with the others (the
 //! solvers then return [`super::SolveError::JointlyInfeasible`]).
 
-use crate::model::evaluate::at_least;
-use crate::model::{CellStatus, Problem};
+use crate::model::evaluate::{at_least, evaluate};
+use crate::model::{CellStatus, Objective, Problem, Robustness};
 
-use super::Shortfall;
+use super::ilp::Highs;
+use super::{time, Shortfall, SolveError, SolveOptions, Solver};
 
 /// LP-knapsack bound: the most of `amount` (per cell) a network can hold with `weight` (per
 /// cell) at most `limit`, required cells included, excluded cells left out.
@@ -106,6 +107,275 @@ pub fn diagnose(problem: &Problem) -> Vec<Shortfall> {
         }
     }
     out
+}
+
+/// One feature's row of `diagnosis.csv`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DiagnosisRow {
+    /// Feature name.
+    pub feature: String,
+    /// Its total amount over the region.
+    pub total: f64,
+    /// Its target amount.
+    pub target: f64,
+    /// The most of it any network within the budget holds (required cells in, excluded
+    /// cells out; the spatial rules are left aside).
+    pub best: f64,
+    /// Whether `best` is proven (false: a time limit cut the solve short; `best` is then the
+    /// most found, and the true best may be higher).
+    pub proven: bool,
+}
+
+impl DiagnosisRow {
+    /// `best` as a share of the total (0–1; 0 when the total is 0).
+    pub fn best_share(&self) -> f64 {
+        if self.total > 0.0 {
+            self.best / self.total
+        } else {
+            0.0
+        }
+    }
+
+    /// How far `best` falls below the target (0 when the budget can reach it).
+    pub fn shortfall(&self) -> f64 {
+        if at_least(self.best, self.target) {
+            0.0
+        } else {
+            self.target - self.best
+        }
+    }
+}
+
+/// The cheapest network that meets every target with the budget lifted.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Cheapest {
+    /// It exists: its cost, area and share of the region's sea, and whether it is proven
+    /// cheapest (within the solver's gap).
+    Network {
+        /// Total cost.
+        cost: f64,
+        /// Sea area. Units: km².
+        area_km2: f64,
+        /// Area over the region's sea area (0–1).
+        share: f64,
+        /// Relative gap of that solve (the cheapest cost is at least cost·(1 − gap)).
+        gap: f64,
+    },
+    /// Even without the budget some targets cannot be met (region or excluded cells).
+    Unreachable(Vec<Shortfall>),
+    /// The solve could not tell (e.g. it stopped without a network); the reason.
+    Unknown(String),
+}
+
+/// Why a budget is too tight: per feature the best it allows, and the least cost that meets
+/// every target.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Diagnosis {
+    /// One row per feature with a target, in feature order.
+    pub rows: Vec<DiagnosisRow>,
+    /// The cheapest network meeting every target without the budget.
+    pub cheapest: Cheapest,
+}
+
+impl Diagnosis {
+    /// Rows that fall short, worst first (largest shortfall as a share of the target, then
+    /// feature order).
+    pub fn worst(&self) -> Vec<&DiagnosisRow> {
+        let mut short: Vec<&DiagnosisRow> =
+            self.rows.iter().filter(|r| r.shortfall() > 0.0).collect();
+        short.sort_by(|a, b| (b.shortfall() / b.target).total_cmp(&(a.shortfall() / a.target)));
+        short
+    }
+}
+
+/// The best holding of each feature within the budget (an exact max-benefit solve of that
+/// feature alone, cap = its total) and the cheapest network meeting every target (a min-cost
+/// solve of `problem` without its budget). Half of `options`' time limit goes to the feature
+/// solves, in equal parts, the rest to the cheapest network (see [`super::time`]).
+pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diagnosis, SolveError> {
+    problem.validate()?;
+    let with_target: Vec<usize> = (0..problem.features.len())
+        .filter(|&k| problem.features[k].target > 0.0)
+        .collect();
+    let clock = time::TimeBudget::start(options.time_limit_s.unwrap_or(f64::INFINITY));
+    let quiet = SolveOptions {
+        progress: None,
+        ..options.clone()
+    };
+    let has_budget = problem.budget.max_cost.is_some() || problem.budget.max_area_km2.is_some();
+    let mut rows = Vec::with_capacity(with_target.len());
+    for &k in &with_target {
+        let f = &problem.features[k];
+        let total: f64 = f.amounts.iter().map(|(_, a)| a).sum();
+        let (best, proven) = if !has_budget || total <= 0.0 {
+            let allowed: f64 = f
+                .amounts
+                .iter()
+                .filter(|(c, _)| problem.status[*c as usize] != CellStatus::Excluded)
+                .map(|(_, a)| a)
+                .sum();
+            (allowed, true)
+        } else {
+            let alone = Problem {
+                features: vec![crate::model::ModelFeature {
+                    name: f.name.clone(),
+                    scenario: None,
+                    amounts: f.amounts.clone(),
+                    target: total,
+                    weight: 1.0,
+                }],
+                scenarios: vec![crate::model::Scenario {
+                    name: "alone".into(),
+                    weight: 1.0,
+                }],
+                objective: Objective::MaxBenefit,
+                robustness: Robustness::EveryScenario,
+                edge_penalty: None,
+                spacing: None,
+                min_reserve: None,
+                scenario_best: None,
+                ..problem.clone()
+            };
+            let o = SolveOptions {
+                rel_gap: 0.0,
+                ..clock.options(&quiet, 0.5, with_target.len())
+            };
+            let sol = Highs::default().solve(&alone, &o)?;
+            (
+                evaluate(&alone, &sol.selected).held[0],
+                sol.status == super::SolveStatus::Optimal,
+            )
+        };
+        rows.push(DiagnosisRow {
+            feature: f.name.clone(),
+            total,
+            target: f.target,
+            best,
+            proven,
+        });
+    }
+    let unbounded = Problem {
+        objective: Objective::MinCost,
+        budget: crate::model::Budget::default(),
+        ..problem.clone()
+    };
+    let sea: f64 = problem.area_km2.iter().sum();
+    let cheapest = match Highs::default().solve(&unbounded, &clock.options(&quiet, 1.0, 1)) {
+        Ok(sol) => {
+            let e = evaluate(&unbounded, &sol.selected);
+            Cheapest::Network {
+                cost: e.cost,
+                area_km2: e.area_km2,
+                share: if sea > 0.0 { e.area_km2 / sea } else { 0.0 },
+                gap: sol.gap,
+            }
+        }
+        Err(SolveError::Infeasible(short)) => Cheapest::Unreachable(short),
+        Err(e) => Cheapest::Unknown(e.to_string()),
+    };
+    Ok(Diagnosis { rows, cheapest })
+}
+
+/// `diagnosis.csv`: one row per feature with a target — total, target, the best amount and
+/// share reachable within the budget, whether that best is proven, and the shortfall.
+pub fn diagnosis_csv(d: &Diagnosis) -> String {
+    let mut s =
+        String::from("feature,total,target,best_within_budget,best_share,proven,shortfall\n");
+    for r in &d.rows {
+        let name = if r.feature.contains([',', '"', '\n']) {
+            format!("\"{}\"", r.feature.replace('"', "\"\""))
+        } else {
+            r.feature.clone()
+        };
+        s.push_str(&format!(
+            "{name},{},{},{},{:.6},{},{}\n",
+            r.total,
+            r.target,
+            r.best,
+            r.best_share(),
+            r.proven,
+            r.shortfall()
+        ));
+    }
+    s
+}
+
+/// The terminal account of a diagnosis: the `limit` worst shortfalls, a count of the rest and
+/// the cheapest network that meets every target.
+pub fn diagnosis_text(d: &Diagnosis, limit: usize) -> String {
+    let worst = d.worst();
+    let mut s = String::new();
+    if worst.is_empty() {
+        s.push_str(
+            "each target can be reached on its own within the budget, but not all of them \
+             together\n",
+        );
+    } else {
+        s.push_str(&format!(
+            "{} of {} targets cannot be reached within the budget; the furthest below their \
+             target:\n",
+            worst.len(),
+            d.rows.len()
+        ));
+        s.push_str(&format!(
+            "  {:<40} {:>12} {:>12} {:>10}\n",
+            "feature", "target", "best", "best share"
+        ));
+        for r in worst.iter().take(limit) {
+            s.push_str(&format!(
+                "  {:<40} {:>12.3} {:>12.3} {:>9.1}%{}\n",
+                r.feature,
+                r.target,
+                r.best,
+                100.0 * r.best_share(),
+                if r.proven { "" } else { " (at least)" }
+            ));
+        }
+        if worst.len() > limit {
+            s.push_str(&format!(
+                "  … and {} more (all in diagnosis.csv)\n",
+                worst.len() - limit
+            ));
+        }
+    }
+    match &d.cheapest {
+        Cheapest::Network {
+            cost, share, gap, ..
+        } => {
+            s.push_str(&format!(
+                "the cheapest network that meets every target costs {cost:.1} ({:.1}% of the \
+                 region){}\n",
+                100.0 * share,
+                if gap.is_finite() && *gap > 1e-9 {
+                    format!(
+                        ", within {} of the least cost",
+                        super::progress::gap_percent(*gap)
+                    )
+                } else {
+                    String::new()
+                }
+            ));
+        }
+        Cheapest::Unreachable(short) => {
+            s.push_str(&format!(
+                "no budget is enough: {} targets cannot be met by any network",
+                short.len()
+            ));
+            if let Some(f) = short.first() {
+                s.push_str(&format!(
+                    " (e.g. {} needs {:.3} but at most {:.3} is there: {})",
+                    f.feature, f.target, f.achievable, f.binding
+                ));
+            }
+            s.push('\n');
+        }
+        Cheapest::Unknown(why) => {
+            s.push_str(&format!(
+                "the cheapest network that meets every target could not be found: {why}\n"
+            ));
+        }
+    }
+    s
 }
 
 #[cfg(test)]

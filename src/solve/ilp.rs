@@ -39,6 +39,7 @@ use crate::model::{evaluate, CellStatus, Objective, Problem, Robustness};
 
 use super::diagnose::diagnose;
 use super::greedy::greedy_network;
+use super::progress::{ProgressSink, SolveProgress};
 use super::{
     make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
@@ -161,7 +162,8 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
                             "least-regret needs the scenarios' best benefits first".into(),
                         )
                     })?;
-                    let r = add(&mut vars, variable(), Col::Regret);
+                    // Regret is ≥ 0 by definition (model::evaluate clamps it the same way).
+                    let r = add(&mut vars, variable().min(0.0), Col::Regret);
                     objective.add_mul(1.0, r);
                     for (s, &b_star) in best.iter().enumerate() {
                         constraints.push(constraint::geq(
@@ -330,6 +332,69 @@ fn highs_err(what: &str) -> impl Fn(highs::TrySetOptionError) -> SolveError + '_
     move |_| SolveError::Solver(format!("HiGHS rejected option `{what}`"))
 }
 
+/// Hands HiGHS's running totals to a [`ProgressSink`], at most every [`PROGRESS_EVERY_S`].
+struct Watcher {
+    sink: ProgressSink,
+    last_s: std::sync::Mutex<f64>,
+}
+
+/// Seconds between two progress snapshots (HiGHS checks its limits far more often).
+const PROGRESS_EVERY_S: f64 = 0.5;
+
+/// The C callback: HiGHS calls it while the branch-and-bound checks its limits (the MIP
+/// interrupt callback, which carries the primal and dual bounds in the model's own sense).
+unsafe extern "C" fn on_highs_callback(
+    _kind: std::os::raw::c_int,
+    _message: *const std::os::raw::c_char,
+    out: *const highs_sys::HighsCallbackDataOut,
+    _input: *mut highs_sys::HighsCallbackDataIn,
+    data: *mut std::os::raw::c_void,
+) {
+    if out.is_null() || data.is_null() {
+        return;
+    }
+    // SAFETY: `data` is the `Watcher` registered in `watch`, alive until the solve returns;
+    // `out` is HiGHS's own data block for this call.
+    let (w, out) = unsafe { (&*(data as *const Watcher), &*out) };
+    let snapshot = SolveProgress {
+        elapsed_s: out.running_time,
+        objective: out.mip_primal_bound,
+        bound: out.mip_dual_bound,
+        gap: out.mip_gap,
+    };
+    // A panic must not unwind into C++.
+    let _ = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        let mut last = w.last_s.lock().unwrap_or_else(|e| e.into_inner());
+        if snapshot.elapsed_s - *last >= PROGRESS_EVERY_S {
+            *last = snapshot.elapsed_s;
+            w.sink.report(&snapshot);
+        }
+    }));
+}
+
+/// Registers `w` as the model's MIP progress callback.
+fn watch(model: &mut highs::Model, w: &Watcher) -> Result<(), SolveError> {
+    let ptr = model.as_mut_ptr();
+    // SAFETY: `ptr` is the live HiGHS instance owned by `model`; `w` outlives the solve (the
+    // caller keeps it boxed until the solution has been read).
+    let ok = unsafe {
+        highs_sys::Highs_setCallback(
+            ptr,
+            Some(on_highs_callback),
+            w as *const Watcher as *mut std::os::raw::c_void,
+        ) == highs_sys::kHighsStatusOk
+            && highs_sys::Highs_startCallback(ptr, highs_sys::kHighsCallbackMipInterrupt)
+                == highs_sys::kHighsStatusOk
+    };
+    if ok {
+        Ok(())
+    } else {
+        Err(SolveError::Solver(
+            "HiGHS refused the progress callback".into(),
+        ))
+    }
+}
+
 /// The infeasibility error for a problem the solver proved infeasible: per-target shortfalls
 /// when diagnosis finds them (min-cost), otherwise a statement of which rules clash.
 pub(crate) fn infeasible(problem: &Problem) -> SolveError {
@@ -402,14 +467,27 @@ impl Solver for Highs {
             .try_set_option("mip_rel_gap", options.rel_gap.max(0.0))
             .map_err(highs_err("mip_rel_gap"))?;
         if let Some(t) = options.time_limit_s {
+            // The limit covers this whole call: what Bₛ* solves and building the model used is
+            // taken off (solve::time).
+            let left = (t - started.elapsed().as_secs_f64()).max(super::time::MIN_SOLVE_S);
             model
-                .try_set_option("time_limit", t.max(0.0))
+                .try_set_option("time_limit", left)
                 .map_err(highs_err("time_limit"))?;
         }
         if let Some(t) = options.threads {
             model
                 .try_set_option("threads", t as i32)
                 .map_err(highs_err("threads"))?;
+        }
+        // Declared before the solve so it outlives every callback HiGHS makes.
+        let watcher = options.progress.clone().map(|sink| {
+            Box::new(Watcher {
+                sink,
+                last_s: std::sync::Mutex::new(f64::NEG_INFINITY),
+            })
+        });
+        if let Some(w) = &watcher {
+            watch(&mut model, w)?;
         }
         if let Some(start) = &start {
             debug_assert_eq!(start.len(), n_cols);
