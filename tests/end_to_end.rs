@@ -94,8 +94,31 @@ fn demo_run_meets_every_target_respects_rules_and_is_deterministic() {
         if p["excluded_share"].as_f64().unwrap_or(0.0) >= 0.01 {
             assert!(!selected, "excluded cell selected: {p}");
         }
+        // Cells join to reserves: a selected cell names its reserve, others carry null.
+        assert_eq!(p["reserve"].is_u64(), selected, "{p}");
     }
     assert!(required > 0, "the demo has required cells");
+    // The grid's CRS is recorded: the demo's auto LAEA, a custom CRS without an EPSG code.
+    let crs = &summary["grid_crs"];
+    assert!(
+        crs["proj"].as_str().unwrap().contains("+proj=laea"),
+        "{crs}"
+    );
+    assert!(crs["epsg"].is_null(), "{crs}");
+    // Every point-lattice layer's sampling is counted, each cell once.
+    let sampling = summary["sampling"].as_array().unwrap();
+    assert!(!sampling.is_empty());
+    for r in sampling {
+        let total: u64 = ["bilinear", "coastal", "nearest", "missing", "pixel_mean"]
+            .iter()
+            .map(|k| r[k].as_u64().unwrap())
+            .sum();
+        assert_eq!(
+            total as usize,
+            cells["features"].as_array().unwrap().len(),
+            "{r}"
+        );
+    }
     let status = summary["status"].as_str().unwrap();
     assert!(
         ["optimal", "gap-limit"].contains(&status),

@@ -249,7 +249,7 @@ fn python_shapely_agrees() {
     }];
     write_atomic(
         &cells,
-        cells_geojson(&g, &layers, &features(), &sel)
+        cells_geojson(&g, &layers, &features(), &sel, None)
             .unwrap()
             .as_bytes(),
     )
@@ -299,7 +299,7 @@ fn cells_outputs_carry_every_column() {
             values: vec![f64::NAN; g.len()],
         },
     ];
-    let text = cells_geojson(&g, &layers, &features(), &sel).unwrap();
+    let text = cells_geojson(&g, &layers, &features(), &sel, None).unwrap();
     let feats = check_rfc7946(&text);
     assert_eq!(feats.len(), g.len());
     let name = "habitat_silver_bream_ssp2_4_5_2050_km2";
@@ -323,7 +323,7 @@ fn cells_outputs_carry_every_column() {
         );
     }
     // CSV: same values, re-read by the csv crate, plus centroid lon/lat.
-    let csv_text = cells_csv(&g, &layers, &features(), &sel).unwrap();
+    let csv_text = cells_csv(&g, &layers, &features(), &sel, None).unwrap();
     let mut rd = csv::Reader::from_reader(csv_text.as_bytes());
     let header: Vec<String> = rd.headers().unwrap().iter().map(String::from).collect();
     assert_eq!(
@@ -348,8 +348,14 @@ fn length_mismatch_is_an_error_not_a_panic() {
         name: "cost".into(),
         values: vec![1.0; 3],
     }];
-    let err =
-        cells_geojson(&g, &layers, &FeatureTable::default(), &vec![false; g.len()]).unwrap_err();
+    let err = cells_geojson(
+        &g,
+        &layers,
+        &FeatureTable::default(),
+        &vec![false; g.len()],
+        None,
+    )
+    .unwrap_err();
     assert!(
         err.to_string()
             .contains("layer `cost` has 3 values but the grid has 100 cells"),
@@ -456,4 +462,47 @@ fn large_network_dissolves() {
     let total: f64 = feats.iter().map(|f| f.1).sum();
     // Hand: 1 km² cells; geodesic total within the 1e-4 tolerance reasoned above.
     assert!((total - a.cells_selected as f64).abs() / total < 1e-4);
+}
+
+#[test]
+fn cell_rows_join_to_their_reserves() {
+    // Each cell row carries the 1-based `reserve` of network.geojson it lies in (null / empty
+    // outside the network). Check by joining: per reserve, the cells carrying its number are
+    // exactly `network.geojson`'s `cells` count, and a cell has a number iff it is selected.
+    let (g, sel, a) = setup();
+    let reserves = driftplan::assess::reserve_of_cells(&a, g.len());
+    let net: serde_json::Value = serde_json::from_str(&network_geojson(&g, &a).unwrap()).unwrap();
+    let want: Vec<(u64, u64)> = net["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| {
+            (
+                f["properties"]["reserve"].as_u64().unwrap(),
+                f["properties"]["cells"].as_u64().unwrap(),
+            )
+        })
+        .collect();
+    assert!(want.len() >= 2, "the fixture has several reserves");
+    let text = cells_geojson(&g, &[], &FeatureTable::default(), &sel, Some(&reserves)).unwrap();
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let mut counts = std::collections::BTreeMap::new();
+    for f in v["features"].as_array().unwrap() {
+        let p = &f["properties"];
+        let cell = p["cell"].as_u64().unwrap() as usize;
+        match p["reserve"].as_u64() {
+            Some(k) => {
+                assert!(sel[cell]);
+                *counts.entry(k).or_insert(0u64) += 1;
+            }
+            None => assert!(!sel[cell] && p["reserve"].is_null()),
+        }
+    }
+    assert_eq!(counts.into_iter().collect::<Vec<_>>(), want);
+    let csv_text = cells_csv(&g, &[], &FeatureTable::default(), &sel, Some(&reserves)).unwrap();
+    let mut rd = csv::Reader::from_reader(csv_text.as_bytes());
+    assert_eq!(&rd.headers().unwrap()[5], "reserve");
+    for (cell, r) in rd.records().map(Result::unwrap).enumerate() {
+        assert_eq!(r[5].is_empty(), !sel[cell]);
+    }
 }

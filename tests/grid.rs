@@ -477,3 +477,29 @@ fn errors_name_the_problem() {
         other => panic!("{other}"),
     }
 }
+
+#[test]
+fn summary_crs_names_its_epsg_code_and_proj_string() {
+    // EPSG:3035 is ETRS89-extended / LAEA Europe: Lambert azimuthal equal-area at 52°N 10°E,
+    // false easting 4 321 000 m, northing 3 210 000 m, GRS80 (EPSG Geodetic Parameter
+    // Dataset; the same parameters as the Guidance Note 7-2 example above). The auto LAEA is a
+    // custom CRS with no EPSG code.
+    let info = Crs {
+        definition: "EPSG:3035".into(),
+    }
+    .describe();
+    assert_eq!(info.epsg, Some(3035));
+    let p = info.proj.unwrap();
+    for part in [
+        "+proj=laea",
+        "+lat_0=52",
+        "+lon_0=10",
+        "+x_0=4321000",
+        "+y_0=3210000",
+    ] {
+        assert!(p.contains(part), "{p}");
+    }
+    let auto = Crs::auto_laea(-120.0, -36.5).describe();
+    assert_eq!(auto.epsg, None);
+    assert!(auto.proj.unwrap().contains("+lat_0=-36.5"));
+}

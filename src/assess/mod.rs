@@ -51,6 +51,20 @@ pub struct Reserve {
     pub cost: f64,
 }
 
+/// The 1-based reserve number of each cell (0 outside the network), in the order of
+/// `assessment.reserves` (which is `network.geojson`'s `reserve` property).
+pub fn reserve_of_cells(assessment: &Assessment, n_cells: usize) -> Vec<u32> {
+    let mut out = vec![0; n_cells];
+    for (k, r) in assessment.reserves.iter().enumerate() {
+        for &c in &r.cells {
+            if let Some(slot) = out.get_mut(c as usize) {
+                *slot = k as u32 + 1;
+            }
+        }
+    }
+    out
+}
+
 /// Everything measured about one network.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Assessment {

@@ -22,11 +22,17 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     let files = vec![
         (
             "cells.geojson",
-            export::geojson::cells_geojson(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
+            export::geojson::cells_geojson(
+                &inputs.grid,
+                &inputs.layers,
+                &inputs.features,
+                &none,
+                None,
+            )?,
         ),
         (
             "cells.csv",
-            export::cells_csv(&inputs.grid, &inputs.layers, &inputs.features, &none)?,
+            export::cells_csv(&inputs.grid, &inputs.layers, &inputs.features, &none, None)?,
         ),
         ("features.csv", export::features_csv(&inputs.features)?),
         (

@@ -28,9 +28,12 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     let files = vec![
         (
             "grid.geojson",
-            export::cells_geojson(&grid, &[], &empty, &none)?,
+            export::cells_geojson(&grid, &[], &empty, &none, None)?,
         ),
-        ("grid.csv", export::cells_csv(&grid, &[], &empty, &none)?),
+        (
+            "grid.csv",
+            export::cells_csv(&grid, &[], &empty, &none, None)?,
+        ),
     ];
     export::write_outputs(&args.out, &files)?;
     progress.say(&format!(

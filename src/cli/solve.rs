@@ -25,6 +25,10 @@ pub(crate) struct Args {
     /// Skip the scenario stress test (one extra solve per scenario).
     #[arg(long)]
     no_stress: bool,
+    /// Write cells.geojson even for a large grid (it is skipped above 20 000 cells, where it
+    /// runs to hundreds of MB; cells.csv holds the same values).
+    #[arg(long)]
+    cells_geojson: bool,
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
@@ -33,6 +37,7 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         &args.out,
         &args.solver,
         args.no_stress,
+        args.cells_geojson,
         progress,
     )
 }
@@ -43,6 +48,7 @@ pub(crate) fn solve(
     out: &Path,
     solver: &SolverArgs,
     no_stress: bool,
+    cells_geojson: bool,
     progress: &Progress,
 ) -> Result<()> {
     let plan = load_with(plan_path, solver)?;
@@ -111,7 +117,15 @@ pub(crate) fn solve(
         no_stress,
         progress,
     )?;
-    write_solution(&plan, &inputs, &solution, &assessment, out)?;
+    write_solution(
+        &plan,
+        &inputs,
+        &solution,
+        &assessment,
+        out,
+        cells_geojson,
+        progress,
+    )?;
     let mut files = vec![(
         "report.html",
         pipeline::report_html(
@@ -190,6 +204,8 @@ fn write_solution(
     solution: &Solution,
     assessment: &driftplan::assess::Assessment,
     out: &Path,
+    cells_geojson: bool,
+    progress: &Progress,
 ) -> Result<()> {
     let mut summary = export::Summary::new(
         &plan.name,
@@ -200,20 +216,36 @@ fn write_solution(
     );
     summary.sampling = inputs.sampling.clone();
     summary.velocity_floored_cells = inputs.velocity_floored.iter().cloned().collect();
-    let files = vec![
-        (
-            "network.geojson",
-            export::geojson::network_geojson(&inputs.grid, assessment)?,
-        ),
-        (
+    summary.grid_crs = Some(inputs.grid.crs.describe());
+    let reserves = driftplan::assess::reserve_of_cells(assessment, inputs.grid.len());
+    let mut files = vec![(
+        "network.geojson",
+        export::geojson::network_geojson(&inputs.grid, assessment)?,
+    )];
+    if cells_geojson || inputs.grid.len() <= export::CELLS_GEOJSON_MAX_CELLS {
+        files.push((
             "cells.geojson",
             export::geojson::cells_geojson(
                 &inputs.grid,
                 &inputs.layers,
                 &inputs.features,
                 &solution.selected,
+                Some(&reserves),
             )?,
-        ),
+        ));
+    } else {
+        // A cells.geojson of an earlier run would no longer match this network.
+        let stale = out.join("cells.geojson");
+        if stale.exists() {
+            std::fs::remove_file(&stale)?;
+        }
+        progress.say(&format!(
+            "cells.geojson not written: {} cells is over {} (it would be hundreds of MB); cells.csv has the same values, or pass --cells-geojson",
+            inputs.grid.len(),
+            export::CELLS_GEOJSON_MAX_CELLS
+        ));
+    }
+    files.extend([
         (
             "cells.csv",
             export::cells_csv(
@@ -221,6 +253,7 @@ fn write_solution(
                 &inputs.layers,
                 &inputs.features,
                 &solution.selected,
+                Some(&reserves),
             )?,
         ),
         ("coverage.csv", export::coverage_csv(assessment)),
@@ -231,7 +264,7 @@ fn write_solution(
             "edge-shifts.csv",
             export::edge_shifts_csv(&inputs.edge_shifts)?,
         ),
-    ];
+    ]);
     export::write_outputs(out, &files)?;
     Ok(())
 }

@@ -88,7 +88,7 @@ fn sweep(
         ),
         (
             "selection-frequency.geojson",
-            export::geojson::cells_geojson(&inputs.grid, &layers, &empty, &core)?,
+            export::geojson::cells_geojson(&inputs.grid, &layers, &empty, &core, None)?,
         ),
         (
             "report.html",

@@ -32,7 +32,12 @@ pub(crate) fn sanitize(name: &str) -> String {
 /// `habitat_silver_bream_ssp2_4_5_2050_km2`). A name already taken (by a fixed column or an
 /// earlier name) gets `_2`, `_3`, ... so every column is unique and the order is fixed.
 pub(crate) fn value_names(layers: &[Layer], features: &FeatureTable) -> Vec<String> {
-    let mut taken: BTreeSet<String> = FIXED.iter().map(|s| s.to_string()).collect();
+    // `reserve` follows the fixed columns where a network's reserves are written.
+    let mut taken: BTreeSet<String> = FIXED
+        .iter()
+        .chain(&["reserve"])
+        .map(|s| s.to_string())
+        .collect();
     let mut out = Vec::with_capacity(layers.len() + features.features.len());
     let mut add = |base: String, fallback: &str| {
         let base = if base.is_empty() {

@@ -151,7 +151,7 @@ fn check_lengths(grid: &Grid, layers: &[Layer], selected: &[bool]) -> Result<(),
 /// Calls `row(cell, values)` for each cell in `lo..hi`, with `values` = each layer's value
 /// then each feature's amount (0 where the feature is absent). Sparse amounts are walked with
 /// one cursor per feature, so a chunk costs O(cells × columns), no dense feature matrix.
-fn for_each_row(
+pub(crate) fn for_each_row(
     layers: &[Layer],
     features: &FeatureTable,
     lo: usize,
@@ -188,14 +188,16 @@ fn for_each_row(
 }
 
 /// `cells.geojson`: every cell's sea polygon in WGS84 lon/lat with properties `cell`,
-/// `area_km2` (sea area, km²), `selected`, each layer's value (sanitized layer name) and each
-/// feature's amount (sanitized feature name + unit, e.g. `habitat_cod_ssp2_4_5_2050_km2`).
-/// Non-finite values are written as `null`.
+/// `area_km2` (sea area, km²), `selected`, with `reserves` the 1-based `reserve` number of
+/// `network.geojson` the cell belongs to (null outside the network) so cells join to reserves,
+/// each layer's value (sanitized layer name) and each feature's amount (sanitized feature name
+/// + unit, e.g. `habitat_cod_ssp2_4_5_2050_km2`). Non-finite values are written as `null`.
 pub fn cells_geojson(
     grid: &Grid,
     layers: &[Layer],
     features: &FeatureTable,
     selected: &[bool],
+    reserves: Option<&[u32]>,
 ) -> Result<String, ExportError> {
     check_lengths(grid, layers, selected)?;
     let names: Vec<String> = value_names(layers, features)
@@ -225,6 +227,14 @@ pub fn cells_geojson(
                     );
                     push_num(&mut out, grid.cells[cell as usize].sea_area_km2);
                     out.push_str(if selected[cell as usize] { ",\"selected\":true" } else { ",\"selected\":false" });
+                    if let Some(r) = reserves {
+                        match r[cell as usize] {
+                            0 => out.push_str(",\"reserve\":null"),
+                            k => {
+                                let _ = write!(out, ",\"reserve\":{k}");
+                            }
+                        }
+                    }
                     for (name, v) in names.iter().zip(values) {
                         out.push(',');
                         out.push_str(name);
@@ -251,19 +261,24 @@ pub fn cells_geojson(
 
 /// `cells.csv`: the columns of [`cells_geojson`] plus the sea centroid's WGS84 `lon`,`lat`
 /// (degrees, 6 decimals), one row per cell — the practical format at a million cells.
-/// Columns: `cell,lon,lat,area_km2,selected,<layers...>,<features...>`; non-finite values are
-/// left empty.
+/// Columns: `cell,lon,lat,area_km2,selected,[reserve,]<layers...>,<features...>` (`reserve`
+/// with `reserves`: the 1-based reserve number, empty outside the network); non-finite values
+/// are left empty.
 pub fn cells_csv(
     grid: &Grid,
     layers: &[Layer],
     features: &FeatureTable,
     selected: &[bool],
+    reserves: Option<&[u32]>,
 ) -> Result<String, ExportError> {
     check_lengths(grid, layers, selected)?;
     let mut header: Vec<String> = super::columns::FIXED
         .iter()
         .map(|s| s.to_string())
         .collect();
+    if reserves.is_some() {
+        header.push("reserve".into());
+    }
     header.extend(value_names(layers, features));
     let n = grid.len();
     let chunks: Vec<String> = (0..n.div_ceil(CHUNK))
@@ -289,6 +304,12 @@ pub fn cells_csv(
                 record.push(num(round6(c.lonlat[1])));
                 record.push(num(c.sea_area_km2));
                 record.push(selected[cell as usize].to_string());
+                if let Some(r) = reserves {
+                    record.push(match r[cell as usize] {
+                        0 => String::new(),
+                        k => k.to_string(),
+                    });
+                }
                 record.extend(values.iter().map(|&v| num(v)));
                 // Writing to an in-memory Vec cannot fail.
                 let _ = w.write_record(&record);

@@ -66,6 +66,8 @@ pub struct Summary {
     /// Per scenario: cells whose temperature gradient was below the velocity floor (speed
     /// capped, bearing missing on purpose). Empty without velocity from temperature.
     pub velocity_floored_cells: BTreeMap<String, usize>,
+    /// The grid's projected CRS: as given, as a PROJ string, and its EPSG code where it has one.
+    pub grid_crs: Option<crate::grid::CrsInfo>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
 }
@@ -106,6 +108,7 @@ impl Summary {
             scenarios: solution.scenarios.clone(),
             sampling: Vec::new(),
             velocity_floored_cells: BTreeMap::new(),
+            grid_crs: None,
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }

@@ -22,6 +22,40 @@ impl Crs {
     }
 }
 
+/// A CRS as summary.json records it.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct CrsInfo {
+    /// The definition the grid was built with (`auto` LAEA PROJ string, `EPSG:3035`, …).
+    pub definition: String,
+    /// The same CRS as a PROJ string (as GDAL/PROJ export it).
+    pub proj: Option<String>,
+    /// Its EPSG code, when it is (or is identified as) an EPSG CRS; `null` for the custom
+    /// LAEA of `crs = "auto"`.
+    pub epsg: Option<u32>,
+}
+
+impl Crs {
+    /// The CRS described for summary.json: PROJ string and EPSG code where there is one.
+    pub fn describe(&self) -> CrsInfo {
+        let srs = spatial_ref(&self.definition).ok();
+        let proj = srs.as_ref().and_then(|s| s.to_proj4().ok());
+        let epsg = srs.and_then(|mut s| {
+            if s.auth_name().as_deref() != Some("EPSG") {
+                s.auto_identify_epsg().ok()?;
+            }
+            (s.auth_name().as_deref() == Some("EPSG"))
+                .then(|| s.auth_code().ok())
+                .flatten()
+                .map(|c| c as u32)
+        });
+        CrsInfo {
+            definition: self.definition.clone(),
+            proj: proj.map(|p| p.trim().to_string()),
+            epsg,
+        }
+    }
+}
+
 /// GDAL prints its errors on stderr unless told otherwise; driftplan reports them itself
 /// (with the file and CRS), so GDAL is silenced once per process.
 pub(crate) fn quiet_gdal() {

@@ -95,7 +95,7 @@ pub mod ellipsoid;
 pub mod neighbours;
 
 pub use build::{build_grid, region_bounds_lonlat, DENSIFY_DEG, MAX_CELLS};
-pub use crs::Projector;
+pub use crs::{CrsInfo, Projector};
 pub use ellipsoid::lonlat_box_area_km2;
 pub use neighbours::rook_neighbours;
 
