@@ -27,5 +27,12 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     if args.data_only {
         return Ok(());
     }
-    super::solve::solve(&plan_path, &args.out, &args.solver, false, false, progress)
+    super::solve::solve(
+        &plan_path,
+        &args.out,
+        &args.solver,
+        false,
+        super::solve::Outputs::default(),
+        progress,
+    )
 }

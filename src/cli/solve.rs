@@ -12,6 +12,15 @@ use driftplan::solve::time::{self, TimeBudget};
 use driftplan::solve::{Solution, SolveError, SolveOptions};
 use std::path::{Path, PathBuf};
 
+/// Which optional outputs `solve` writes.
+#[derive(Debug, Clone, Copy, Default)]
+pub(crate) struct Outputs {
+    /// cells.geojson even above [`export::CELLS_GEOJSON_MAX_CELLS`] cells.
+    pub(crate) cells_geojson: bool,
+    /// WGS84 layers in driftplan.gpkg.
+    pub(crate) gpkg_wgs84: bool,
+}
+
 /// Arguments of `driftplan solve`.
 #[derive(clap::Args, Debug)]
 pub(crate) struct Args {
@@ -29,6 +38,10 @@ pub(crate) struct Args {
     /// runs to hundreds of MB; cells.csv holds the same values).
     #[arg(long)]
     cells_geojson: bool,
+    /// Also write the network and cells in WGS84 lon/lat (layers `network_wgs84`,
+    /// `cells_wgs84`) into driftplan.gpkg, beside the grid's equal-area CRS.
+    #[arg(long)]
+    gpkg_wgs84: bool,
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
@@ -37,7 +50,10 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         &args.out,
         &args.solver,
         args.no_stress,
-        args.cells_geojson,
+        Outputs {
+            cells_geojson: args.cells_geojson,
+            gpkg_wgs84: args.gpkg_wgs84,
+        },
         progress,
     )
 }
@@ -48,7 +64,7 @@ pub(crate) fn solve(
     out: &Path,
     solver: &SolverArgs,
     no_stress: bool,
-    cells_geojson: bool,
+    outputs: Outputs,
     progress: &Progress,
 ) -> Result<()> {
     let plan = load_with(plan_path, solver)?;
@@ -123,7 +139,7 @@ pub(crate) fn solve(
         &solution,
         &assessment,
         out,
-        cells_geojson,
+        outputs,
         progress,
     )?;
     let mut files = vec![(
@@ -204,7 +220,7 @@ fn write_solution(
     solution: &Solution,
     assessment: &driftplan::assess::Assessment,
     out: &Path,
-    cells_geojson: bool,
+    outputs: Outputs,
     progress: &Progress,
 ) -> Result<()> {
     let mut summary = export::Summary::new(
@@ -222,7 +238,7 @@ fn write_solution(
         "network.geojson",
         export::geojson::network_geojson(&inputs.grid, assessment)?,
     )];
-    if cells_geojson || inputs.grid.len() <= export::CELLS_GEOJSON_MAX_CELLS {
+    if outputs.cells_geojson || inputs.grid.len() <= export::CELLS_GEOJSON_MAX_CELLS {
         files.push((
             "cells.geojson",
             export::geojson::cells_geojson(
@@ -266,6 +282,18 @@ fn write_solution(
         ),
     ]);
     export::write_outputs(out, &files)?;
+    export::gpkg::write_gpkg(
+        &out.join("driftplan.gpkg"),
+        &export::gpkg::GpkgContent {
+            grid: &inputs.grid,
+            assessment,
+            layers: &inputs.layers,
+            features: &inputs.features,
+            selected: &solution.selected,
+            reserves: &reserves,
+            wgs84: outputs.gpkg_wgs84,
+        },
+    )?;
     Ok(())
 }
 

@@ -9,6 +9,7 @@ mod columns;
 pub(crate) mod dissolve;
 mod features_table;
 pub mod geojson;
+pub mod gpkg;
 mod rings;
 pub mod summary;
 pub mod table;
