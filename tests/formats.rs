@@ -574,3 +574,111 @@ fn the_geopackage_reads_back_with_gdal_tools() {
         "driftplan.gpkg differs between two runs of the same plan"
     );
 }
+
+#[test]
+fn a_pacific_plan_across_the_antimeridian_runs_end_to_end() {
+    // An invented Pacific box 179°E–179°W, 30.2–30°S given as RFC 7946 pieces either side of
+    // 180° (§3.1.9), habitat from a CSV lattice written in −180…180 longitudes. `solve` must
+    // grid it as one region (sea area, no slivers dropped, = the whole box's closed-form
+    // ellipsoidal area, Snyder 1987 eq. 3-12, to 1e-6), and network.geojson must keep every ring within −180…180 with
+    // no edge jumping across the antimeridian (RFC 7946 §3.1.9); GDAL's ogrinfo reads the
+    // GeoPackage's cells back, one per cell.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    std::fs::write(
+        d.join("region.geojson"),
+        r#"{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"MultiPolygon","coordinates":[[[[179.0,-30.2],[180.0,-30.2],[180.0,-30.0],[179.0,-30.0],[179.0,-30.2]]],[[[-180.0,-30.2],[-179.0,-30.2],[-179.0,-30.0],[-180.0,-30.0],[-180.0,-30.2]]]]}}]}"#,
+    )
+    .unwrap();
+    let mut csv = String::from("lon,lat,kelp\n");
+    for i in 0..=44 {
+        for j in 0..=6 {
+            let lon = 178.9 + 0.05 * i as f64;
+            let lon = if lon > 180.0 { lon - 360.0 } else { lon };
+            let lat = -30.3 + 0.05 * j as f64;
+            csv.push_str(&format!(
+                "{lon:.2},{lat:.2},{}\n",
+                ((i * 7 + j * 3) % 5) as f64 / 4.0
+            ));
+        }
+    }
+    std::fs::write(d.join("habitat.csv"), csv).unwrap();
+    let plan = d.join("pacific.toml");
+    std::fs::write(
+        &plan,
+        r#"name = "pacific"
+region = "region.geojson"
+[grid]
+cell_size_km = 5
+min_sea_share = 0
+[scenarios]
+names = ["now"]
+years = [2030]
+[targets]
+default = 0.3
+[optimise]
+objective = "min-cost"
+[solver]
+gap = 0
+[[species]]
+name = "kelp"
+habitat = { path = "habitat.csv", column = "kelp" }
+"#,
+    )
+    .unwrap();
+    let out = d.join("out");
+    let r = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .arg("solve")
+        .arg(&plan)
+        .arg("--out")
+        .arg(&out)
+        .arg("--quiet")
+        .output()
+        .unwrap();
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let region_km2 =
+        summary["area_km2"].as_f64().unwrap() / summary["share_of_region"].as_f64().unwrap();
+    let want = driftplan::grid::lonlat_box_area_km2(179.0, -30.2, 181.0, -30.0);
+    assert!(
+        (region_km2 / want - 1.0).abs() < 1e-6,
+        "{region_km2} vs {want}"
+    );
+    let net: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("network.geojson")).unwrap())
+            .unwrap();
+    let mut rings = 0;
+    for f in net["features"].as_array().unwrap() {
+        let g = &f["geometry"];
+        let polys: Vec<&serde_json::Value> = match g["type"].as_str().unwrap() {
+            "Polygon" => vec![&g["coordinates"]],
+            _ => g["coordinates"].as_array().unwrap().iter().collect(),
+        };
+        for poly in polys {
+            for ring in poly.as_array().unwrap() {
+                let pts: Vec<f64> = ring
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|p| p[0].as_f64().unwrap())
+                    .collect();
+                assert!(pts.iter().all(|x| (-180.0..=180.0).contains(x)));
+                assert!(
+                    pts.windows(2).all(|w| (w[1] - w[0]).abs() < 180.0),
+                    "a ring jumps across 180°"
+                );
+                rings += 1;
+            }
+        }
+    }
+    assert!(rings > 0);
+    let cells = ogrinfo_sql(
+        &out.join("driftplan.gpkg"),
+        "SELECT COUNT(*) AS n FROM cells",
+    );
+    assert_eq!(
+        field(&cells, "n") as u64,
+        summary["cells"].as_u64().unwrap()
+    );
+}

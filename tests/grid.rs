@@ -439,16 +439,14 @@ fn errors_name_the_problem() {
         Err(GridError::EmptyRegion(_))
     ));
 
-    // RFC 7946 splits a region across 180° into two pieces.
-    let across = MultiPolygon(vec![
-        lonlat_box(178.0, -20.0, 180.0, -18.0),
-        lonlat_box(-180.0, -20.0, -178.0, -18.0),
+    // A region wider than half the globe even with western longitudes read past 180° is
+    // not one region driftplan can grid in one equal-area projection.
+    let too_wide = MultiPolygon(vec![
+        lonlat_box(-170.0, -20.0, -10.0, -18.0),
+        lonlat_box(10.0, -20.0, 170.0, -18.0),
     ]);
-    let e = build_grid(&spec(5.0, 0.1), &across, None).unwrap_err();
-    assert!(
-        matches!(e, GridError::Antimeridian { .. }) && e.to_string().contains("not supported yet"),
-        "{e}"
-    );
+    let e = build_grid(&spec(500.0, 0.1), &too_wide, None).unwrap_err();
+    assert!(matches!(e, GridError::Antimeridian { .. }), "{e}");
 
     for bad in [0.0, -5.0, f64::NAN, f64::INFINITY] {
         let e = build_grid(&spec(bad, 0.1), &region, None).unwrap_err();
@@ -502,4 +500,44 @@ fn summary_crs_names_its_epsg_code_and_proj_string() {
     let auto = Crs::auto_laea(-120.0, -36.5).describe();
     assert_eq!(auto.epsg, None);
     assert!(auto.proj.unwrap().contains("+lat_0=-36.5"));
+}
+
+// A Pacific region across 180°, given as RFC 7946 asks (§3.1.9): two pieces, 175–180°E and
+// 180–175°W, lat 20–15°S, with an island across 180° (179.6°E–179.6°W, 17.6–17.2°S) also in
+// two pieces. Reference: the closed-form ellipsoidal areas of the whole boxes (Snyder 1987,
+// eq. 3-12; longitudes measured past 180°), tolerance 1e-6 as for the land-hole region above.
+// The grid is centred on the antimeridian (auto LAEA lon_0 = 180).
+#[test]
+fn a_region_across_the_antimeridian() {
+    let region = MultiPolygon(vec![
+        lonlat_box(175.0, -20.0, 180.0, -15.0),
+        lonlat_box(-180.0, -20.0, -175.0, -15.0),
+    ]);
+    let land = MultiPolygon(vec![
+        lonlat_box(179.6, -17.6, 180.0, -17.2),
+        lonlat_box(-180.0, -17.6, -179.6, -17.2),
+    ]);
+    let g = build_grid(&spec(10.0, 0.0), &region, Some(&land)).unwrap();
+    assert!(
+        g.crs.definition.contains("+lon_0=180"),
+        "{}",
+        g.crs.definition
+    );
+    let want = box_minus_box([175.0, -20.0, 185.0, -15.0], [179.6, -17.6, 180.4, -17.2]);
+    assert!(
+        ((g.sea_area_km2 - want) / want).abs() < 1e-6,
+        "{} vs {want}",
+        g.sea_area_km2
+    );
+    // Cells on both sides of 180° are neighbours across it: the grid is one piece.
+    let east = g.cells.iter().filter(|c| c.lonlat[0] > 0.0).count();
+    let west = g.cells.iter().filter(|c| c.lonlat[0] < 0.0).count();
+    assert!(east > 100 && west > 100, "{east} / {west}");
+    let across = (0..g.len()).any(|i| {
+        g.cells[i].lonlat[0] > 179.0
+            && g.neighbours[i]
+                .iter()
+                .any(|n| g.cells[n.cell as usize].lonlat[0] < -179.0)
+    });
+    assert!(across, "no neighbours across 180°");
 }

@@ -621,3 +621,49 @@ fn a_projected_lattice_with_a_hole_is_bilinear_in_its_own_crs() {
     );
     assert!(r.method.contains("(file units)"), "{}", r.method);
 }
+
+#[test]
+fn a_lattice_across_the_antimeridian_is_one_lattice() {
+    // Points at 0.25° from 176°E to 176°W written in −180…180 longitudes (so the x values jump
+    // from 180 to −179.75): still one lattice; a plane v = 2 + 0.5·(lon mod 360) − lat is
+    // reproduced bilinearly in every cell of a grid centred on 180° (Press et al., §3.6).
+    let dir = tempfile::tempdir().unwrap();
+    let f = |lon: f64, lat: f64| 2.0 + 0.5 * lon.rem_euclid(360.0) - lat;
+    let mut text = String::from("lon,lat,v\n");
+    for j in 0..21 {
+        for i in 0..33 {
+            let lon = 176.0 + 0.25 * i as f64;
+            let lon = if lon > 180.0 { lon - 360.0 } else { lon };
+            let lat = -20.0 + 0.25 * j as f64;
+            text.push_str(&format!("{lon},{lat},{}\n", f(lon, lat)));
+        }
+    }
+    let path = dir.path().join("pacific.csv");
+    std::fs::write(&path, text).unwrap();
+    let g = Grid::full_rectangle(
+        Crs::auto_laea(180.0, -17.5),
+        10_000.0,
+        [-150_000.0, -150_000.0],
+        30,
+        30,
+    )
+    .unwrap();
+    let cache = SourceCache::new();
+    let layer = sample(
+        "v",
+        &spec(path, Sampling::Interpolate, Some("v"), None),
+        &g,
+        &cache,
+    )
+    .unwrap();
+    let r = &cache.sampling_reports()[0];
+    assert_eq!(r.bilinear, g.len(), "{r:?}");
+    for (id, c) in g.cells.iter().enumerate() {
+        let want = f(c.lonlat[0], c.lonlat[1]);
+        assert!(
+            (layer.values[id] - want).abs() < 1e-9,
+            "cell {id}: {} vs {want}",
+            layer.values[id]
+        );
+    }
+}

@@ -103,14 +103,66 @@ pub fn region_bounds_lonlat(region: &MultiPolygon<f64>) -> Result<Rect<f64>, Gri
     if !any {
         return Err(GridError::EmptyRegion("the region has no polygons".into()));
     }
-    // An RFC 7946 region across 180° comes split into pieces near +180 and −180.
+    // An RFC 7946 region across 180° comes split into pieces near +180 and −180: measured
+    // with western longitudes as lon + 360 it is one compact box (e.g. 170…190), and the
+    // bounds are returned that way (east > 180), so the grid is centred on the antimeridian.
     if hi.x - lo.x > 180.0 {
-        return Err(GridError::Antimeridian {
-            west: lo.x,
-            east: hi.x,
-        });
+        let (mut ulo, mut uhi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for c in region.0.iter().flat_map(|p| {
+            std::iter::once(p.exterior())
+                .chain(p.interiors())
+                .flat_map(|r| r.0.iter())
+        }) {
+            let x = if c.x < 0.0 { c.x + 360.0 } else { c.x };
+            ulo = ulo.min(x);
+            uhi = uhi.max(x);
+        }
+        if uhi - ulo > 180.0 {
+            return Err(GridError::Antimeridian {
+                west: lo.x,
+                east: hi.x,
+            });
+        }
+        return Ok(Rect::new(
+            Coord { x: ulo, y: lo.y },
+            Coord { x: uhi, y: hi.y },
+        ));
     }
     Ok(Rect::new(lo, hi))
+}
+
+/// A ring's longitudes made continuous (±360° where consecutive points jump by more than
+/// 180°), then shifted by a whole turn to overlap the box `x0..x1` most — so land given as
+/// RFC 7946 pieces either side of 180° meets a region box that runs past 180°.
+fn ring_near(ring: &[Coord<f64>], x0: f64, x1: f64) -> Vec<Coord<f64>> {
+    let mut out: Vec<Coord<f64>> = Vec::with_capacity(ring.len());
+    let mut shift = 0.0;
+    for (i, c) in ring.iter().enumerate() {
+        if i > 0 {
+            let d = c.x - ring[i - 1].x;
+            if d > 180.0 {
+                shift -= 360.0;
+            } else if d < -180.0 {
+                shift += 360.0;
+            }
+        }
+        out.push(Coord {
+            x: c.x + shift,
+            y: c.y,
+        });
+    }
+    let (lo, hi) = out
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), c| {
+            (a.min(c.x), b.max(c.x))
+        });
+    let overlap = |k: f64| (hi + k).min(x1) - (lo + k).max(x0);
+    let best =
+        [-360.0, 0.0, 360.0]
+            .into_iter()
+            .fold(0.0, |b, k| if overlap(k) > overlap(b) { k } else { b });
+    out.iter_mut().for_each(|c| c.x += best);
+    out
 }
 
 /// A cell size (km) that keeps a sea of `sea_area_km2` under [`MAX_CELLS`], rounded up to
@@ -309,12 +361,20 @@ fn clip_land_lonlat(
     }
     let m = LAND_MARGIN_DEG;
     let (lo, hi) = (bounds.min(), bounds.max());
-    let (x0, x1) = ((lo.x - m).max(-180.0), (hi.x + m).min(180.0));
+    // A box past 180° (antimeridian regions) keeps its extended longitudes.
+    let (x0, x1) = if hi.x > 180.0 {
+        (lo.x - m, hi.x + m)
+    } else {
+        ((lo.x - m).max(-180.0), (hi.x + m).min(180.0))
+    };
     let (y0, y1) = ((lo.y - m).max(-90.0), (hi.y + m).min(90.0));
     let mut out = Vec::new();
     for poly in land.orient(Direction::Default).0 {
         for ring in std::iter::once(poly.exterior()).chain(poly.interiors()) {
             let mut r = open_ring(ring);
+            if hi.x > 180.0 {
+                r = ring_near(&r, x0, x1);
+            }
             for (axis, v, keep_low) in [
                 (Axis::X, x0, false),
                 (Axis::X, x1, true),

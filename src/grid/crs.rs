@@ -158,8 +158,9 @@ impl Projector {
             (lo.x, hi.y),
             (centre.x, centre.y),
         ] {
-            // Keep the test box inside valid lon/lat.
-            let lon = lon.clamp(-180.0, 180.0 - d);
+            // Keep the test box inside valid lon/lat (bounds past 180° come from regions
+            // across the antimeridian).
+            let lon = ((lon + 180.0).rem_euclid(360.0) - 180.0).clamp(-180.0, 180.0 - d);
             let lat = lat.clamp(-90.0, 90.0 - d);
             let corners = [
                 (lon, lat),

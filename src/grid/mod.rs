@@ -146,8 +146,9 @@ pub enum GridError {
     /// The region has no area (no polygons, or land covers it all).
     #[error("the region is empty: {0}")]
     EmptyRegion(String),
-    /// The region crosses the antimeridian (180° longitude).
-    #[error("the region spans longitudes {west}..{east}: it crosses the antimeridian (180°) or is wider than 180°; regions across the antimeridian are not supported yet (split the plan into one region each side)")]
+    /// The region is wider than 180° of longitude, even read across the antimeridian, or a
+    /// ring jumps across it instead of being split there.
+    #[error("the region spans longitudes {west}..{east}: wider than 180° even when read across the antimeridian, or a ring jumps across 180° (RFC 7946 §3.1.9: split rings that cross it into pieces either side); plan each ocean basin separately")]
     Antimeridian {
         /// Westernmost longitude found (degrees).
         west: f64,

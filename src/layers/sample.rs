@@ -414,7 +414,25 @@ fn interpolator(
         path: spec.path.clone(),
         source,
     };
-    let not_lattice = match RegularLattice::fit(&table.xs, &table.ys) {
+    // A lon/lat lattice across the antimeridian (longitudes 170…180 and −180…−170) is one
+    // lattice once western longitudes are read as lon + 360; queries pick the matching variant.
+    let unwrapped: Vec<f64>;
+    let xs: &[f64] = match (
+        &spec.crs,
+        table.xs.iter().copied().fold(f64::NAN, f64::min),
+        table.xs.iter().copied().fold(f64::NAN, f64::max),
+    ) {
+        (None, lo, hi) if hi - lo > 180.0 => {
+            unwrapped = table
+                .xs
+                .iter()
+                .map(|&x| if x < 0.0 { x + 360.0 } else { x })
+                .collect();
+            &unwrapped
+        }
+        _ => &table.xs,
+    };
+    let not_lattice = match RegularLattice::fit(xs, &table.ys) {
         Ok(lattice) => {
             // Bilinear in the file's own coordinates, at each cell's lon/lat centroid.
             let source = match &spec.crs {
