@@ -334,6 +334,7 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             max_gap_km: g,
         }),
         scenario_best: None,
+        keep_objective: None,
         min_reserve: plan.rules.min_reserve_km2.map(|m| MinReserve {
             min_area_km2: m,
             neighbours: inputs
@@ -481,6 +482,8 @@ pub struct ReportExtras<'a> {
     pub facts: Vec<(String, String)>,
     /// More per-cell maps, shown before the derived-feature maps (e.g. selection share).
     pub maps: Vec<(String, Vec<f64>)>,
+    /// Several networks side by side (e.g. each budget of a sweep).
+    pub panels: Option<crate::report::NetworkPanels>,
 }
 
 /// `report.html` of a network under the plan (see [`crate::report`]).
@@ -506,6 +509,7 @@ pub fn report_html(
         coverage: &assessment.coverage,
         stress: extras.stress.map(crate::study::stress::report_table),
         sweep: extras.sweep.map(crate::study::sweep::report_points),
+        panels: extras.panels,
     })
 }
 

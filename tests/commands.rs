@@ -145,6 +145,45 @@ fn assess_compare_and_sweep_agree_with_solve() {
     ]);
     let rows = read_csv(&sw.join("sweep.csv"));
     assert_eq!(rows.len(), 6);
+    // One benefit column per scenario of the plan (three in the demo), not a packed string.
+    let header = csv::Reader::from_path(sw.join("sweep.csv"))
+        .unwrap()
+        .headers()
+        .unwrap()
+        .clone();
+    let benefit_cols: Vec<usize> = (0..header.len())
+        .filter(|&i| header[i].starts_with("benefit_"))
+        .collect();
+    assert_eq!(benefit_cols.len(), 3, "{header:?}");
+    assert!(header.iter().any(|h| h == "benefit_ssp2-4.5"), "{header:?}");
+    for r in &rows {
+        for &i in &benefit_cols {
+            let b: f64 = r[i].parse().unwrap();
+            assert!(b >= 0.0 && !r[i].starts_with('-'), "{r:?}");
+        }
+    }
+    // One network per budget in networks/, its reserves' costs adding up to the row's cost.
+    for r in &rows {
+        let share: f64 = r[0].parse().unwrap();
+        let file = sw.join("networks").join(format!(
+            "{}.geojson",
+            driftplan::study::sweep::budget_stem(share)
+        ));
+        let gj: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(&file).unwrap()).unwrap();
+        let cost: f64 = gj["features"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|f| f["properties"]["cost"].as_f64().unwrap())
+            .sum();
+        let want: f64 = r[5].parse().unwrap();
+        assert!((cost - want).abs() <= 1e-3 * want.max(1.0), "{file:?}");
+    }
+    assert!(sw.join("networks/budget-2pct.geojson").exists());
+    let report = std::fs::read_to_string(sw.join("report.html")).unwrap();
+    assert!(report.contains("Network at each budget"));
+    assert_eq!(report.matches("class=\"map panel\"").count(), 6);
     let mut last = f64::NEG_INFINITY;
     for r in &rows {
         let objective: f64 = r[4].parse().unwrap();
@@ -163,6 +202,13 @@ fn assess_compare_and_sweep_agree_with_solve() {
     )
     .unwrap();
     assert_eq!(gj["features"].as_array().unwrap().len(), cells.len());
+    // Each cell carries its class, the same word as in selection-frequency.csv.
+    for (f, r) in gj["features"].as_array().unwrap().iter().zip(&freq) {
+        assert_eq!(f["properties"]["class"].as_str().unwrap(), &r[2]);
+    }
+    assert!(freq
+        .iter()
+        .all(|r| ["core", "frequent", "occasional", "never"].contains(&&r[2])));
 }
 
 #[test]

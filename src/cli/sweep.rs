@@ -60,9 +60,42 @@ fn sweep(
     let layers = freq.layers();
     let core = f_all.core();
     let empty = driftplan::features::FeatureTable::default();
-    // The report maps the largest budget's network, with the selection share beside it.
+    // The report maps the largest budget's network, with the selection share beside it, and
+    // every budget's network side by side; each is also written to networks/.
     let largest = &sw.runs[sw.runs.len() - 1];
     let shown = pipeline::assess_network(&inputs, &largest.solution.selected);
+    let per_budget: Vec<driftplan::assess::Assessment> = sw
+        .runs
+        .iter()
+        .map(|r| pipeline::assess_network(&inputs, &r.solution.selected))
+        .collect();
+    let mut network_files = Vec::new();
+    for (r, a) in sw.runs.iter().zip(&per_budget) {
+        network_files.push((
+            format!("{}.geojson", driftplan::study::sweep::budget_stem(r.share)),
+            export::geojson::network_geojson(&inputs.grid, a)?,
+        ));
+    }
+    let panels = driftplan::report::NetworkPanels {
+        title: "Network at each budget".into(),
+        note: "One map per budget of the sweep (also written as networks/budget-<share>pct.geojson); reserves in green, excluded cells tinted, required cells outlined in blue.".into(),
+        panels: sw
+            .runs
+            .iter()
+            .zip(&per_budget)
+            .map(|(r, a)| driftplan::report::NetworkPanel {
+                label: format!(
+                    "budget {:.1}%: cost {:.1}, {} of {} targets met, {} reserves",
+                    100.0 * r.share,
+                    r.cost,
+                    r.targets_met,
+                    r.met.len(),
+                    a.reserves.len()
+                ),
+                reserves: a.reserves.clone(),
+            })
+            .collect(),
+    };
     let files = vec![
         ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
         ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
@@ -72,7 +105,16 @@ fn sweep(
         ),
         (
             "selection-frequency.geojson",
-            export::geojson::cells_geojson(&inputs.grid, &layers, &empty, &core)?,
+            export::geojson::cells_geojson_with_text(
+                &inputs.grid,
+                &layers,
+                &[export::geojson::TextLayer {
+                    name: "class".into(),
+                    values: f_all.classes(),
+                }],
+                &empty,
+                &core,
+            )?,
         ),
         (
             "report.html",
@@ -106,10 +148,16 @@ fn sweep(
                         "selection share (sweep and scenario designs)".into(),
                         f_all.share.clone(),
                     )],
+                    panels: Some(panels),
                 },
             )?,
         ),
     ];
+    let network_files: Vec<(&str, String)> = network_files
+        .iter()
+        .map(|(n, t)| (n.as_str(), t.clone()))
+        .collect();
+    export::write_outputs(&out.join("networks"), &network_files)?;
     export::write_outputs(out, &files)?;
     println!(
         "{:>8} {:>10} {:>12} {:>9}  {:<10} gap",
@@ -125,6 +173,15 @@ fn sweep(
             r.met.len(),
             r.solution.status.as_str(),
             100.0 * r.solution.gap
+        );
+    }
+    for (a, b) in sw.cost_falls() {
+        println!(
+            "note: cost falls from {:.1} at {:.1}% to {:.1} at {:.1}%: the larger area budget admits a cheaper network of at least the same benefit (the plan's cost is not area)",
+            sw.runs[a].cost,
+            100.0 * sw.runs[a].share,
+            sw.runs[b].cost,
+            100.0 * sw.runs[b].share
         );
     }
     println!(

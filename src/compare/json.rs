@@ -30,6 +30,8 @@ struct FeatureOut<'a> {
 #[derive(Serialize)]
 struct ComparisonOut<'a> {
     networks: &'a [String],
+    ranking_rule: &'a str,
+    ranked: Vec<&'a str>,
     measures: Vec<MeasureOut<'a>>,
     features: Vec<FeatureOut<'a>>,
     caution: &'a str,
@@ -38,6 +40,9 @@ struct ComparisonOut<'a> {
 
 /// `compare.json`, pretty-printed, keys in this order:
 /// * `networks`: names, in the order every `values`/`held`/... array follows;
+/// * `ranking_rule`: how `best` is awarded ([`super::RANKING_RULE`]); `ranked`: the networks
+///   that meet the most targets, the only ones that can be best on a measure other than
+///   `targets_met`;
 /// * `measures`: `[{measure, better, values, best}]` where `measure` carries its unit
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
@@ -52,6 +57,8 @@ pub fn compare_json(c: &Comparison) -> String {
         |idx: &[usize]| -> Vec<&str> { idx.iter().map(|&i| c.networks[i].as_str()).collect() };
     let out = ComparisonOut {
         networks: &c.networks,
+        ranking_rule: super::RANKING_RULE,
+        ranked: names(&c.ranked),
         measures: c
             .measures
             .iter()
@@ -103,6 +110,8 @@ mod tests {
         let keys: Vec<&str> = v.as_object().unwrap().keys().map(String::as_str).collect();
         let mut want = vec![
             "networks",
+            "ranking_rule",
+            "ranked",
             "measures",
             "features",
             "caution",

@@ -64,11 +64,12 @@ pub struct Evaluation {
     pub within_budget: bool,
     /// Every required cell chosen and no excluded cell chosen.
     pub status_respected: bool,
-    /// All hard rules hold: cell status, budget, max gap, minimum size and, for min-cost,
-    /// every target.
+    /// All hard rules hold: cell status, budget, max gap, minimum size, for min-cost every
+    /// target, and a kept objective ([`Problem::keep_objective`]).
     pub feasible: bool,
     /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
-    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown).
+    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown);
+    /// the cost alone when the problem keeps an objective ([`Problem::keep_objective`]).
     pub objective: f64,
 }
 
@@ -157,12 +158,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         m.lone_cells(&problem.status, &problem.area_km2, selected)
     });
     let all_met = met.iter().all(|m| *m);
-    let feasible = status_respected
-        && within_budget
-        && gap.as_ref().is_none_or(|g| g.met)
-        && lone_cells.is_empty()
-        && (problem.objective == Objective::MaxBenefit || all_met);
-    let objective = match problem.objective {
+    let first = match problem.objective {
         Objective::MinCost => cost + penalty,
         Objective::MaxBenefit => {
             let benefits: Vec<f64> = scenarios.iter().map(|s| s.benefit).collect();
@@ -173,6 +169,27 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 combined - penalty
             }
         }
+    };
+    // A kept objective (lexicographic second stage) is checked with twice the solver's slack,
+    // so a network the solver accepted within its row tolerance is not called infeasible here.
+    let keeps = problem.keep_objective.is_none_or(|v| {
+        let slack = 2.0 * super::keep_slack(v);
+        if is_minimisation(problem) {
+            first <= v + slack
+        } else {
+            first >= v - slack
+        }
+    });
+    let feasible = status_respected
+        && within_budget
+        && gap.as_ref().is_none_or(|g| g.met)
+        && lone_cells.is_empty()
+        && (problem.objective == Objective::MaxBenefit || all_met)
+        && keeps;
+    let objective = if problem.keep_objective.is_some() {
+        cost
+    } else {
+        first
     };
     Evaluation {
         cost,
@@ -231,6 +248,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         }
     }
 

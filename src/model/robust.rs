@@ -198,6 +198,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         }
     }
 

@@ -49,6 +49,28 @@ pub struct ReportInput<'a> {
     pub stress: Option<StressTable>,
     /// The cost–benefit curve of a budget sweep, in budget order.
     pub sweep: Option<Vec<SweepPoint>>,
+    /// Several networks drawn side by side (each budget of a sweep), after the network map.
+    pub panels: Option<NetworkPanels>,
+}
+
+/// One network of several drawn side by side.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NetworkPanel {
+    /// Caption (e.g. `budget 10%: cost 812, 34 of 40 targets met`).
+    pub label: String,
+    /// Its reserves (`Assessment::reserves`).
+    pub reserves: Vec<Reserve>,
+}
+
+/// Networks drawn side by side under one heading.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NetworkPanels {
+    /// Section heading.
+    pub title: String,
+    /// One sentence under the heading (what the panels show).
+    pub note: String,
+    /// The networks, in display order.
+    pub panels: Vec<NetworkPanel>,
 }
 
 /// One cell of the stress table: a network designed for one scenario, evaluated in another.
@@ -128,6 +150,9 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         chosen,
         grid.len()
     );
+    if let Some(p) = &input.panels {
+        s.push_str(&panels_html(grid, input.status, p));
+    }
     if !input.feature_maps.is_empty() {
         s.push_str("<h2>Maps of derived features and layers</h2>\n<div class=\"maps\">");
         for (k, (name, values)) in input.feature_maps.iter().enumerate() {
@@ -182,6 +207,25 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
     Ok(s)
 }
 
+/// A heading, a note and small network maps side by side, each with its caption.
+pub(crate) fn panels_html(grid: &Grid, status: &[CellStatus], p: &NetworkPanels) -> String {
+    let mut s = format!(
+        "<h2>{}</h2>\n<p class=\"small\">{}</p>\n<div class=\"maps\">",
+        esc(&p.title),
+        esc(&p.note)
+    );
+    for panel in &p.panels {
+        let _ = write!(
+            s,
+            "<figure>{}<figcaption>{}</figcaption></figure>",
+            network_map::network_panel(grid, status, &panel.reserves, &panel.label),
+            esc(&panel.label)
+        );
+    }
+    s.push_str("</div>\n");
+    s
+}
+
 /// Checks every per-cell vector and the stress table's shape.
 fn check(input: &ReportInput) -> Result<(), ExportError> {
     let n = input.grid.len();
@@ -208,6 +252,17 @@ fn check(input: &ReportInput) -> Result<(), ExportError> {
                 expected: n,
                 got: bad as usize + 1,
             });
+        }
+    }
+    for panel in input.panels.iter().flat_map(|p| &p.panels) {
+        for r in &panel.reserves {
+            if let Some(&bad) = r.cells.iter().find(|&&c| c as usize >= n) {
+                return Err(ExportError::Length {
+                    what: format!("network `{}` (cell id {bad})", panel.label),
+                    expected: n,
+                    got: bad as usize + 1,
+                });
+            }
         }
     }
     if let Some(t) = &input.stress {
@@ -270,6 +325,7 @@ mod tests {
                     gap: 0.01,
                 },
             ]),
+            panels: None,
         }
     }
 
