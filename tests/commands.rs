@@ -110,6 +110,26 @@ fn assess_compare_and_sweep_agree_with_solve() {
         table.contains("3 networks compared: a, b, bigger"),
         "{table}"
     );
+    assert!(table.contains("Ranking: target coverage first"), "{table}");
+    let page = std::fs::read_to_string(cmp.join("report.html")).unwrap();
+    assert_eq!(page.matches("class=\"map panel\"").count(), 3);
+    assert!(page.contains("<h2>Measures</h2>") && page.contains("<h2>Features</h2>"));
+    // One network is refused, pointing at assess.
+    let one = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .arg("compare")
+        .arg(&plan)
+        .arg(solved.join("network.geojson"))
+        .arg("--out")
+        .arg(d.join("one"))
+        .output()
+        .unwrap();
+    assert!(!one.status.success());
+    let err = String::from_utf8_lossy(&one.stderr);
+    assert!(
+        err.contains("two or more networks") && err.contains("driftplan assess"),
+        "{err}"
+    );
+    assert!(!d.join("one").exists());
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(cmp.join("compare.json")).unwrap()).unwrap();
     for m in json["measures"].as_array().unwrap() {

@@ -8,6 +8,7 @@
 
 mod cells_path;
 mod chart;
+mod compare_page;
 mod coverage_chart;
 mod escape;
 mod feature_map;
@@ -15,6 +16,8 @@ mod frame;
 mod network_map;
 mod palette;
 mod tables;
+
+pub use compare_page::{compare_report_html, CompareReport};
 
 use crate::assess::{Coverage, Reserve};
 use crate::export::{ExportError, CAUTION};
