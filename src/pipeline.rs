@@ -43,6 +43,10 @@ pub enum RunError {
         /// Its latitude.
         lat: f64,
     },
+    /// Species with no habitat anywhere in the region (every scenario and year) that the plan
+    /// does not allow to be absent; one message per species, naming its key and layer.
+    #[error("{}", .0.join("\n"))]
+    SpeciesNowhere(Vec<String>),
     /// Derived climate features could not be built.
     #[error(transparent)]
     Climate(#[from] crate::climate::ClimateError),
@@ -211,6 +215,11 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         } else {
             RunError::Layers(errors)
         });
+    }
+
+    let refused = crate::features::absent::refused_species(&plan.species, &features);
+    if !refused.is_empty() {
+        return Err(RunError::SpeciesNowhere(refused));
     }
 
     let both: Vec<u32> = (0..grid.len())
@@ -423,10 +432,7 @@ pub fn run_facts(
         ),
     ));
     f.push(("reserves".into(), a.reserves.len().to_string()));
-    f.push((
-        "targets met".into(),
-        format!("{} of {}", a.targets_met, a.coverage.len()),
-    ));
+    f.push(("targets met".into(), crate::assess::targets_met_text(a)));
     f.push((
         "compactness ratio".into(),
         format!("{:.2} (1 = circle)", a.compactness_ratio),
@@ -495,6 +501,16 @@ pub fn report_html(
     extras: ReportExtras,
 ) -> Result<String, crate::export::ExportError> {
     let mut facts = run_facts(plan, extras.solution, assessment);
+    facts.extend(
+        crate::features::absent::absent_notes(&inputs.features)
+            .into_iter()
+            .map(|n| ("absent".to_string(), n)),
+    );
+    facts.extend(
+        crate::features::derive::clipped_notes(&inputs.edge_shifts)
+            .into_iter()
+            .map(|n| ("clipped edge".to_string(), n)),
+    );
     facts.extend(extras.facts);
     let mut feature_maps = extras.maps;
     feature_maps.extend(derived_feature_maps(inputs));

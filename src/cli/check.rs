@@ -29,5 +29,12 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         count(CellStatus::Required),
         count(CellStatus::Excluded),
     );
+    let absent = driftplan::features::absent::absent_notes(&inputs.features);
+    if !absent.is_empty() {
+        println!("  absent (no amount in the region; reported as absent, never counted as met):");
+        for note in absent {
+            println!("    {note}");
+        }
+    }
     Ok(())
 }

@@ -136,6 +136,7 @@ fn compare(
         println!(
             "stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
         );
+        println!("({})", export::BENEFIT);
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("outputs {}", out.display());

@@ -24,6 +24,7 @@ struct FeatureOut<'a> {
     held: &'a [f64],
     share_of_target: &'a [f64],
     met: &'a [bool],
+    absent: bool,
     best: Vec<&'a str>,
 }
 
@@ -47,8 +48,8 @@ struct ComparisonOut<'a> {
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
 /// * `features`: `[{feature, kind, species, scenario, year, total, target, held,
-///   share_of_target, met, best}]`, amounts in the feature's own unit, `share_of_target` =
-///   min(held/target, 1);
+///   share_of_target, met, absent, best}]`, amounts in the feature's own unit,
+///   `share_of_target` = min(held/target, 1) (0 for an absent feature);
 /// * `caution`, `driftplan_version`.
 ///
 /// Non-finite numbers are written as `null`.
@@ -83,6 +84,7 @@ pub fn compare_json(c: &Comparison) -> String {
                 held: &f.held,
                 share_of_target: &f.share_of_target,
                 met: &f.met,
+                absent: f.absent,
                 best: names(&f.best),
             })
             .collect(),

@@ -81,8 +81,10 @@ pub struct FeatureRow {
     pub held: Vec<f64>,
     /// min(held/target, 1) per network (0–1; 1 for a zero target), see [`held_share`].
     pub share_of_target: Vec<f64>,
-    /// Whether the target is met, per network.
+    /// Whether the target is met, per network (never when absent).
     pub met: Vec<bool>,
+    /// The feature has no amount anywhere in the region: absent, for every network alike.
+    pub absent: bool,
     /// Indices of the networks holding the most of it (ties together, ascending).
     pub best: Vec<usize>,
 }
@@ -179,6 +181,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
                 target: c.target + 0.0,
                 share_of_target: rows.iter().map(|r| held_share(r)).collect(),
                 met: rows.iter().map(|r| r.met).collect(),
+                absent: c.absent,
                 best: rank::best_of(&held, Better::Higher),
                 held,
             }

@@ -128,7 +128,13 @@ pub fn compare_table(c: &Comparison) -> String {
         .iter()
         .filter(|f| f.met.iter().any(|&m| m) && !f.met.iter().all(|&m| m))
         .collect();
+    let absent = c.features.iter().filter(|f| f.absent).count();
     out.push('\n');
+    if absent > 0 {
+        out.push_str(&format!(
+            "{absent} features are absent (no amount in the region): no network meets them.\n"
+        ));
+    }
     if split.is_empty() {
         out.push_str(&format!(
             "Every network meets the same targets ({} features).\n",

@@ -47,6 +47,43 @@ pub struct EdgeShift {
     pub leading_km_per_decade: Option<f64>,
     /// Least-squares shift of the trailing edge, poleward positive. Units: km/decade.
     pub trailing_km_per_decade: Option<f64>,
+    /// The leading edge lies within one edge band of the region's poleward limit in some year
+    /// ([`super::edges::edge_clipped`]): its shift measures the region, not the species.
+    pub leading_clipped: bool,
+    /// The trailing edge lies within one edge band of the region's equatorward limit.
+    pub trailing_clipped: bool,
+}
+
+impl EdgeShift {
+    /// `leading`, `trailing`, `both` or empty: the `clipped` column of `edge-shifts.csv`.
+    pub fn clipped_word(&self) -> &'static str {
+        match (self.leading_clipped, self.trailing_clipped) {
+            (true, true) => "both",
+            (true, false) => "leading",
+            (false, true) => "trailing",
+            (false, false) => "",
+        }
+    }
+}
+
+/// One sentence per clipped edge, e.g. "the leading edge of cod in ssp5-8.5 lies within one
+/// edge band of the region's poleward limit: its shift measures the region, not the species".
+pub fn clipped_notes(shifts: &[EdgeShift]) -> Vec<String> {
+    let mut out = Vec::new();
+    for s in shifts {
+        for (clipped, edge, side) in [
+            (s.leading_clipped, "leading", "poleward"),
+            (s.trailing_clipped, "trailing", "equatorward"),
+        ] {
+            if clipped {
+                out.push(format!(
+                    "the {edge} edge of {} in {} lies within one edge band of the region's {side} limit: its shift measures the region, not the species",
+                    s.species, s.scenario
+                ));
+            }
+        }
+    }
+    out
 }
 
 /// Everything the `[climate]` section derives.
@@ -180,7 +217,8 @@ fn above_share(grid: &Grid, list: &[(u32, f64)], share: f64) -> Vec<(u32, f64)> 
 }
 
 fn sparse_total(amounts: &[(u32, f64)]) -> f64 {
-    amounts.iter().map(|a| a.1).sum()
+    // An empty f64 sum is −0.0 (an absent feature); + 0.0 keeps "-0" out of outputs.
+    amounts.iter().map(|a| a.1).sum::<f64>() + 0.0
 }
 
 /// What is shared by every feature a seam call makes.
@@ -701,6 +739,8 @@ impl ScenarioCtx<'_> {
                     poleward_sign: f64::NAN,
                     leading_km_per_decade: None,
                     trailing_km_per_decade: None,
+                    leading_clipped: false,
+                    trailing_clipped: false,
                 });
                 continue;
             }
@@ -711,6 +751,20 @@ impl ScenarioCtx<'_> {
                 poleward_sign: edges.poleward_sign,
                 leading_km_per_decade: edges.leading_shift_km_per_decade,
                 trailing_km_per_decade: edges.trailing_shift_km_per_decade,
+                leading_clipped: super::edges::edge_clipped(
+                    &edges.leading_km,
+                    &self.edge_axis.km,
+                    edges.poleward_sign,
+                    params.band_km,
+                    true,
+                ),
+                trailing_clipped: super::edges::edge_clipped(
+                    &edges.trailing_km,
+                    &self.edge_axis.km,
+                    edges.poleward_sign,
+                    params.band_km,
+                    false,
+                ),
             });
             if let Some(e) = &plan.leading_edge {
                 out.features.extend(self.maker.per_year(

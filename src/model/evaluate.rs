@@ -33,10 +33,12 @@ pub struct ScenarioResult {
     pub best: Option<f64>,
     /// Bₛ* − Bₛ when Bₛ* is known. Units: weighted targets.
     pub regret: Option<f64>,
-    /// Targets of this scenario's features that are met.
+    /// Targets of this scenario's features that are met (absent features never are).
     pub targets_met: usize,
-    /// Number of this scenario's features.
+    /// Number of this scenario's features (absent ones included).
     pub targets: usize,
+    /// This scenario's features with no amount anywhere (absent: never met).
+    pub absent: usize,
 }
 
 /// Everything about a network, recomputed from raw amounts.
@@ -48,8 +50,11 @@ pub struct Evaluation {
     pub area_km2: f64,
     /// Amount of each feature held (feature order).
     pub held: Vec<f64>,
-    /// Whether each feature's target is met (up to [`TOLERANCE`]).
+    /// Whether each feature's target is met (up to [`TOLERANCE`]); never for an absent one.
     pub met: Vec<bool>,
+    /// Whether each feature is absent: no positive amount in any cell (e.g. a species gone
+    /// from the region). Absent features are never met, and never make a network infeasible.
+    pub absent: Vec<bool>,
     /// Number of features whose target is met.
     pub targets_met: usize,
     /// Per-scenario benefit, regret and targets met.
@@ -98,11 +103,17 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 .sum()
         })
         .collect();
+    let absent: Vec<bool> = problem
+        .features
+        .iter()
+        .map(|f| !f.amounts.iter().any(|(_, a)| *a > 0.0))
+        .collect();
     let met: Vec<bool> = problem
         .features
         .iter()
         .zip(&held)
-        .map(|(f, h)| at_least(*h, f.target))
+        .zip(&absent)
+        .map(|((f, h), &gone)| !gone && at_least(*h, f.target))
         .collect();
     let credit = |k: usize| -> f64 {
         let f = &problem.features[k];
@@ -132,6 +143,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 regret: b_star.map(|b| b - benefit),
                 targets_met: ks.iter().filter(|&&k| met[k]).count(),
                 targets: ks.len(),
+                absent: ks.iter().filter(|&&k| absent[k]).count(),
             }
         })
         .collect();
@@ -157,7 +169,8 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     let lone_cells = problem.min_reserve.as_ref().map_or_else(Vec::new, |m| {
         m.lone_cells(&problem.status, &problem.area_km2, selected)
     });
-    let all_met = met.iter().all(|m| *m);
+    // An absent feature's target is zero, so it binds nothing (it is not met either).
+    let all_met = met.iter().zip(&absent).all(|(m, a)| *m || *a);
     let first = match problem.objective {
         Objective::MinCost => cost + penalty,
         Objective::MaxBenefit => {
@@ -197,6 +210,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         targets_met: met.iter().filter(|m| **m).count(),
         held,
         met,
+        absent,
         scenarios,
         exposed_edge_km: exposed,
         gap,

@@ -126,7 +126,7 @@ fn measure_table(c: &Comparison) -> String {
 /// when held).
 fn feature_table(c: &Comparison) -> String {
     let mut s = String::from(
-        "<h2>Features</h2>\n<p class=\"small\">Each network's holding as a share of the feature's target; met = target held.</p>\n<table class=\"features\"><thead><tr><th scope=\"col\">feature</th><th scope=\"col\">scenario</th><th scope=\"col\">year</th><th scope=\"col\">target</th>",
+        "<h2>Features</h2>\n<p class=\"small\">Each network's holding as a share of the feature's target; met = target held; absent = no amount in the region, never met.</p>\n<table class=\"features\"><thead><tr><th scope=\"col\">feature</th><th scope=\"col\">scenario</th><th scope=\"col\">year</th><th scope=\"col\">target</th>",
     );
     for name in &c.networks {
         let _ = write!(s, "<th scope=\"col\">{}</th>", esc(name));
@@ -142,7 +142,9 @@ fn feature_table(c: &Comparison) -> String {
             esc(&value_label(f.target))
         );
         for (share, &met) in f.share_of_target.iter().zip(&f.met) {
-            if met {
+            if f.absent {
+                s.push_str("<td>absent</td>");
+            } else if met {
                 s.push_str("<td>met</td>");
             } else {
                 let _ = write!(s, "<td>{:.0}%</td>", 100.0 * share);

@@ -20,7 +20,7 @@ mod tables;
 pub use compare_page::{compare_report_html, CompareReport};
 
 use crate::assess::{Coverage, Reserve};
-use crate::export::{ExportError, CAUTION};
+use crate::export::{ExportError, BENEFIT, CAUTION};
 use crate::grid::Grid;
 use crate::model::CellStatus;
 use chart::{line_chart, Chart, Series};
@@ -177,12 +177,16 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         s.push_str("</div>\n");
     }
     if let Some(t) = &input.stress {
-        s.push_str("<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets met and benefit. ✓ all met, △ at least half, ✗ fewer.</p>\n");
+        let _ = writeln!(s, "<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets met and benefit. ✓ all met, △ at least half, ✗ fewer. {}.</p>", esc(&capital(BENEFIT)));
         s.push_str(&tables::stress_table(t));
         s.push('\n');
     }
     if let Some(points) = &input.sweep {
-        s.push_str("<h2>Budget sweep</h2>\n");
+        let _ = writeln!(
+            s,
+            "<h2>Budget sweep</h2>\n<p class=\"small\">The best benefit each budget buys, at the least cost for that benefit. {}.</p>",
+            esc(&capital(BENEFIT))
+        );
         let series = [Series {
             label: "benefit".into(),
             points: points
@@ -227,6 +231,15 @@ pub(crate) fn panels_html(grid: &Grid, status: &[CellStatus], p: &NetworkPanels)
     }
     s.push_str("</div>\n");
     s
+}
+
+/// `text` with its first letter in upper case (a sentence made of a definition).
+fn capital(text: &str) -> String {
+    let mut c = text.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
 }
 
 /// Checks every per-cell vector and the stress table's shape.

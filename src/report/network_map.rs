@@ -341,6 +341,7 @@ mod tests {
             reserves: res.clone(),
             exposed_edge_km: 0.0,
             targets_met: 0,
+            targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 11,
             compactness_ratio: f64::NAN,

@@ -171,7 +171,8 @@ pub fn sweep(
             // meets them all; under worst-case and least-regret a network of the best benefit
             // may miss targets of the easier scenarios although the budget buys them, so the
             // least-cost every-target solve is tried and an infeasible one means no.
-            let every_target = if e.targets_met == e.met.len() {
+            let absent = e.absent.iter().filter(|a| **a).count();
+            let every_target = if e.targets_met + absent == e.met.len() {
                 Some(Highs::default().solve(&q, &one_thread)?)
             } else if matches!(
                 p.robustness,
