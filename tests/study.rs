@@ -332,3 +332,55 @@ fn sweep_is_lexicographic_and_monotone_against_enumeration() {
         assert_monotone(&s, rule.as_str());
     }
 }
+
+#[test]
+fn kept_objective_solves_match_brute_force_and_heuristics_refuse_them() {
+    // For every max-benefit rule: the best objective by enumeration, then the least cost that
+    // keeps it, by HiGHS and by enumeration (which shares only model::evaluate with HiGHS).
+    for rule in [
+        Robustness::EveryScenario,
+        Robustness::WorstCase,
+        Robustness::Expected,
+        Robustness::LeastRegret,
+    ] {
+        let mut p = instance(3);
+        p.robustness = rule;
+        let first = BruteForce.solve(&p, &opts()).unwrap();
+        let q = Problem {
+            keep_objective: Some(first.objective),
+            scenario_best: first.scenario_best.clone(),
+            ..p.clone()
+        };
+        let h = driftplan::solve::ilp::Highs::default()
+            .solve(&q, &opts())
+            .unwrap();
+        let b = BruteForce.solve(&q, &opts()).unwrap();
+        assert!(
+            close(h.objective, b.objective),
+            "{}: {} vs {}",
+            rule.as_str(),
+            h.objective,
+            b.objective
+        );
+        // The objective of a kept solve is the cost; the kept objective holds within slack.
+        let scored = evaluate(
+            &Problem {
+                scenario_best: first.scenario_best.clone(),
+                ..p.clone()
+            },
+            &h.selected,
+        );
+        assert!(close(h.objective, scored.cost), "{}", rule.as_str());
+        assert!(
+            close(scored.objective, first.objective),
+            "{}",
+            rule.as_str()
+        );
+        // A kept objective never costs more than the first network.
+        assert!(h.objective <= evaluate(&p, &first.selected).cost + 1e-9);
+        let e = driftplan::solve::greedy::Greedy
+            .solve(&q, &opts())
+            .unwrap_err();
+        assert!(e.to_string().contains("kept objective"), "{e}");
+    }
+}

@@ -38,7 +38,7 @@ fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Cov
     let total = f.total + 0.0;
     let target = f.target.amount(total) + 0.0;
     // No amount anywhere: absent, never met (a 0 ≥ 0 comparison would call it met).
-    let absent = !(total > 0.0);
+    let absent = crate::features::absent::is_absent(f);
     let met = !absent && held >= target - MET_REL_TOL * target.abs();
     Coverage {
         feature: f.name.clone(),

@@ -72,7 +72,8 @@ fn and_list(items: &[String]) -> String {
 /// ssp5-8.5 in 2070 and 2090". Empty when nothing is absent.
 pub fn absent_notes(table: &FeatureTable) -> Vec<String> {
     // (species, scenario index) → years, in first-appearance order.
-    let mut habitat: Vec<((String, Option<usize>), Vec<String>)> = Vec::new();
+    type SpeciesScenario = (String, Option<usize>);
+    let mut habitat: Vec<(SpeciesScenario, Vec<String>)> = Vec::new();
     let mut other: Vec<String> = Vec::new();
     for f in table.features.iter().filter(|f| is_absent(f)) {
         match (&f.kind, &f.species) {

@@ -210,7 +210,17 @@ pub fn sweep(
                         keep_objective: Some(e.objective),
                         ..p.clone()
                     };
-                    let cheap = Highs::default().solve(&q, &one_thread)?;
+                    // The benefit stage's network meets the kept row, so the cost stage cannot be
+                    // infeasible; if the solver finds no network in its time (it gets no warm
+                    // start: greedy knows no kept row), the benefit stage's network stands.
+                    let cheap = match Highs::default().solve(&q, &one_thread) {
+                        Ok(c) => c,
+                        Err(SolveError::Solver(_)) => crate::solve::Solution {
+                            gap: f64::NAN,
+                            ..first.clone()
+                        },
+                        Err(other) => return Err(other),
+                    };
                     let kept = evaluate(&p, &cheap.selected);
                     // The benefit stage's status, bound and gap stand: the second stage only
                     // chooses among networks with (within slack) the same benefit.
