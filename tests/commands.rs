@@ -171,6 +171,7 @@ fn assess_compare_and_sweep_agree_with_solve() {
         .headers()
         .unwrap()
         .clone();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
     let benefit_cols: Vec<usize> = (0..header.len())
         .filter(|&i| header[i].starts_with("benefit_"))
         .collect();
@@ -197,7 +198,7 @@ fn assess_compare_and_sweep_agree_with_solve() {
             .iter()
             .map(|f| f["properties"]["cost"].as_f64().unwrap())
             .sum();
-        let want: f64 = r[5].parse().unwrap();
+        let want: f64 = r[col("cost")].parse().unwrap();
         assert!((cost - want).abs() <= 1e-3 * want.max(1.0), "{file:?}");
     }
     assert!(sw.join("networks/budget-2pct.geojson").exists());
@@ -206,10 +207,34 @@ fn assess_compare_and_sweep_agree_with_solve() {
     assert_eq!(report.matches("class=\"map panel\"").count(), 6);
     let mut last = f64::NEG_INFINITY;
     for r in &rows {
-        let objective: f64 = r[4].parse().unwrap();
-        let gap: f64 = r[3].parse().unwrap();
+        let objective: f64 = r[col("objective")].parse().unwrap();
+        let gap: f64 = r[col("gap")].parse().unwrap();
         assert!(objective >= last - gap * objective.abs() - 1e-9, "{r:?}");
         last = objective;
+    }
+    // Budgets measured in cost: cost and benefit both never fall (study::sweep module doc;
+    // checked against enumeration in tests/study.rs).
+    let swc = d.join("sweep-cost");
+    run(&[
+        os("sweep"),
+        plan.as_os_str(),
+        os("--budgets"),
+        os("4%,6%,...,12%"),
+        os("--budget-of"),
+        os("cost"),
+        os("--out"),
+        swc.as_os_str(),
+    ]);
+    let crows = read_csv(&swc.join("sweep.csv"));
+    for w in crows.windows(2) {
+        let (a, b) = (&w[0], &w[1]);
+        let num = |r: &csv::StringRecord, c: &str| -> f64 { r[col(c)].parse().unwrap() };
+        assert!(num(b, "cost") >= num(a, "cost") - 1e-6, "{a:?} → {b:?}");
+        assert!(
+            num(b, "objective") >= num(a, "objective") - 1e-6,
+            "{a:?} → {b:?}"
+        );
+        assert!(num(a, "cost") <= num(a, "budget_cost") + 1e-6);
     }
     let freq = read_csv(&sw.join("selection-frequency.csv"));
     assert_eq!(freq.len(), cells.len());

@@ -178,8 +178,14 @@ fn sweep_benefit_grows_with_budget_and_matches_enumeration() {
 /// within 1e-9 of it. Returns (objective, cost).
 fn lexicographic_by_enumeration(p: &Problem, budget_km2: f64) -> (f64, f64) {
     let mut q = p.clone();
-    q.objective = Objective::MaxBenefit;
     q.budget.max_area_km2 = Some(budget_km2);
+    enumerate_sweep_answer(&q)
+}
+
+/// As [`lexicographic_by_enumeration`] with the problem's own budget.
+fn enumerate_sweep_answer(q: &Problem) -> (f64, f64) {
+    let mut q = q.clone();
+    q.objective = Objective::MaxBenefit;
     let n = q.n_cells();
     let all: Vec<(f64, f64, bool)> = (0u32..1 << n)
         .filter_map(|m| {
@@ -331,6 +337,72 @@ fn sweep_is_lexicographic_and_monotone_against_enumeration() {
         let s = assert_lexicographic(&p, &shares, &format!("{} cost = area", rule.as_str()));
         assert_monotone(&s, rule.as_str());
     }
+}
+
+#[test]
+fn cost_budgets_never_let_cost_fall() {
+    // The seeded instance's costs are not its areas; measured in cost, the sweep's cost is
+    // monotone under every rule (module doc of study::sweep), and each run is the enumerated
+    // answer at that cost budget.
+    let shares = [0.1, 0.2, 0.3, 0.45, 0.6, 0.8, 1.0];
+    for rule in [
+        Robustness::EveryScenario,
+        Robustness::WorstCase,
+        Robustness::Expected,
+    ] {
+        let mut p = instance(7);
+        p.robustness = rule;
+        p.budget.max_area_km2 = None;
+        let total: f64 = p.cost.iter().sum();
+        let s = driftplan::study::sweep_of(
+            &p,
+            &shares,
+            driftplan::study::SweepBudget::Cost(total),
+            &opts(),
+            &|| {},
+        )
+        .unwrap();
+        for r in &s.runs {
+            assert!(r.budget_km2.is_nan() && close(r.budget_cost, r.share * total));
+            assert!(r.cost <= r.budget_cost + 1e-9);
+            let mut q = p.clone();
+            q.budget.max_cost = Some(r.budget_cost);
+            let (benefit, cost) = enumerate_sweep_answer(&q);
+            assert!(
+                close(r.solution.objective, benefit),
+                "{} {}",
+                rule.as_str(),
+                r.share
+            );
+            assert!(
+                close(r.cost, cost),
+                "{} {}: {} vs {cost}",
+                rule.as_str(),
+                r.share,
+                r.cost
+            );
+        }
+        assert_monotone(&s, rule.as_str());
+    }
+    // A required cell costing more than the smallest budget: the error names the budget and
+    // where to start. Hand: tiny() costs 15 in all; cell 2 costs 4 = 26.7% of it.
+    let mut p = tiny();
+    p.status[2] = CellStatus::Required;
+    let e = driftplan::study::sweep_of(
+        &p,
+        &[0.2, 0.5],
+        driftplan::study::SweepBudget::Cost(15.0),
+        &opts(),
+        &|| {},
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("budget 20.0% (3.0)")
+            && e.contains("(4.0, 26.7% of the cost)")
+            && e.contains("at least 26.7%"),
+        "{e}"
+    );
 }
 
 #[test]

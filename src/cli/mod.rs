@@ -75,9 +75,11 @@ enum Command {
     /// One max-benefit solve per budget: the cost–benefit curve, the budget at which each
     /// target is first met, and how often each cell is chosen.
     ///
-    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson
-    /// and report.html. Budgets are shares of the region's sea area; `...` continues an even
-    /// step (`5%,10%,...,40%`).
+    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson,
+    /// networks/budget-<share>pct.geojson (one per budget) and report.html. Budgets are shares
+    /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
+    /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
+    /// for that benefit.
     Sweep(sweep::Args),
 }
 

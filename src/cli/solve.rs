@@ -95,7 +95,9 @@ pub(crate) fn solve(
         println!(
             "  stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
         );
-        println!("  ({})", export::BENEFIT);
+        if plan.objective != driftplan::model::Objective::MaxBenefit {
+            println!("  ({})", export::BENEFIT);
+        }
         for line in driftplan::study::stress::stress_table(m).lines() {
             println!("    {line}");
         }

@@ -13,6 +13,10 @@ pub(crate) struct Args {
     /// Budgets, e.g. `5%,10%,...,40%` or `0.05,0.1`.
     #[arg(long, default_value = "5%,10%,...,40%")]
     budgets: String,
+    /// What the budgets are shares of: the region's sea `area`, or its total `cost` (the
+    /// plan's cost summed over every cell; cost then never falls as the budget grows).
+    #[arg(long, default_value = "area", value_parser = ["area", "cost"])]
+    budget_of: String,
     /// Output folder.
     #[arg(long)]
     out: PathBuf,
@@ -21,12 +25,20 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
-    sweep(&a.plan, &a.budgets, &a.out, &a.solver, progress)
+    sweep(
+        &a.plan,
+        &a.budgets,
+        &a.budget_of,
+        &a.out,
+        &a.solver,
+        progress,
+    )
 }
 
 fn sweep(
     plan_path: &Path,
     budgets: &str,
+    budget_of: &str,
     out: &Path,
     solver: &SolverArgs,
     progress: &Progress,
@@ -37,20 +49,24 @@ fn sweep(
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
+    let of = if budget_of == "cost" {
+        driftplan::study::SweepBudget::Cost(inputs.cost.iter().sum())
+    } else {
+        driftplan::study::SweepBudget::Area(inputs.grid.sea_area_km2)
+    };
+    let what = if budget_of == "cost" {
+        "the region's total cost"
+    } else {
+        "the sea"
+    };
     progress.say(&format!(
-        "sweep: {} budgets from {:.1}% to {:.1}% of the sea, solved in parallel",
+        "sweep: {} budgets from {:.1}% to {:.1}% of {what}, solved in parallel",
         shares.len(),
         100.0 * shares[0],
         100.0 * shares[shares.len() - 1]
     ));
     let bar = progress.bar(shares.len() as u64, "budgets");
-    let sw = driftplan::study::sweep(
-        &problem,
-        &shares,
-        inputs.grid.sea_area_km2,
-        &options,
-        &|| bar.inc(1),
-    )?;
+    let sw = driftplan::study::sweep_of(&problem, &shares, of, &options, &|| bar.inc(1))?;
     bar.finish_and_clear();
     // Scenario-specific designs at the plan's own budget, for the frequency layer.
     let matrix = stress(&problem, &[], &options, false, progress)?;
@@ -131,7 +147,7 @@ fn sweep(
                         (
                             "network shown".into(),
                             format!(
-                                "the largest budget, {:.1}% of the sea",
+                                "the largest budget, {:.1}% of {what}",
                                 100.0 * largest.share
                             ),
                         ),
@@ -177,7 +193,7 @@ fn sweep(
     }
     for (a, b) in sw.cost_falls() {
         println!(
-            "note: cost falls from {:.1} at {:.1}% to {:.1} at {:.1}%: the larger area budget admits a cheaper network of at least the same benefit (the plan's cost is not area)",
+            "note: cost falls from {:.1} at {:.1}% to {:.1} at {:.1}%: the larger area budget admits a cheaper network of at least the same benefit (the plan's cost is not area; `--budget-of cost` measures budgets in cost, where cost cannot fall)",
             sw.runs[a].cost,
             100.0 * sw.runs[a].share,
             sw.runs[b].cost,

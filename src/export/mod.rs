@@ -29,7 +29,7 @@ who use the sea.";
 
 /// What "benefit" means wherever it is shown (terminal, report, README): the score that
 /// max-benefit maximises ([`crate::model::robust`]).
-pub const BENEFIT: &str = "benefit = weighted targets met: each feature counts its weight times the share of its target held (at most 1), so with unit weights a met target counts 1 and a half-met one 0.5; `benefit 103.3 of 124` means 103.3 of the 124 that meeting every target would score";
+pub const BENEFIT: &str = "benefit = weighted targets met: each feature scores its weight times the share of its target held (at most 1), so a half-met target of weight 1 scores 0.5; `of N` is the score of every target met";
 
 /// Errors of the export stage. Each names the file or the item that could not be written.
 #[derive(Debug, thiserror::Error)]

@@ -5,11 +5,12 @@
 //! * a smaller one is solved lexicographically: the best benefit of the plan's rule first,
 //!   then the least cost at that benefit ([`Problem::keep_objective`]),
 //!
-//! so no budget spends cost that buys nothing. When cost is the cells' area, cost then never
-//! falls as the budget grows (a larger budget's network either fits the smaller budget, and
-//! then buys no more and costs no less, or is larger than the smaller budget, which bounds the
-//! smaller network's cost). With another cost layer a larger area budget can admit a cheaper
-//! network of the same benefit; [`Sweep::cost_falls`] lists where that happens.
+//! so no budget spends cost that buys nothing. Measured in cost ([`SweepBudget::Cost`]), cost
+//! then never falls as the budget grows: a larger budget's network either fits the smaller
+//! budget, and then buys no more and costs no less, or costs more than the smaller budget,
+//! which bounds the smaller network's cost. The same holds for area budgets when cost is the
+//! cells' area. With an area budget and another cost layer, a larger area budget can admit a
+//! cheaper network of the same benefit; [`Sweep::cost_falls`] lists where that happens.
 //! Budgets are solved in parallel, one solver thread each, and collected in budget order, so
 //! the result does not depend on the number of threads (unless a time limit cuts solves short).
 
@@ -19,13 +20,35 @@ use crate::model::{evaluate, Objective, Problem, Robustness};
 use crate::solve::ilp::Highs;
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
 
+/// What a sweep's budget shares are shares of.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SweepBudget {
+    /// Of the region's sea area (`budget.max_area_km2` per run). Units: km².
+    Area(f64),
+    /// Of the whole region's cost (`budget.max_cost` per run): with the budget in the cost's
+    /// own unit, cost never falls as the budget grows (module doc). Units: the plan's cost.
+    Cost(f64),
+}
+
+impl SweepBudget {
+    /// The word used in outputs: `area` or `cost`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            SweepBudget::Area(_) => "area",
+            SweepBudget::Cost(_) => "cost",
+        }
+    }
+}
+
 /// One budget's solve.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SweepRun {
-    /// Budget as a share of the region's sea area (0–1).
+    /// Budget as a share of the region's sea area or cost (0–1, see [`SweepBudget`]).
     pub share: f64,
-    /// The same budget as area. Units: km².
+    /// The budget as area (NaN when the budget is a share of cost). Units: km².
     pub budget_km2: f64,
+    /// The budget as cost (NaN when the budget is a share of area).
+    pub budget_cost: f64,
     /// The solve (objective = combined benefit of the plan's rule, minus any edge penalty).
     pub solution: Solution,
     /// Cost of the network.
@@ -63,9 +86,9 @@ impl Sweep {
 
 impl Sweep {
     /// Consecutive budgets `(smaller, larger)` (indices into `runs`) where the cost falls as
-    /// the budget grows by more than round-off. Empty when cost is the cells' area (module
-    /// doc); otherwise worth telling the planner: the smaller budget's network costs more than
-    /// a network of at least its benefit that needs more area.
+    /// the budget grows by more than round-off. Empty for cost budgets and when cost is the
+    /// cells' area (module doc); otherwise worth telling the planner: the smaller budget's
+    /// network costs more than a network of at least its benefit that needs more area.
     pub fn cost_falls(&self) -> Vec<(usize, usize)> {
         (1..self.runs.len())
             .filter(|&i| {
@@ -150,7 +173,47 @@ pub fn sweep(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Sweep, SolveError> {
+    sweep_of(
+        problem,
+        shares,
+        SweepBudget::Area(sea_area_km2),
+        options,
+        on_solved,
+    )
+}
+
+/// [`sweep`] with the budget shares taken of the region's area or of its total cost. A cost
+/// budget replaces the plan's `max_cost` and keeps its area limit; an area budget replaces the
+/// area limit and keeps `max_cost`.
+pub fn sweep_of(
+    problem: &Problem,
+    shares: &[f64],
+    of: SweepBudget,
+    options: &SolveOptions,
+    on_solved: &(dyn Fn() + Sync),
+) -> Result<Sweep, SolveError> {
     problem.validate()?;
+    // Required cells are in every network: a budget below their use cannot be solved, and
+    // the planner needs to hear which budget and where to start instead.
+    let (used, total, unit) = match of {
+        SweepBudget::Area(total) => (
+            required_sum(problem, &problem.area_km2),
+            total,
+            "the sea area",
+        ),
+        SweepBudget::Cost(total) => (required_sum(problem, &problem.cost), total, "the cost"),
+    };
+    if let Some(&low) = shares.iter().find(|&&s| s * total < used) {
+        return Err(SolveError::Model(crate::model::ModelError::Combination(
+            format!(
+                "budget {:.1}% ({:.1}) is less than the required cells alone use ({used:.1}, {:.1}% of {unit}); start the sweep at a budget of at least {:.1}%",
+                100.0 * low,
+                low * total,
+                100.0 * used / total,
+                (1000.0 * used / total).ceil() / 10.0
+            ),
+        )));
+    }
     let one_thread = SolveOptions {
         threads: Some(1),
         ..options.clone()
@@ -161,7 +224,10 @@ pub fn sweep(
             let mut p = problem.clone();
             p.objective = Objective::MaxBenefit;
             p.scenario_best = None;
-            p.budget.max_area_km2 = Some(share * sea_area_km2);
+            match of {
+                SweepBudget::Area(total) => p.budget.max_area_km2 = Some(share * total),
+                SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
+            }
             let first = Highs::default().solve(&p, &one_thread)?;
             let e = evaluate(&p, &first.selected);
             let mut q = p.clone();
@@ -237,7 +303,14 @@ pub fn sweep(
             on_solved();
             Ok(SweepRun {
                 share,
-                budget_km2: share * sea_area_km2,
+                budget_km2: match of {
+                    SweepBudget::Area(total) => share * total,
+                    SweepBudget::Cost(_) => f64::NAN,
+                },
+                budget_cost: match of {
+                    SweepBudget::Cost(total) => share * total,
+                    SweepBudget::Area(_) => f64::NAN,
+                },
                 cost: e.cost,
                 area_km2: e.area_km2,
                 targets_met: e.targets_met,
@@ -253,10 +326,22 @@ pub fn sweep(
     })
 }
 
+/// Sum of `values` over the required cells.
+fn required_sum(problem: &Problem, values: &[f64]) -> f64 {
+    problem
+        .status
+        .iter()
+        .zip(values)
+        .filter(|(s, _)| **s == crate::model::CellStatus::Required)
+        .map(|(_, v)| v)
+        .sum()
+}
+
 /// Column names of `sweep.csv` before the per-scenario benefit columns.
-pub const SWEEP_COLUMNS: [&str; 9] = [
+pub const SWEEP_COLUMNS: [&str; 10] = [
     "budget_share",
     "budget_km2",
+    "budget_cost",
     "status",
     "gap",
     "objective",
@@ -282,7 +367,17 @@ pub fn sweep_columns(s: &Sweep) -> Vec<String> {
     h
 }
 
-/// `sweep.csv`: the cost–benefit curve, one row per budget, columns [`sweep_columns`].
+/// Three decimals, or empty when not a number.
+fn num3(v: f64) -> String {
+    if v.is_nan() {
+        String::new()
+    } else {
+        format!("{v:.3}")
+    }
+}
+
+/// `sweep.csv`: the cost–benefit curve, one row per budget, columns [`sweep_columns`];
+/// `budget_km2` or `budget_cost` is empty, whichever the budget is not measured in.
 /// `objective` is the plan rule's combined benefit; each `benefit_<scenario>` is that
 /// scenario's benefit Bₛ (weighted targets met, partly met ones counting their share; see
 /// [`crate::model::robust`]); `cost_gap` is the relative gap of the least-cost stage (empty
@@ -293,7 +388,8 @@ pub fn sweep_csv(s: &Sweep) -> String {
     let rows = s.runs.iter().map(|r| {
         let mut row = vec![
             format!("{:.6}", r.share),
-            format!("{:.3}", r.budget_km2),
+            num3(r.budget_km2),
+            num3(r.budget_cost),
             r.solution.status.as_str().to_string(),
             format!("{:.6}", r.solution.gap),
             format!("{:.6}", r.solution.objective + 0.0),
