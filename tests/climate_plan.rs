@@ -487,7 +487,7 @@ fn range_edges_and_time_weights_through_the_seam() {
     );
     assert!(csv.lines().nth(1).unwrap().ends_with(",trailing"), "{csv}");
     let notes = driftplan::features::derive::clipped_notes(&d.edge_shifts);
-    assert_eq!(notes, vec!["the trailing edge of sp in s1 lies within one edge band of the region's equatorward limit: its shift measures the region, not the species"]);
+    assert_eq!(notes, vec!["trailing edges within one edge band of the region's equatorward limit, so their shifts measure the region, not the species: sp in s1"]);
 
     // Combined through time with a 3% discount: weights ∝ 1, 1.03^−20, 1.03^−40
     // (= 1, 0.553676, 0.306557; sum 1.860233), so each leading row keeps that share of its

@@ -98,7 +98,10 @@ fn assess(
         a.reserves.len(),
         driftplan::assess::targets_met_text(&a)
     );
-    for note in driftplan::features::absent::absent_notes(&inputs.features) {
+    for note in driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        10,
+    ) {
         println!("  absent: {note}");
     }
     if let Some(m) = &matrix {

@@ -29,7 +29,10 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         count(CellStatus::Required),
         count(CellStatus::Excluded),
     );
-    let absent = driftplan::features::absent::absent_notes(&inputs.features);
+    let absent = driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        20,
+    );
     if !absent.is_empty() {
         println!("  absent (no amount in the region; reported as absent, never counted as met):");
         for note in absent {

@@ -185,7 +185,10 @@ fn print_summary(
     );
     println!("  reserves    {}", a.reserves.len());
     println!("  targets met {}", driftplan::assess::targets_met_text(a));
-    for note in driftplan::features::absent::absent_notes(&inputs.features) {
+    for note in driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        10,
+    ) {
         println!("    absent: {note}");
     }
     for note in driftplan::features::derive::clipped_notes(&inputs.edge_shifts) {

@@ -67,51 +67,58 @@ fn and_list(items: &[String]) -> String {
     }
 }
 
-/// One sentence per absent habitat (species × scenario, years listed) and per absent
-/// derived feature, in feature-table order, e.g. "species cod has no habitat in the region in
-/// ssp5-8.5 in 2070 and 2090". Empty when nothing is absent.
+/// One sentence per absent species × scenario (habitat) and per absent derived kind ×
+/// species × scenario, years listed, in feature-table order, e.g. "species cod has no habitat
+/// in the region in ssp5-8.5 in 2070 and 2090" or "leading-edge of cod in ssp5-8.5 in 2070 and
+/// 2090 has no amount in the region". Empty when nothing is absent.
 pub fn absent_notes(table: &FeatureTable) -> Vec<String> {
-    // (species, scenario index) → years, in first-appearance order.
-    type SpeciesScenario = (String, Option<usize>);
-    let mut habitat: Vec<(SpeciesScenario, Vec<String>)> = Vec::new();
-    let mut other: Vec<String> = Vec::new();
+    // (kind, species, scenario index) → years, in first-appearance order.
+    type Group = (FeatureKind, Option<String>, Option<usize>);
+    let mut groups: Vec<(Group, Vec<String>)> = Vec::new();
     for f in table.features.iter().filter(|f| is_absent(f)) {
-        match (&f.kind, &f.species) {
-            (FeatureKind::Habitat, Some(sp)) => {
-                let key = (sp.clone(), f.scenario);
-                let year = f.year.map(|y| y.to_string());
-                match habitat.iter_mut().find(|(k, _)| *k == key) {
-                    Some((_, years)) => years.extend(year),
-                    None => habitat.push((key, year.into_iter().collect())),
-                }
-            }
-            _ => other.push(format!(
-                "feature {} has no amount anywhere in the region",
-                f.name
-            )),
+        let key = (f.kind, f.species.clone(), f.scenario);
+        let year = f.year.map(|y| y.to_string());
+        match groups.iter_mut().find(|(k, _)| *k == key) {
+            Some((_, years)) => years.extend(year),
+            None => groups.push((key, year.into_iter().collect())),
         }
     }
-    let scenario = |s: Option<usize>| -> String {
-        s.and_then(|i| table.scenarios.get(i))
-            .map(|n| format!(" in {n}"))
-            .unwrap_or_default()
-    };
-    let mut out: Vec<String> = habitat
+    groups
         .into_iter()
-        .map(|((sp, s), years)| {
+        .map(|((kind, species, s), years)| {
+            let scenario = s
+                .and_then(|i| table.scenarios.get(i))
+                .map(|n| format!(" in {n}"))
+                .unwrap_or_default();
             let when = if years.is_empty() {
                 String::new()
             } else {
                 format!(" in {}", and_list(&years))
             };
-            format!(
-                "species {sp} has no habitat in the region{}{when}",
-                scenario(s)
-            )
+            match (kind, species) {
+                (FeatureKind::Habitat, Some(sp)) => {
+                    format!("species {sp} has no habitat in the region{scenario}{when}")
+                }
+                (k, Some(sp)) => format!(
+                    "{} of {sp}{scenario}{when} has no amount in the region",
+                    k.as_str()
+                ),
+                (k, None) => format!("{}{scenario}{when} has no amount in the region", k.as_str()),
+            }
         })
-        .collect();
-    out.extend(other);
-    out
+        .collect()
+}
+
+/// At most `max` notes, then one line counting the rest (they are all in `coverage.csv`).
+pub fn first_notes(mut notes: Vec<String>, max: usize) -> Vec<String> {
+    if notes.len() > max {
+        let rest = notes.len() - max;
+        notes.truncate(max);
+        notes.push(format!(
+            "… and {rest} more (coverage.csv marks every absent feature)"
+        ));
+    }
+    notes
 }
 
 /// Absent features per kind, for a count line (`habitat` 3, `leading-edge` 2 …), kinds in
@@ -172,7 +179,7 @@ mod tests {
                 "species cod has no habitat in the region in ssp5-8.5 in 2070 and 2090",
                 "species ghost has no habitat in the region in ssp1-2.6 in 2050",
                 "species ghost has no habitat in the region in ssp5-8.5 in 2050",
-                "feature leading-edge/ghost/ssp1-2.6 has no amount anywhere in the region",
+                "leading-edge of ghost in ssp1-2.6 in 2050 has no amount in the region",
             ]
         );
         assert_eq!(species_nowhere(&table), vec!["ghost"]);
@@ -183,5 +190,8 @@ mod tests {
             and_list(&["a".into(), "b".into(), "c".into()]),
             "a, b and c"
         );
+        let few = first_notes(absent_notes(&table), 2);
+        assert_eq!(few.len(), 3);
+        assert!(few[2].starts_with("… and 2 more"), "{few:?}");
     }
 }

@@ -66,21 +66,52 @@ impl EdgeShift {
     }
 }
 
-/// One sentence per clipped edge, e.g. "the leading edge of cod in ssp5-8.5 lies within one
-/// edge band of the region's poleward limit: its shift measures the region, not the species".
+/// One sentence per edge side and set of scenarios, naming the species whose edge is clipped
+/// there, e.g. "trailing edges within one edge band of the region's equatorward limit, so
+/// their shifts measure the region, not the species: cod and ling in ssp1-2.6 and ssp5-8.5".
 pub fn clipped_notes(shifts: &[EdgeShift]) -> Vec<String> {
+    let join = |v: &[String]| -> String {
+        match v {
+            [] => String::new(),
+            [one] => one.clone(),
+            [init @ .., last] => format!("{} and {last}", init.join(", ")),
+        }
+    };
     let mut out = Vec::new();
-    for s in shifts {
-        for (clipped, edge, side) in [
-            (s.leading_clipped, "leading", "poleward"),
-            (s.trailing_clipped, "trailing", "equatorward"),
-        ] {
-            if clipped {
-                out.push(format!(
-                    "the {edge} edge of {} in {} lies within one edge band of the region's {side} limit: its shift measures the region, not the species",
-                    s.species, s.scenario
-                ));
+    for (leading, edge, side) in [
+        (true, "leading", "poleward"),
+        (false, "trailing", "equatorward"),
+    ] {
+        // species → scenarios where its edge is clipped, in first-appearance order.
+        let mut per_species: Vec<(String, Vec<String>)> = Vec::new();
+        for s in shifts {
+            let clipped = if leading {
+                s.leading_clipped
+            } else {
+                s.trailing_clipped
+            };
+            if !clipped {
+                continue;
             }
+            match per_species.iter_mut().find(|(sp, _)| *sp == s.species) {
+                Some((_, sc)) => sc.push(s.scenario.clone()),
+                None => per_species.push((s.species.clone(), vec![s.scenario.clone()])),
+            }
+        }
+        // scenario list → species, in first-appearance order.
+        let mut groups: Vec<(Vec<String>, Vec<String>)> = Vec::new();
+        for (sp, sc) in per_species {
+            match groups.iter_mut().find(|(k, _)| *k == sc) {
+                Some((_, v)) => v.push(sp),
+                None => groups.push((sc, vec![sp])),
+            }
+        }
+        for (scenarios, species) in groups {
+            out.push(format!(
+                "{edge} edges within one edge band of the region's {side} limit, so their shifts measure the region, not the species: {} in {}",
+                join(&species),
+                join(&scenarios)
+            ));
         }
     }
     out
@@ -762,7 +793,9 @@ impl ScenarioCtx<'_> {
                     &edges.trailing_km,
                     &self.edge_axis.km,
                     edges.poleward_sign,
-                    params.band_km,
+                    plan.trailing_edge
+                        .as_ref()
+                        .map_or(params.band_km, |e| e.band_km),
                     false,
                 ),
             });
