@@ -130,6 +130,44 @@ fn assess_compare_and_sweep_agree_with_solve() {
         "{err}"
     );
     assert!(!d.join("one").exists());
+    // Ranking rule through the CLI: a network of half the chosen cells is cheaper but misses
+    // targets (the min-cost optimum has no cheaper network meeting them all), so it is listed
+    // as not ranked and is never best on cost.
+    let half = d.join("half.csv");
+    let chosen = &ids[..ids.len() - 1];
+    std::fs::write(
+        &half,
+        format!("cell\n{}\n", chosen[..chosen.len() / 2].join("\n")),
+    )
+    .unwrap();
+    let cmp_half = d.join("cmp-half");
+    let table_half = run(&[
+        os("compare"),
+        plan.as_os_str(),
+        solved.join("network.geojson").as_os_str(),
+        half.as_os_str(),
+        os("--names"),
+        os("optimum,half"),
+        os("--no-stress"),
+        os("--out"),
+        cmp_half.as_os_str(),
+    ]);
+    assert!(
+        table_half.contains("Not ranked, misses targets: half."),
+        "{table_half}"
+    );
+    let jh: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(cmp_half.join("compare.json")).unwrap())
+            .unwrap();
+    assert_eq!(jh["ranked"], serde_json::json!(["optimum"]));
+    let cost = jh["measures"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|m| m["measure"] == "cost")
+        .unwrap();
+    assert!(cost["values"][1].as_f64().unwrap() < cost["values"][0].as_f64().unwrap());
+    assert_eq!(cost["best"], serde_json::json!(["optimum"]));
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(cmp.join("compare.json")).unwrap()).unwrap();
     for m in json["measures"].as_array().unwrap() {
