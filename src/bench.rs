@@ -296,6 +296,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         };
         Ok((
             p,

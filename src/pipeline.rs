@@ -43,6 +43,10 @@ pub enum RunError {
         /// Its latitude.
         lat: f64,
     },
+    /// Species with no habitat anywhere in the region (every scenario and year) that the plan
+    /// does not allow to be absent; one message per species, naming its key and layer.
+    #[error("{}", .0.join("\n"))]
+    SpeciesNowhere(Vec<String>),
     /// Derived climate features could not be built.
     #[error(transparent)]
     Climate(#[from] crate::climate::ClimateError),
@@ -223,6 +227,11 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         } else {
             RunError::Layers(errors)
         });
+    }
+
+    let refused = crate::features::absent::refused_species(&plan.species, &features);
+    if !refused.is_empty() {
+        return Err(RunError::SpeciesNowhere(refused));
     }
 
     let both: Vec<u32> = (0..grid.len())
@@ -422,6 +431,7 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             max_gap_km: g,
         }),
         scenario_best: None,
+        keep_objective: None,
         min_reserve: plan.rules.min_reserve_km2.map(|m| MinReserve {
             min_area_km2: m,
             neighbours: inputs
@@ -523,10 +533,7 @@ pub fn run_facts(
         ),
     ));
     f.push(("reserves".into(), a.reserves.len().to_string()));
-    f.push((
-        "targets met".into(),
-        format!("{} of {}", a.targets_met, a.coverage.len()),
-    ));
+    f.push(("targets met".into(), crate::assess::targets_met_text(a)));
     f.push((
         "compactness ratio".into(),
         format!("{:.2} (1 = circle)", a.compactness_ratio),
@@ -582,6 +589,8 @@ pub struct ReportExtras<'a> {
     pub facts: Vec<(String, String)>,
     /// More per-cell maps, shown before the derived-feature maps (e.g. selection share).
     pub maps: Vec<(String, Vec<f64>)>,
+    /// Several networks side by side (e.g. each budget of a sweep).
+    pub panels: Option<crate::report::NetworkPanels>,
 }
 
 /// `report.html` of a network under the plan (see [`crate::report`]).
@@ -593,6 +602,16 @@ pub fn report_html(
     extras: ReportExtras,
 ) -> Result<String, crate::export::ExportError> {
     let mut facts = run_facts(plan, extras.solution, assessment);
+    facts.extend(
+        crate::features::absent::absent_notes(&inputs.features)
+            .into_iter()
+            .map(|n| ("absent".to_string(), n)),
+    );
+    facts.extend(
+        crate::features::derive::clipped_notes(&inputs.edge_shifts)
+            .into_iter()
+            .map(|n| ("clipped edge".to_string(), n)),
+    );
     facts.extend(extras.facts);
     let mut feature_maps = extras.maps;
     feature_maps.extend(derived_feature_maps(inputs));
@@ -607,6 +626,7 @@ pub fn report_html(
         coverage: &assessment.coverage,
         stress: extras.stress.map(crate::study::stress::report_table),
         sweep: extras.sweep.map(crate::study::sweep::report_points),
+        panels: extras.panels,
     })
 }
 

@@ -121,6 +121,10 @@ pub struct SpeciesPlan {
     pub target: Option<f64>,
     /// Weight in benefit objectives.
     pub weight: f64,
+    /// Key `may_be_absent`: the species may have no habitat anywhere in the region (in every
+    /// scenario and year) without that being a plan error; its features are then reported
+    /// as absent.
+    pub may_be_absent: bool,
 }
 
 /// How per-cell cost is defined.
@@ -348,6 +352,7 @@ struct RawSpecies {
     habitat: Option<RawLayer>,
     target: Option<f64>,
     weight: Option<f64>,
+    may_be_absent: Option<bool>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -889,7 +894,11 @@ impl Plan {
         let mut names = std::collections::BTreeSet::new();
         for (i, s) in raw.species.iter().enumerate() {
             let key = format!("species[{i}]");
-            ck.unknown(&key, &s.extra, &["name", "habitat", "target", "weight"]);
+            ck.unknown(
+                &key,
+                &s.extra,
+                &["name", "habitat", "target", "weight", "may_be_absent"],
+            );
             let name = s.name.clone().unwrap_or_default();
             if !valid_name(&name) {
                 ck.push(
@@ -930,6 +939,7 @@ impl Plan {
                     habitat: t,
                     target,
                     weight,
+                    may_be_absent: s.may_be_absent.unwrap_or(false),
                 });
             }
         }

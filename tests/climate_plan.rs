@@ -475,6 +475,19 @@ fn range_edges_and_time_weights_through_the_seam() {
         (s.trailing_km_per_decade.unwrap() - 5.0).abs() < 0.02,
         "{s:?}"
     );
+    // Clipping, by hand on the 8-row grid: the trailing (northern) edge sits in row 7 in
+    // 2030, the region's own northernmost row (its equatorward limit here), within the 5 km
+    // band: clipped. The leading edge reaches row 2 at most, 20 km from the southern limit
+    // (row 0): not clipped.
+    assert!(s.trailing_clipped && !s.leading_clipped, "{s:?}");
+    assert_eq!(s.clipped_word(), "trailing");
+    let csv = driftplan::export::edge_shifts_csv(&d.edge_shifts).unwrap();
+    assert!(
+        csv.starts_with("species,scenario,leading_km_per_decade,trailing_km_per_decade,clipped\n")
+    );
+    assert!(csv.lines().nth(1).unwrap().ends_with(",trailing"), "{csv}");
+    let notes = driftplan::features::derive::clipped_notes(&d.edge_shifts);
+    assert_eq!(notes, vec!["trailing edges within one edge band of the region's equatorward limit, so their shifts measure the region, not the species: sp in s1"]);
 
     // Combined through time with a 3% discount: weights ∝ 1, 1.03^−20, 1.03^−40
     // (= 1, 0.553676, 0.306557; sum 1.860233), so each leading row keeps that share of its

@@ -98,11 +98,30 @@ fn the_two_optima_read_from_files() {
     // CHECK-VALUES (enumeration): both cost 7.
     assert_eq!(value(&c, "cost", 0), 7.0);
     assert_eq!(value(&c, "cost", 1), 7.0);
-    assert_eq!(c.measure("cost").unwrap().best, vec![0, 1]);
     // CHECK-VALUES: {0, 4, 5} meets all 9 targets, {2, 4} fails in s3 (B/s3 holds 0 of 1).
     assert_eq!(value(&c, "targets_met", 0), 8.0);
     assert_eq!(value(&c, "targets_met", 1), 9.0);
     assert_eq!(c.measure("targets_met").unwrap().best, vec![1]);
+    // Ranking rule (target coverage first): {2, 4} misses a target, so it is not best on cost
+    // although it ties at 7, nor on total edge although it is shorter (8 km against 10 km,
+    // hand count below); it is still best on nothing else either.
+    assert_eq!(c.ranked, vec![1]);
+    assert_eq!(c.measure("cost").unwrap().best, vec![1]);
+    assert_eq!(c.measure("total_edge_km").unwrap().best, vec![1]);
+    for m in &c.measures {
+        assert!(
+            !m.best.contains(&0),
+            "{} best on a network missing targets",
+            m.name
+        );
+    }
+    let t = compare_table(&c);
+    assert!(
+        t.contains("Ranking: target coverage first")
+            && t.contains("(9 of 9)")
+            && t.contains("Not ranked, misses targets: pair_a."),
+        "{t}"
+    );
     // Hand computation: {2, 4} holds shares 1 on 8 features and 0 on B/s3 → mean 8/9.
     assert!((value(&c, "mean_held_share", 0) - 8.0 / 9.0).abs() < 1e-12);
     assert_eq!(value(&c, "min_held_share", 0), 0.0);
@@ -201,11 +220,19 @@ fn a_superset_is_never_worse_on_coverage_nor_cheaper() {
                 assert!(m.values[1] >= m.values[0], "{name} {small:06b} ⊂ {big:06b}");
                 assert!(m.best.contains(&1), "{name} {small:06b} ⊂ {big:06b}");
             }
+            // Ranking rule: the smaller network is best on size only while it meets as many
+            // targets as the larger one; otherwise only the larger one is ranked.
+            let small_ranked = s.targets_met == b.targets_met;
+            assert_eq!(c.ranked, if small_ranked { vec![0, 1] } else { vec![1] });
             for name in size {
                 let m = c.measure(name).unwrap();
                 assert_eq!(m.better, Better::Lower);
                 assert!(m.values[1] >= m.values[0], "{name} {small:06b} ⊂ {big:06b}");
-                assert!(m.best.contains(&0), "{name} {small:06b} ⊂ {big:06b}");
+                if small_ranked {
+                    assert!(m.best.contains(&0), "{name} {small:06b} ⊂ {big:06b}");
+                } else {
+                    assert_eq!(m.best, vec![1], "{name} {small:06b} ⊂ {big:06b}");
+                }
             }
             // Every cell has a positive cost and area: a strict superset costs strictly more.
             assert!(value(&c, "cost", 1) > value(&c, "cost", 0));
@@ -243,6 +270,13 @@ fn csv_and_json_read_back_with_independent_parsers() {
     assert_eq!(cost_b[col("value")].parse::<f64>().unwrap(), 7.0);
     assert_eq!(&cost_b[col("better")], "lower");
     assert_eq!(&cost_b[col("best")], "true");
+    assert_eq!(&cost_b[col("ranked")], "true");
+    // {2, 4} ties on cost 7 but misses a target: not ranked, so not best.
+    let cost_a = find("measure", "cost", "a");
+    assert_eq!(
+        (&cost_a[col("best")], &cost_a[col("ranked")]),
+        ("false", "false")
+    );
     let b3 = find("feature", "B/s3", "a");
     assert_eq!(&b3[col("scenario")], "s3");
     assert_eq!(&b3[col("kind")], "habitat");
@@ -274,6 +308,11 @@ fn csv_and_json_read_back_with_independent_parsers() {
         .unwrap();
     assert_eq!(tm["values"], serde_json::json!([8.0, 9.0]));
     assert_eq!(tm["best"], serde_json::json!(["b"]));
+    assert_eq!(v["ranked"], serde_json::json!(["b"]));
+    assert!(v["ranking_rule"]
+        .as_str()
+        .unwrap()
+        .starts_with("target coverage first"));
     assert_eq!(v["features"].as_array().unwrap().len(), 9);
     assert_eq!(v["features"][7]["feature"], "B/s3");
     assert_eq!(v["features"][7]["met"], serde_json::json!([false, true]));

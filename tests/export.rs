@@ -380,7 +380,8 @@ fn coverage_csv_round_trips() {
             "held",
             "target",
             "shortfall",
-            "met"
+            "met",
+            "absent"
         ]
     );
     let rows: Vec<csv::StringRecord> = rd.records().map(Result::unwrap).collect();
@@ -396,6 +397,7 @@ fn coverage_csv_round_trips() {
         assert_eq!(row[7].parse::<f64>().unwrap(), c.target);
         assert_eq!(row[8].parse::<f64>().unwrap(), c.shortfall);
         assert_eq!(row[9].parse::<bool>().unwrap(), c.met);
+        assert_eq!(row[10].parse::<bool>().unwrap(), c.absent);
     }
     // Hand: held 40 (cell (1,1) is in reserve A; (2,2) is its hole) of 200, target 0.3·200 = 60.
     assert_eq!(a.coverage[0].held, 40.0);

@@ -177,6 +177,14 @@ fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> Stri
                 gap: 0.0,
             },
         ]),
+        panels: Some(driftplan::report::NetworkPanels {
+            title: "Network at each budget".into(),
+            note: "One small map per budget.".into(),
+            panels: vec![driftplan::report::NetworkPanel {
+                label: "budget 30% <all>".into(),
+                reserves: a.reserves.clone(),
+            }],
+        }),
     })
     .unwrap()
 }

@@ -55,6 +55,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         spacing: None,
         scenario_best: None,
         min_reserve: None,
+        keep_objective: None,
     }
 }
 

@@ -1,4 +1,4 @@
-//! Coverage of each feature by a network: total, held, target, shortfall, met.
+//! Coverage of each feature by a network: total, held, target, shortfall, met, absent.
 
 use super::{is_chosen, Coverage};
 use crate::features::{Feature, FeatureTable};
@@ -34,19 +34,24 @@ fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Cov
         .map(|(_, a)| a)
         .sum::<f64>()
         + 0.0; // an empty f64 sum is −0.0; + 0.0 makes it 0 so outputs never say "-0"
-    let target = f.target.amount(f.total);
-    let met = held >= target - MET_REL_TOL * target.abs();
+               // `+ 0.0`: the total of no amounts is −0.0, and outputs never say "-0".
+    let total = f.total + 0.0;
+    let target = f.target.amount(total) + 0.0;
+    // No amount anywhere: absent, never met (a 0 ≥ 0 comparison would call it met).
+    let absent = crate::features::absent::is_absent(f);
+    let met = !absent && held >= target - MET_REL_TOL * target.abs();
     Coverage {
         feature: f.name.clone(),
         kind: f.kind.as_str().to_string(),
         species: f.species.clone(),
         scenario: f.scenario.and_then(|s| scenarios.get(s).cloned()),
         year: f.year,
-        total: f.total,
+        total,
         held,
         target,
-        shortfall: (target - held).max(0.0),
+        shortfall: (target - held).max(0.0) + 0.0,
         met,
+        absent,
     }
 }
 
@@ -102,6 +107,41 @@ mod tests {
             assert!((c.held - held).abs() <= 1e-9 * held, "feature {k}");
             assert_eq!(c.met, c.held >= 0.3 * c.total * (1.0 - 1e-9));
         }
+    }
+
+    #[test]
+    fn an_absent_feature_is_never_met() {
+        // A species with no habitat in the region (zero total, −0.0 as an empty float sum):
+        // its 30% target is 0, and 0 ≥ 0 would call it met; it is absent instead, and no
+        // amount prints as "-0".
+        let f = Feature {
+            name: "habitat/gone/ssp5-8.5/2090".into(),
+            kind: FeatureKind::Habitat,
+            species: Some("gone".into()),
+            scenario: None,
+            year: Some(2090),
+            unit: "km2".into(),
+            amounts: vec![],
+            total: [0.0f64; 0].iter().sum(),
+            target: Target::Share(0.3),
+            weight: 1.0,
+        };
+        for sel in [vec![true, true], vec![false, false]] {
+            let c = feature_coverage(&f, &[], &sel);
+            assert!(c.absent && !c.met, "{c:?}");
+            for v in [c.total, c.held, c.target, c.shortfall] {
+                assert!(v == 0.0 && v.is_sign_positive(), "{c:?}");
+            }
+        }
+        // A weight-only feature (target 0) that is present is met by holding nothing.
+        let present = Feature {
+            amounts: vec![(1, 2.0)],
+            total: 2.0,
+            target: Target::Share(0.0),
+            ..f
+        };
+        let c = feature_coverage(&present, &[], &[false, false]);
+        assert!(c.met && !c.absent);
     }
 
     #[test]

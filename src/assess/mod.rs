@@ -36,8 +36,12 @@ pub struct Coverage {
     pub target: f64,
     /// max(0, target − held).
     pub shortfall: f64,
-    /// Whether the target is met (within a relative tolerance of 1e-9 of the target).
+    /// Whether the target is met (within a relative tolerance of 1e-9 of the target); never
+    /// for an absent feature.
     pub met: bool,
+    /// The feature has no amount anywhere in the region (zero total: a species gone from the
+    /// region in this scenario and year). Its own state: it is never met, whatever its target.
+    pub absent: bool,
 }
 
 /// One connected piece of a network (rook adjacency).
@@ -80,8 +84,10 @@ pub struct Assessment {
     pub reserves: Vec<Reserve>,
     /// Reserve edge facing unprotected sea (shared edges with unchosen cells). Units: km.
     pub exposed_edge_km: f64,
-    /// Number of targets met.
+    /// Number of targets met (absent features never are).
     pub targets_met: usize,
+    /// Number of absent features (zero total), counted apart from met and missed targets.
+    pub targets_absent: usize,
     /// Reserve edge on the coast or the region boundary (not shared with any cell): it needs no
     /// protection from fishing pressure next door, so it is kept apart from the exposed edge.
     /// Units: km.
@@ -106,6 +112,7 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
     debug_assert_eq!(selected.len(), grid.len(), "one selection flag per cell");
     let coverage = coverage(features, selected);
     let targets_met = coverage.iter().filter(|c| c.met).count();
+    let targets_absent = coverage.iter().filter(|c| c.absent).count();
     let chosen: Vec<u32> = (0..grid.len() as u32)
         .filter(|&i| is_chosen(selected, i))
         .collect();
@@ -143,9 +150,23 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
         reserves,
         exposed_edge_km: exposed,
         targets_met,
+        targets_absent,
         boundary_edge_km: boundary,
         cells_selected: chosen.len(),
     }
+}
+
+/// "X of Y" targets met, with the absent features counted apart when there are any, e.g.
+/// `140 of 148 (8 absent: no amount in the region, never counted as met)`.
+pub fn targets_met_text(a: &Assessment) -> String {
+    let mut s = format!("{} of {}", a.targets_met, a.coverage.len());
+    if a.targets_absent > 0 {
+        s.push_str(&format!(
+            " ({} absent: no amount in the region, never counted as met)",
+            a.targets_absent
+        ));
+    }
+    s
 }
 
 /// Whether cell `id` is chosen; ids past the end of `selected` are not.
@@ -274,6 +295,7 @@ mod tests {
         assert_eq!(a.exposed_edge_km, 0.0);
         // A zero target is met by holding nothing (hand check: 0 ≥ 0).
         assert!(a.coverage[0].met);
+        assert!(!a.coverage[0].absent);
         // Unknown scenario index is reported as no scenario rather than a panic.
         assert_eq!(a.coverage[0].scenario, None);
     }

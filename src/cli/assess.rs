@@ -90,16 +90,25 @@ fn assess(
     }
     export::write_outputs(out, &files)?;
     println!(
-        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} of {} targets met",
+        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} targets met",
         a.cells_selected,
         a.cost,
         a.area_km2,
         100.0 * a.share_of_region,
         a.reserves.len(),
-        a.targets_met,
-        a.coverage.len()
+        driftplan::assess::targets_met_text(&a)
     );
+    for note in driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        10,
+    ) {
+        println!("  absent: {note}");
+    }
     if let Some(m) = &matrix {
+        println!(
+            "  stress test (rows: designed for, columns: evaluated in; {})",
+            export::BENEFIT
+        );
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("  outputs {}", out.display());

@@ -34,5 +34,15 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         println!("  {note}");
     }
     println!("  solver: HiGHS, {}", plan.solver.describe());
+    let absent = driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        20,
+    );
+    if !absent.is_empty() {
+        println!("  absent (no amount in the region; reported as absent, never counted as met):");
+        for note in absent {
+            println!("    {note}");
+        }
+    }
     Ok(())
 }

@@ -10,7 +10,8 @@ use std::path::{Path, PathBuf};
 pub(crate) struct Args {
     /// The plan file (TOML).
     plan: PathBuf,
-    /// Two or more networks (GeoJSON polygons or cell-id CSV).
+    /// Two or more networks (GeoJSON polygons or cell-id CSV); to score one network, use
+    /// `driftplan assess`.
     #[arg(required = true, num_args = 1..)]
     networks: Vec<PathBuf>,
     /// Output folder.
@@ -55,6 +56,14 @@ fn compare(
     progress: &Progress,
 ) -> Result<()> {
     anyhow::ensure!(
+        networks.len() >= 2,
+        "compare needs two or more networks (got one: {}); to score a single network use `driftplan assess PLAN NETWORK --out DIR`",
+        networks
+            .first()
+            .map(|p| p.display().to_string())
+            .unwrap_or_default()
+    );
+    anyhow::ensure!(
         names.is_empty() || names.len() == networks.len(),
         "--names gives {} names for {} networks; give one name per network, in order",
         names.len(),
@@ -80,9 +89,43 @@ fn compare(
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
     let matrix = stress(&problem, &given, &options, no_stress, progress)?;
+    let panels = driftplan::report::NetworkPanels {
+        title: "Networks side by side".into(),
+        note: "One map per network, in the order given; reserves in green, excluded cells tinted, required cells outlined in blue.".into(),
+        panels: given
+            .iter()
+            .zip(&assessments)
+            .map(|((name, _), a)| driftplan::report::NetworkPanel {
+                label: format!(
+                    "{name}: cost {:.1}, {} of {} targets met, {} reserves",
+                    a.cost,
+                    a.targets_met,
+                    a.coverage.len(),
+                    a.reserves.len()
+                ),
+                reserves: a.reserves.clone(),
+            })
+            .collect(),
+    };
+    let mut facts = vec![
+        ("plan".to_string(), plan.name.clone()),
+        ("plan file SHA-256".to_string(), plan.hash.clone()),
+    ];
+    for ((name, _), path) in given.iter().zip(networks) {
+        facts.push((format!("network `{name}`"), path.display().to_string()));
+    }
+    let report = driftplan::report::compare_report_html(&driftplan::report::CompareReport {
+        title: &plan.name,
+        facts,
+        grid: &inputs.grid,
+        status: &inputs.status,
+        panels,
+        comparison: &cmp,
+    })?;
     let mut files = vec![
         ("compare.csv", driftplan::compare::compare_csv(&cmp)),
         ("compare.json", driftplan::compare::compare_json(&cmp)),
+        ("report.html", report),
     ];
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
@@ -93,6 +136,7 @@ fn compare(
         println!(
             "stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
         );
+        println!("({})", export::BENEFIT);
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("outputs {}", out.display());

@@ -73,14 +73,20 @@ enum Command {
     /// Writes coverage.csv, reserves.csv, assessment.json (every measure), network.geojson
     /// (the chosen cells dissolved into reserves), stress.csv and report.html.
     Assess(assess::Args),
-    /// Assess several networks side by side: a table, compare.csv, compare.json, stress.csv.
+    /// Assess two or more networks side by side: a table, compare.csv, compare.json,
+    /// report.html, stress.csv.
+    ///
+    /// Target coverage comes first: a measure's best is awarded only among the networks that
+    /// meet the most targets. One network is an error: use `assess` to score it.
     Compare(compare::Args),
     /// One max-benefit solve per budget: the cost–benefit curve, the budget at which each
     /// target is first met, and how often each cell is chosen.
     ///
-    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson
-    /// and report.html. Budgets are shares of the region's sea area; `...` continues an even
-    /// step (`5%,10%,...,40%`).
+    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson,
+    /// networks/budget-<share>pct.geojson (one per budget) and report.html. Budgets are shares
+    /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
+    /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
+    /// for that benefit.
     Sweep(sweep::Args),
 }
 

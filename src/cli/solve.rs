@@ -165,6 +165,9 @@ pub(crate) fn solve(
         println!(
             "  stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
         );
+        if plan.objective != driftplan::model::Objective::MaxBenefit {
+            println!("  ({})", export::BENEFIT);
+        }
         for line in driftplan::study::stress::stress_table(m).lines() {
             println!("    {line}");
         }
@@ -304,7 +307,6 @@ fn print_summary(
     a: &driftplan::assess::Assessment,
     out: &Path,
 ) {
-    let n_targets = a.coverage.len();
     println!(
         "driftplan — {} ({} cells, {} scenarios × {} years)",
         plan.name,
@@ -335,15 +337,40 @@ fn print_summary(
         100.0 * a.share_of_region
     );
     println!("  reserves    {}", a.reserves.len());
-    println!("  targets met {} of {}", a.targets_met, n_targets);
+    println!("  targets met {}", driftplan::assess::targets_met_text(a));
+    for note in driftplan::features::absent::first_notes(
+        driftplan::features::absent::absent_notes(&inputs.features),
+        10,
+    ) {
+        println!("    absent: {note}");
+    }
+    for note in driftplan::features::derive::clipped_notes(&inputs.edge_shifts) {
+        println!("  clipped edge: {note}");
+    }
+    // Benefit is what max-benefit maximises; in a min-cost run every target is a hard rule,
+    // so only the targets met are shown.
+    let max_benefit = plan.objective == driftplan::model::Objective::MaxBenefit;
+    if max_benefit {
+        println!("  ({})", export::BENEFIT);
+    }
     for s in &solution.scenarios {
+        let absent = if s.absent > 0 {
+            format!(" ({} absent)", s.absent)
+        } else {
+            String::new()
+        };
+        let benefit = if max_benefit {
+            format!(", benefit {:.3} of {:.0}", s.benefit, s.benefit_max)
+        } else {
+            String::new()
+        };
         let regret = s
             .regret
             .map(|r| format!(", regret {r:.3}"))
             .unwrap_or_default();
         println!(
-            "    {:<12} {} of {} targets met, benefit {:.3} of {:.0}{regret}",
-            s.name, s.targets_met, s.targets, s.benefit, s.benefit_max
+            "    {:<12} {} of {} targets met{absent}{benefit}{regret}",
+            s.name, s.targets_met, s.targets
         );
     }
     println!("  outputs     {}", out.display());

@@ -14,6 +14,10 @@ pub(crate) struct Args {
     /// Budgets, e.g. `5%,10%,...,40%` or `0.05,0.1`.
     #[arg(long, default_value = "5%,10%,...,40%")]
     budgets: String,
+    /// What the budgets are shares of: the region's sea `area`, or its total `cost` (the
+    /// plan's cost summed over every cell; cost then never falls as the budget grows).
+    #[arg(long, default_value = "area", value_parser = ["area", "cost"])]
+    budget_of: String,
     /// Output folder.
     #[arg(long)]
     out: PathBuf,
@@ -22,12 +26,20 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
-    sweep(&a.plan, &a.budgets, &a.out, &a.solver, progress)
+    sweep(
+        &a.plan,
+        &a.budgets,
+        &a.budget_of,
+        &a.out,
+        &a.solver,
+        progress,
+    )
 }
 
 fn sweep(
     plan_path: &Path,
     budgets: &str,
+    budget_of: &str,
     out: &Path,
     solver: &SolverArgs,
     progress: &Progress,
@@ -38,8 +50,18 @@ fn sweep(
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
+    let of = if budget_of == "cost" {
+        driftplan::study::SweepBudget::Cost(inputs.cost.iter().sum())
+    } else {
+        driftplan::study::SweepBudget::Area(inputs.grid.sea_area_km2)
+    };
+    let what = if budget_of == "cost" {
+        "the region's total cost"
+    } else {
+        "the sea"
+    };
     progress.say(&format!(
-        "sweep: {} budgets from {:.1}% to {:.1}% of the sea, solved in parallel",
+        "sweep: {} budgets from {:.1}% to {:.1}% of {what}, solved in parallel",
         shares.len(),
         100.0 * shares[0],
         100.0 * shares[shares.len() - 1]
@@ -50,10 +72,10 @@ fn sweep(
     let clock = driftplan::solve::time::TimeBudget::start(plan.solver.time_limit_s);
     let stress_solves = problem.scenarios.len() * usize::from(problem.scenarios.len() > 1);
     let rounds = 2 * time::parallel_rounds(shares.len(), time::workers());
-    let sw = driftplan::study::sweep(
+    let sw = driftplan::study::sweep_of(
         &problem,
         &shares,
-        inputs.grid.sea_area_km2,
+        of,
         &clock.options(
             &options,
             time::sweep_share(shares.len(), stress_solves),
@@ -76,9 +98,42 @@ fn sweep(
     let layers = freq.layers();
     let core = f_all.core();
     let empty = driftplan::features::FeatureTable::default();
-    // The report maps the largest budget's network, with the selection share beside it.
+    // The report maps the largest budget's network, with the selection share beside it, and
+    // every budget's network side by side; each is also written to networks/.
     let largest = &sw.runs[sw.runs.len() - 1];
     let shown = pipeline::assess_network(&inputs, &largest.solution.selected);
+    let per_budget: Vec<driftplan::assess::Assessment> = sw
+        .runs
+        .iter()
+        .map(|r| pipeline::assess_network(&inputs, &r.solution.selected))
+        .collect();
+    let mut network_files = Vec::new();
+    for (r, a) in sw.runs.iter().zip(&per_budget) {
+        network_files.push((
+            format!("{}.geojson", driftplan::study::sweep::budget_stem(r.share)),
+            export::geojson::network_geojson(&inputs.grid, a)?,
+        ));
+    }
+    let panels = driftplan::report::NetworkPanels {
+        title: "Network at each budget".into(),
+        note: "One map per budget of the sweep (also written as networks/budget-<share>pct.geojson); reserves in green, excluded cells tinted, required cells outlined in blue.".into(),
+        panels: sw
+            .runs
+            .iter()
+            .zip(&per_budget)
+            .map(|(r, a)| driftplan::report::NetworkPanel {
+                label: format!(
+                    "budget {:.1}%: cost {:.1}, {} of {} targets met, {} reserves",
+                    100.0 * r.share,
+                    r.cost,
+                    r.targets_met,
+                    r.met.len(),
+                    a.reserves.len()
+                ),
+                reserves: a.reserves.clone(),
+            })
+            .collect(),
+    };
     let files = vec![
         ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
         ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
@@ -88,7 +143,17 @@ fn sweep(
         ),
         (
             "selection-frequency.geojson",
-            export::geojson::cells_geojson(&inputs.grid, &layers, &empty, &core, None)?,
+            export::geojson::cells_geojson_with_text(
+                &inputs.grid,
+                &layers,
+                &[export::geojson::TextLayer {
+                    name: "class".into(),
+                    values: f_all.classes(),
+                }],
+                &empty,
+                &core,
+                None,
+            )?,
         ),
         (
             "report.html",
@@ -105,7 +170,7 @@ fn sweep(
                         (
                             "network shown".into(),
                             format!(
-                                "the largest budget, {:.1}% of the sea",
+                                "the largest budget, {:.1}% of {what}",
                                 100.0 * largest.share
                             ),
                         ),
@@ -122,10 +187,16 @@ fn sweep(
                         "selection share (sweep and scenario designs)".into(),
                         f_all.share.clone(),
                     )],
+                    panels: Some(panels),
                 },
             )?,
         ),
     ];
+    let network_files: Vec<(&str, String)> = network_files
+        .iter()
+        .map(|(n, t)| (n.as_str(), t.clone()))
+        .collect();
+    export::write_outputs(&out.join("networks"), &network_files)?;
     export::write_outputs(out, &files)?;
     println!(
         "{:>8} {:>10} {:>12} {:>9}  {:<10} gap",
@@ -147,6 +218,15 @@ fn sweep(
         for w in driftplan::solve::warnings(&r.solution) {
             println!("warning: budget {:.1}%: {w}", 100.0 * r.share);
         }
+    }
+    for (a, b) in sw.cost_falls() {
+        println!(
+            "note: cost falls from {:.1} at {:.1}% to {:.1} at {:.1}%: the larger area budget admits a cheaper network of at least the same benefit (the plan's cost is not area; `--budget-of cost` measures budgets in cost, where cost cannot fall)",
+            sw.runs[a].cost,
+            100.0 * sw.runs[a].share,
+            sw.runs[b].cost,
+            100.0 * sw.runs[b].share
+        );
     }
     println!(
         "robust core: {} cells chosen in all {} networks (the report maps it); outputs {}",

@@ -24,12 +24,15 @@ struct FeatureOut<'a> {
     held: &'a [f64],
     share_of_target: &'a [f64],
     met: &'a [bool],
+    absent: bool,
     best: Vec<&'a str>,
 }
 
 #[derive(Serialize)]
 struct ComparisonOut<'a> {
     networks: &'a [String],
+    ranking_rule: &'a str,
+    ranked: Vec<&'a str>,
     measures: Vec<MeasureOut<'a>>,
     features: Vec<FeatureOut<'a>>,
     caution: &'a str,
@@ -38,12 +41,15 @@ struct ComparisonOut<'a> {
 
 /// `compare.json`, pretty-printed, keys in this order:
 /// * `networks`: names, in the order every `values`/`held`/... array follows;
+/// * `ranking_rule`: how `best` is awarded ([`super::RANKING_RULE`]); `ranked`: the networks
+///   that meet the most targets, the only ones that can be best on a measure other than
+///   `targets_met`;
 /// * `measures`: `[{measure, better, values, best}]` where `measure` carries its unit
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
 /// * `features`: `[{feature, kind, species, scenario, year, total, target, held,
-///   share_of_target, met, best}]`, amounts in the feature's own unit, `share_of_target` =
-///   min(held/target, 1);
+///   share_of_target, met, absent, best}]`, amounts in the feature's own unit,
+///   `share_of_target` = min(held/target, 1) (0 for an absent feature);
 /// * `caution`, `driftplan_version`.
 ///
 /// Non-finite numbers are written as `null`.
@@ -52,6 +58,8 @@ pub fn compare_json(c: &Comparison) -> String {
         |idx: &[usize]| -> Vec<&str> { idx.iter().map(|&i| c.networks[i].as_str()).collect() };
     let out = ComparisonOut {
         networks: &c.networks,
+        ranking_rule: super::RANKING_RULE,
+        ranked: names(&c.ranked),
         measures: c
             .measures
             .iter()
@@ -76,6 +84,7 @@ pub fn compare_json(c: &Comparison) -> String {
                 held: &f.held,
                 share_of_target: &f.share_of_target,
                 met: &f.met,
+                absent: f.absent,
                 best: names(&f.best),
             })
             .collect(),
@@ -103,6 +112,8 @@ mod tests {
         let keys: Vec<&str> = v.as_object().unwrap().keys().map(String::as_str).collect();
         let mut want = vec![
             "networks",
+            "ranking_rule",
+            "ranked",
             "measures",
             "features",
             "caution",

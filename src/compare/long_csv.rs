@@ -15,7 +15,10 @@ use super::Comparison;
 /// * `total`, `target`, `held`: the feature's amounts in its own unit (empty on measure rows).
 /// * `share_of_target`: min(held/target, 1), 0–1 (empty on measure rows).
 /// * `met`: `true`/`false` (empty on measure rows).
-pub const COMPARE_COLUMNS: [&str; 15] = [
+/// * `ranked`: `true` when the network meets the most targets of all networks compared, so it
+///   competes for `best` on every measure ([`super::RANKING_RULE`]); `false`: it misses
+///   targets.
+pub const COMPARE_COLUMNS: [&str; 16] = [
     "row",
     "name",
     "kind",
@@ -31,6 +34,7 @@ pub const COMPARE_COLUMNS: [&str; 15] = [
     "held",
     "share_of_target",
     "met",
+    "ranked",
 ];
 
 /// `compare.csv`: columns [`COMPARE_COLUMNS`]; measure rows first (measure order, then network
@@ -38,7 +42,7 @@ pub const COMPARE_COLUMNS: [&str; 15] = [
 /// shortest round-trip form.
 pub fn compare_csv(c: &Comparison) -> String {
     let mut w = csv::Writer::from_writer(Vec::new());
-    // Writing to an in-memory Vec cannot fail, and every record has the header's 15 fields.
+    // Writing to an in-memory Vec cannot fail, and every record has the header's 16 fields.
     let _ = w.write_record(COMPARE_COLUMNS);
     for m in &c.measures {
         for (i, net) in c.networks.iter().enumerate() {
@@ -58,6 +62,7 @@ pub fn compare_csv(c: &Comparison) -> String {
                 "",
                 "",
                 "",
+                &c.ranked.contains(&i).to_string(),
             ]);
         }
     }
@@ -80,6 +85,7 @@ pub fn compare_csv(c: &Comparison) -> String {
                 &f.held[i].to_string(),
                 &f.share_of_target[i].to_string(),
                 &f.met[i].to_string(),
+                &c.ranked.contains(&i).to_string(),
             ]);
         }
     }
@@ -115,7 +121,7 @@ mod tests {
             &rows[0].iter().collect::<Vec<_>>(),
             &[
                 "measure", "cost", "", "", "", "", "x, first", "1", "lower", "true", "", "", "",
-                "", ""
+                "", "", "true"
             ]
         );
         // Hand value from the fixture: y holds 5 of refugium/c against a target of 2 → met.

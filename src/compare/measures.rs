@@ -49,9 +49,12 @@ fn m(name: impl Into<String>, better: Better, value: f64) -> MeasureValue {
 }
 
 /// How much of its target a feature holds, capped at 1 (0–1). A target of zero or less is
-/// held whole by any network, as [`Coverage::met`] counts it met.
+/// held whole by any network, as [`Coverage::met`] counts it met; an absent feature (no amount
+/// in the region) holds nothing of anything: 0.
 pub fn held_share(c: &Coverage) -> f64 {
-    if c.target > 0.0 {
+    if c.absent {
+        0.0
+    } else if c.target > 0.0 {
         // `+ 0.0` turns −0 (the sum of no amounts) into 0, so outputs never show "-0".
         (c.held / c.target).clamp(0.0, 1.0) + 0.0
     } else {
@@ -69,8 +72,9 @@ pub fn held_share(c: &Coverage) -> f64 {
 ///   `largest_gap_km` (widest step along the poleward axis between chosen cells): lower is
 ///   better.
 /// * `reserves`: not ranked: fewer reserves are compact, more spread risk; planners weigh it.
-/// * `targets_met`, `mean_held_share` (mean over features of min(held/target, 1)),
-///   `min_held_share` (the worst feature's share; 1 means every target met) and
+/// * `targets_met`, `mean_held_share` (mean over present features of min(held/target, 1)),
+///   `min_held_share` (the worst present feature's share; 1 means every target met; absent
+///   features, with no amount in the region, are left out of both) and
 ///   `targets_met_<kind>` per feature kind present (`habitat`, `leading-edge`, ...,
 ///   alphabetical): higher is better. The share measures are left out when the plan has no
 ///   features (a mean of nothing is not a number).
@@ -91,9 +95,14 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
         m("largest_gap_km", Better::Lower, a.largest_gap_km),
         m("targets_met", Better::Higher, a.targets_met as f64),
     ];
-    if !a.coverage.is_empty() {
+    if a.coverage.iter().any(|c| !c.absent) {
         // Summed in feature order, so the value is reproducible to the last bit.
-        let shares: Vec<f64> = a.coverage.iter().map(held_share).collect();
+        let shares: Vec<f64> = a
+            .coverage
+            .iter()
+            .filter(|c| !c.absent)
+            .map(held_share)
+            .collect();
         let mean = shares.iter().sum::<f64>() / shares.len() as f64;
         let min = shares.iter().copied().fold(f64::INFINITY, f64::min);
         out.push(m("mean_held_share", Better::Higher, mean));
@@ -125,12 +134,14 @@ mod tests {
             target,
             shortfall: (target - held).max(0.0),
             met: held >= target,
+            absent: false,
         }
     }
 
     fn assessment(coverage: Vec<Coverage>) -> Assessment {
         Assessment {
             targets_met: coverage.iter().filter(|c| c.met).count(),
+            targets_absent: 0,
             coverage,
             cost: 7.5,
             area_km2: 300.0,
@@ -180,6 +191,32 @@ mod tests {
             .map(|(n, b, v)| (n.to_string(), b, v))
             .collect();
         assert_eq!(got, want);
+    }
+
+    #[test]
+    fn absent_features_are_left_out_of_the_shares() {
+        // Hand: present features hold 2/4 and 6/3 → shares 0.5 and 1, mean 0.75, min 0.5;
+        // the absent one (zero target of a zero total) would add a share of 1 as a met zero
+        // target, but is absent: not met, not in the shares.
+        let mut gone = cov("habitat", 0.0, 0.0);
+        gone.met = false;
+        gone.absent = true;
+        let a = assessment(vec![
+            cov("habitat", 2.0, 4.0),
+            cov("habitat", 6.0, 3.0),
+            gone.clone(),
+        ]);
+        assert_eq!(held_share(&gone), 0.0);
+        let get = |n: &str| {
+            network_measures(&a)
+                .into_iter()
+                .find(|v| v.name == n)
+                .unwrap()
+                .value
+        };
+        assert_eq!(get("mean_held_share"), 0.75);
+        assert_eq!(get("min_held_share"), 0.5);
+        assert_eq!(get("targets_met_habitat"), 1.0);
     }
 
     #[test]

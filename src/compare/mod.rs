@@ -1,6 +1,6 @@
 //! Compare stage: takes several networks' [`Assessment`]s under one plan and returns a
-//! [`Comparison`]: every network-level measure side by side with the best network on each,
-//! and every feature's coverage side by side.
+//! [`Comparison`]: every network-level measure side by side with the best network on each
+//! (target coverage first, [`RANKING_RULE`]), and every feature's coverage side by side.
 //!
 //! Builders ([`compare_table`], [`compare_csv`], [`compare_json`]) turn a comparison into text;
 //! writing files is left to the export stage.
@@ -81,17 +81,25 @@ pub struct FeatureRow {
     pub held: Vec<f64>,
     /// min(held/target, 1) per network (0–1; 1 for a zero target), see [`held_share`].
     pub share_of_target: Vec<f64>,
-    /// Whether the target is met, per network.
+    /// Whether the target is met, per network (never when absent).
     pub met: Vec<bool>,
+    /// The feature has no amount anywhere in the region: absent, for every network alike.
+    pub absent: bool,
     /// Indices of the networks holding the most of it (ties together, ascending).
     pub best: Vec<usize>,
 }
+
+/// How "best" is awarded on a measure, stated with every comparison's table.
+pub const RANKING_RULE: &str = "target coverage first: `targets_met` is ranked over every network; every other measure's best is awarded only among the networks that meet the most targets, so a network that misses targets is never best on cost, area or shape";
 
 /// Several networks side by side.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Comparison {
     /// Network names, in the order given; every per-network vector follows this order.
     pub networks: Vec<String>,
+    /// Networks that meet the most targets (ties all, ascending): the only ones ranked on any
+    /// measure but `targets_met` ([`RANKING_RULE`]). The others miss targets.
+    pub ranked: Vec<usize>,
     /// Network-level measures, in [`network_measures`] order.
     pub measures: Vec<Measure>,
     /// Per-feature coverage, in feature-table order.
@@ -125,16 +133,31 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
     }
     let per_network: Vec<Vec<MeasureValue>> =
         networks.iter().map(|(_, a)| network_measures(a)).collect();
+    // Target coverage first (RANKING_RULE): only the networks meeting the most targets are
+    // ranked on the other measures.
+    let most = networks
+        .iter()
+        .map(|(_, a)| a.targets_met)
+        .max()
+        .unwrap_or(0);
+    let ranked: Vec<usize> = (0..networks.len())
+        .filter(|&i| networks[i].1.targets_met == most)
+        .collect();
     // Same features ⇒ same kinds ⇒ the same measure list for every network.
     let measures = per_network[0]
         .iter()
         .enumerate()
         .map(|(k, mv)| {
             let values: Vec<f64> = per_network.iter().map(|v| v[k].value).collect();
+            let best = if mv.name == "targets_met" {
+                rank::best_of(&values, mv.better)
+            } else {
+                rank::best_among(&values, mv.better, &ranked)
+            };
             Measure {
                 name: mv.name.clone(),
                 better: mv.better,
-                best: rank::best_of(&values, mv.better),
+                best,
                 values,
             }
         })
@@ -158,6 +181,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
                 target: c.target + 0.0,
                 share_of_target: rows.iter().map(|r| held_share(r)).collect(),
                 met: rows.iter().map(|r| r.met).collect(),
+                absent: c.absent,
                 best: rank::best_of(&held, Better::Higher),
                 held,
             }
@@ -165,6 +189,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
         .collect();
     Ok(Comparison {
         networks: networks.iter().map(|(n, _)| n.clone()).collect(),
+        ranked,
         measures,
         features,
     })

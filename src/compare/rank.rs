@@ -32,6 +32,16 @@ pub(crate) fn best_of(values: &[f64], better: Better) -> Vec<usize> {
         .collect()
 }
 
+/// [`best_of`] among the networks in `among` only (indices, ascending); the others are never
+/// best.
+pub(crate) fn best_among(values: &[f64], better: Better, among: &[usize]) -> Vec<usize> {
+    let sub: Vec<f64> = among.iter().map(|&i| values[i]).collect();
+    best_of(&sub, better)
+        .into_iter()
+        .map(|j| among[j])
+        .collect()
+}
+
 /// What a [`Difference`] is about.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum DifferenceOf {
@@ -119,6 +129,9 @@ mod tests {
         assert_eq!(best_of(&[f64::NAN, 5.0], Better::Higher), vec![1]);
         assert!(best_of(&[], Better::Lower).is_empty());
         assert!(!tied(1.0, 1.0 + 1e-6));
+        // Among networks 0 and 3 only: the lowest of [3, 2] is network 3, the highest 0.
+        assert_eq!(best_among(&v, Better::Lower, &[0, 3]), vec![3]);
+        assert_eq!(best_among(&v, Better::Higher, &[0, 3]), vec![0]);
         assert!(tied(0.0, 0.0));
     }
 }

@@ -70,15 +70,41 @@ fn layout(rows: &[Vec<String>], left: usize) -> String {
     out
 }
 
+/// The ranking rule in words, naming the networks it leaves unranked (they miss targets).
+pub fn ranking_line(c: &Comparison) -> String {
+    let most = c
+        .measure("targets_met")
+        .and_then(|m| c.ranked.first().map(|&i| m.values[i]))
+        .unwrap_or(0.0);
+    let missing: Vec<&str> = (0..c.networks.len())
+        .filter(|i| !c.ranked.contains(i))
+        .map(|i| c.networks[i].as_str())
+        .collect();
+    let mut s = format!(
+        "Ranking: target coverage first. `*` on targets_met marks the most targets met ({most:.0} of {}); on every other measure `*` is awarded only among the networks that meet that many.",
+        c.features.len()
+    );
+    if !missing.is_empty() {
+        s.push_str(&format!(
+            " Not ranked, misses targets: {}.",
+            missing.join(", ")
+        ));
+    }
+    s.push('\n');
+    s
+}
+
 /// The comparison as a readable terminal table: every measure with its better direction and
 /// each network's value (the best marked `*`), then the features whose target some networks
 /// meet and others do not (at most 20 listed; the full list is in `compare.csv`).
 pub fn compare_table(c: &Comparison) -> String {
     let mut out = format!(
-        "{} networks compared: {}\n\n",
+        "{} networks compared: {}\n",
         c.networks.len(),
         c.networks.join(", ")
     );
+    out.push_str(&ranking_line(c));
+    out.push('\n');
     let mut rows = vec![{
         let mut h = vec!["measure".to_string(), "better".to_string()];
         // Header names carry the marker's width too, so names line up with the numbers.
@@ -95,14 +121,20 @@ pub fn compare_table(c: &Comparison) -> String {
     }
     out.push_str(&layout(&rows, 2));
     out.push_str(
-        "* best on that measure (ties all marked); better: which way is better, none = not ranked\n",
+        "* best on that measure (ties all marked; see the ranking rule above); better: which way is better, none = not ranked\n",
     );
     let split: Vec<_> = c
         .features
         .iter()
         .filter(|f| f.met.iter().any(|&m| m) && !f.met.iter().all(|&m| m))
         .collect();
+    let absent = c.features.iter().filter(|f| f.absent).count();
     out.push('\n');
+    if absent > 0 {
+        out.push_str(&format!(
+            "{absent} features are absent (no amount in the region): no network meets them.\n"
+        ));
+    }
     if split.is_empty() {
         out.push_str(&format!(
             "Every network meets the same targets ({} features).\n",
@@ -163,6 +195,12 @@ mod tests {
         let t = compare_table(&c);
         let lines: Vec<&str> = t.lines().collect();
         assert_eq!(lines[0], "2 networks compared: x, other");
+        // Both meet 1 of 3 targets (fixture hand values), so both are ranked.
+        assert!(
+            lines[1].starts_with("Ranking: target coverage first"),
+            "{t}"
+        );
+        assert!(lines[1].contains("(1 of 3)") && !lines[1].contains("Not ranked"));
         // Hand layout: `measure` column 20 wide (`targets_met_refugium`), `better` 6 wide,
         // each network column 7 wide (`0.333 *`), two spaces between columns; numbers and
         // names right-aligned with room for the best marker ` *`.
@@ -171,18 +209,18 @@ mod tests {
                 .trim_end()
                 .to_string()
         };
-        assert_eq!(lines[2], row("measure", "better", "x  ", "other  "));
-        assert_eq!(lines[3], row("cost", "lower", "1 *", "11  "));
-        assert_eq!(lines[7], row("reserves", "none", "1  ", "1  "));
+        assert_eq!(lines[3], row("measure", "better", "x  ", "other  "));
+        assert_eq!(lines[4], row("cost", "lower", "1 *", "11  "));
+        assert_eq!(lines[8], row("reserves", "none", "1  ", "1  "));
         // Tie on targets met: both marked.
-        assert_eq!(lines[12], row("targets_met", "higher", "1 *", "1 *"));
+        assert_eq!(lines[13], row("targets_met", "higher", "1 *", "1 *"));
         // Hand values: mean shares 1/3 and 2/3; the worst share of x is 0 (not -0).
         assert_eq!(
-            lines[13],
+            lines[14],
             row("mean_held_share", "higher", "0.333  ", "0.667 *")
         );
         assert_eq!(
-            lines[14],
+            lines[15],
             row("min_held_share", "higher", "0.000  ", "0.500 *")
         );
         // Split targets: a met only by x, c only by `other`; b by neither so not listed.

@@ -54,6 +54,7 @@ pub fn edge_shifts_csv(
         "scenario",
         "leading_km_per_decade",
         "trailing_km_per_decade",
+        "clipped",
     ])
     .map_err(|e| fail(e.to_string()))?;
     let num = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_default();
@@ -63,6 +64,7 @@ pub fn edge_shifts_csv(
             s.scenario.clone(),
             num(s.leading_km_per_decade),
             num(s.trailing_km_per_decade),
+            s.clipped_word().to_string(),
         ])
         .map_err(|e| fail(e.to_string()))?;
     }

@@ -199,7 +199,37 @@ pub fn cells_geojson(
     selected: &[bool],
     reserves: Option<&[u32]>,
 ) -> Result<String, ExportError> {
+    cells_geojson_with_text(grid, layers, &[], features, selected, reserves)
+}
+
+/// A word per cell (e.g. a selection class), written as a string property.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TextLayer {
+    /// Property name (used as is; keep it a plain identifier).
+    pub name: String,
+    /// One word per cell id.
+    pub values: Vec<&'static str>,
+}
+
+/// [`cells_geojson`] with string properties after `selected` (one [`TextLayer`] each, in
+/// order), before the numeric layers.
+pub fn cells_geojson_with_text(
+    grid: &Grid,
+    layers: &[Layer],
+    text: &[TextLayer],
+    features: &FeatureTable,
+    selected: &[bool],
+    reserves: Option<&[u32]>,
+) -> Result<String, ExportError> {
     check_lengths(grid, layers, selected)?;
+    if let Some(t) = text.iter().find(|t| t.values.len() != grid.len()) {
+        return Err(ExportError::Length {
+            what: format!("text layer `{}`", t.name),
+            expected: grid.len(),
+            got: t.values.len(),
+        });
+    }
+    let text_names: Vec<String> = text.iter().map(|t| json_str(&t.name)).collect();
     let names: Vec<String> = value_names(layers, features)
         .iter()
         .map(|n| json_str(n))
@@ -234,6 +264,12 @@ pub fn cells_geojson(
                                 let _ = write!(out, ",\"reserve\":{k}");
                             }
                         }
+                    }
+                    for (name, t) in text_names.iter().zip(text) {
+                        out.push(',');
+                        out.push_str(name);
+                        out.push(':');
+                        out.push_str(&json_str(t.values[cell as usize]));
                     }
                     for (name, v) in names.iter().zip(values) {
                         out.push(',');

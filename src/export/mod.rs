@@ -32,6 +32,10 @@ pub const CAUTION: &str = "Decision support only: the network is computed from p
 uncertainty; siting decisions rest with the planning authority, local law and consultation with those \
 who use the sea.";
 
+/// What "benefit" means wherever it is shown (terminal, report, README): the score that
+/// max-benefit maximises ([`crate::model::robust`]).
+pub const BENEFIT: &str = "benefit = weighted targets met: each feature scores its weight times the share of its target held (at most 1), so a half-met target of weight 1 scores 0.5; `of N` is the score of every target met";
+
 /// Errors of the export stage. Each names the file or the item that could not be written.
 #[derive(Debug, thiserror::Error)]
 pub enum ExportError {

@@ -45,9 +45,12 @@ pub struct Summary {
     pub compactness_ratio: f64,
     /// Longest stretch of the poleward axis between consecutive chosen cells. Units: km.
     pub largest_gap_km: f64,
-    /// Targets met.
+    /// Targets met (absent features never are).
     pub targets_met: usize,
-    /// Targets in the plan.
+    /// Features absent from the region (zero total in their scenario and year): counted
+    /// apart, never met.
+    pub targets_absent: usize,
+    /// Targets in the plan (absent features included).
     pub targets_total: usize,
     /// Cells in the network.
     pub cells_selected: usize,
@@ -100,6 +103,7 @@ impl Summary {
             compactness_ratio: assessment.compactness_ratio,
             largest_gap_km: assessment.largest_gap_km,
             targets_met: assessment.targets_met,
+            targets_absent: assessment.targets_absent,
             targets_total: assessment.coverage.len(),
             cells_selected: assessment.cells_selected,
             cells: grid_cells,
@@ -167,6 +171,7 @@ mod tests {
                 regret: Some(0.5),
                 targets_met: 2,
                 targets: 3,
+                absent: 0,
             }],
             scenario_best: None,
         };
@@ -178,6 +183,7 @@ mod tests {
             reserves: vec![],
             exposed_edge_km: 40.0,
             targets_met: 0,
+            targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 1,
             compactness_ratio: 1.0,

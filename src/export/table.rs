@@ -3,7 +3,7 @@
 use crate::assess::Assessment;
 
 /// Column names of `coverage.csv`, in order.
-pub const COVERAGE_COLUMNS: [&str; 10] = [
+pub const COVERAGE_COLUMNS: [&str; 11] = [
     "feature",
     "kind",
     "species",
@@ -14,11 +14,14 @@ pub const COVERAGE_COLUMNS: [&str; 10] = [
     "target",
     "shortfall",
     "met",
+    "absent",
 ];
 
 /// `coverage.csv`: columns [`COVERAGE_COLUMNS`], one row per feature in assessment order.
 /// Missing species/scenario/year are empty fields; amounts are in each feature's own unit,
-/// written in shortest round-trip form; `met` is `true`/`false`.
+/// written in shortest round-trip form; `met` is `true`/`false`; `absent` is `true` for a
+/// feature with no amount anywhere in the region (never met, see
+/// [`crate::features::absent`]).
 pub fn coverage_csv(assessment: &Assessment) -> String {
     let rows = assessment.coverage.iter().map(|c| {
         vec![
@@ -32,6 +35,7 @@ pub fn coverage_csv(assessment: &Assessment) -> String {
             c.target.to_string(),
             c.shortfall.to_string(),
             c.met.to_string(),
+            c.absent.to_string(),
         ]
     });
     csv_text(&COVERAGE_COLUMNS, rows)
@@ -88,6 +92,7 @@ mod tests {
             reserves: vec![],
             exposed_edge_km: 0.0,
             targets_met: 0,
+            targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 0,
             compactness_ratio: f64::NAN,
@@ -131,14 +136,15 @@ mod tests {
                 target: 3.0,
                 shortfall: 0.5,
                 met: false,
+                absent: false,
             }],
             ..empty_assessment()
         };
         // Expected text written out by hand following RFC 4180 quoting.
         assert_eq!(
             coverage_csv(&a),
-            "feature,kind,species,scenario,year,total,held,target,shortfall,met\n\
-             \"habitat/cod, juvenile\",habitat,,ssp2-4.5,2050,10,2.5,3,0.5,false\n"
+            "feature,kind,species,scenario,year,total,held,target,shortfall,met,absent\n\
+             \"habitat/cod, juvenile\",habitat,,ssp2-4.5,2050,10,2.5,3,0.5,false,false\n"
         );
     }
 }

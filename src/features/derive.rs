@@ -47,6 +47,74 @@ pub struct EdgeShift {
     pub leading_km_per_decade: Option<f64>,
     /// Least-squares shift of the trailing edge, poleward positive. Units: km/decade.
     pub trailing_km_per_decade: Option<f64>,
+    /// The leading edge lies within one edge band of the region's poleward limit in some year
+    /// ([`super::edges::edge_clipped`]): its shift measures the region, not the species.
+    pub leading_clipped: bool,
+    /// The trailing edge lies within one edge band of the region's equatorward limit.
+    pub trailing_clipped: bool,
+}
+
+impl EdgeShift {
+    /// `leading`, `trailing`, `both` or empty: the `clipped` column of `edge-shifts.csv`.
+    pub fn clipped_word(&self) -> &'static str {
+        match (self.leading_clipped, self.trailing_clipped) {
+            (true, true) => "both",
+            (true, false) => "leading",
+            (false, true) => "trailing",
+            (false, false) => "",
+        }
+    }
+}
+
+/// One sentence per edge side and set of scenarios, naming the species whose edge is clipped
+/// there, e.g. "trailing edges within one edge band of the region's equatorward limit, so
+/// their shifts measure the region, not the species: cod and ling in ssp1-2.6 and ssp5-8.5".
+pub fn clipped_notes(shifts: &[EdgeShift]) -> Vec<String> {
+    let join = |v: &[String]| -> String {
+        match v {
+            [] => String::new(),
+            [one] => one.clone(),
+            [init @ .., last] => format!("{} and {last}", init.join(", ")),
+        }
+    };
+    let mut out = Vec::new();
+    for (leading, edge, side) in [
+        (true, "leading", "poleward"),
+        (false, "trailing", "equatorward"),
+    ] {
+        // species → scenarios where its edge is clipped, in first-appearance order.
+        let mut per_species: Vec<(String, Vec<String>)> = Vec::new();
+        for s in shifts {
+            let clipped = if leading {
+                s.leading_clipped
+            } else {
+                s.trailing_clipped
+            };
+            if !clipped {
+                continue;
+            }
+            match per_species.iter_mut().find(|(sp, _)| *sp == s.species) {
+                Some((_, sc)) => sc.push(s.scenario.clone()),
+                None => per_species.push((s.species.clone(), vec![s.scenario.clone()])),
+            }
+        }
+        // scenario list → species, in first-appearance order.
+        let mut groups: Vec<(Vec<String>, Vec<String>)> = Vec::new();
+        for (sp, sc) in per_species {
+            match groups.iter_mut().find(|(k, _)| *k == sc) {
+                Some((_, v)) => v.push(sp),
+                None => groups.push((sc, vec![sp])),
+            }
+        }
+        for (scenarios, species) in groups {
+            out.push(format!(
+                "{edge} edges within one edge band of the region's {side} limit, so their shifts measure the region, not the species: {} in {}",
+                join(&species),
+                join(&scenarios)
+            ));
+        }
+    }
+    out
 }
 
 /// Everything the `[climate]` section derives.
@@ -184,7 +252,8 @@ fn above_share(grid: &Grid, list: &[(u32, f64)], share: f64) -> Vec<(u32, f64)> 
 }
 
 fn sparse_total(amounts: &[(u32, f64)]) -> f64 {
-    amounts.iter().map(|a| a.1).sum()
+    // An empty f64 sum is −0.0 (an absent feature); + 0.0 keeps "-0" out of outputs.
+    amounts.iter().map(|a| a.1).sum::<f64>() + 0.0
 }
 
 /// What is shared by every feature a seam call makes.
@@ -709,6 +778,8 @@ impl ScenarioCtx<'_> {
                     poleward_sign: f64::NAN,
                     leading_km_per_decade: None,
                     trailing_km_per_decade: None,
+                    leading_clipped: false,
+                    trailing_clipped: false,
                 });
                 continue;
             }
@@ -719,6 +790,22 @@ impl ScenarioCtx<'_> {
                 poleward_sign: edges.poleward_sign,
                 leading_km_per_decade: edges.leading_shift_km_per_decade,
                 trailing_km_per_decade: edges.trailing_shift_km_per_decade,
+                leading_clipped: super::edges::edge_clipped(
+                    &edges.leading_km,
+                    &self.edge_axis.km,
+                    edges.poleward_sign,
+                    params.band_km,
+                    true,
+                ),
+                trailing_clipped: super::edges::edge_clipped(
+                    &edges.trailing_km,
+                    &self.edge_axis.km,
+                    edges.poleward_sign,
+                    plan.trailing_edge
+                        .as_ref()
+                        .map_or(params.band_km, |e| e.band_km),
+                    false,
+                ),
             });
             if let Some(e) = &plan.leading_edge {
                 out.features.extend(self.maker.per_year(

@@ -194,6 +194,41 @@ impl Default for EdgeParams {
     }
 }
 
+/// Whether an edge is clipped by the region: in some year its position lies within `band_km`
+/// of the region's own limit on its side (the poleward limit for a leading edge, the
+/// equatorward one for a trailing edge), so the habitat may well go on beyond the region and
+/// the edge's shift measures the region's boundary rather than the species.
+///
+/// `edge_km` are the edge's positions per year along the axis (`None`: no habitat that year),
+/// `region_km` every cell's position on the same axis, `poleward_sign` as in
+/// [`RangeEdges::poleward_sign`]. Units: km.
+pub fn edge_clipped(
+    edge_km: &[Option<f64>],
+    region_km: &[f64],
+    poleward_sign: f64,
+    band_km: f64,
+    leading: bool,
+) -> bool {
+    if !poleward_sign.is_finite() || region_km.is_empty() {
+        return false;
+    }
+    // Poleward positions: larger is further poleward.
+    let pole = |x: f64| poleward_sign * x;
+    let (lo, hi) = region_km
+        .iter()
+        .map(|&x| pole(x))
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+            (a.min(x), b.max(x))
+        });
+    edge_km.iter().flatten().any(|&e| {
+        if leading {
+            pole(e) >= hi - band_km
+        } else {
+            pole(e) <= lo + band_km
+        }
+    })
+}
+
 /// Range edges of one species in one scenario.
 #[derive(Debug, Clone, PartialEq)]
 pub struct RangeEdges {
@@ -343,6 +378,28 @@ pub fn range_edges(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn clipped_edges_by_hand() {
+        // Region positions 0…100 km, poleward toward growing positions (+1), band 10 km.
+        let region: Vec<f64> = (0..=10).map(|k| 10.0 * k as f64).collect();
+        // Leading edge at 85 then 92 km: 92 ≥ 100 − 10 → clipped; 85 alone is not.
+        assert!(edge_clipped(
+            &[Some(85.0), Some(92.0)],
+            &region,
+            1.0,
+            10.0,
+            true
+        ));
+        assert!(!edge_clipped(&[Some(85.0), None], &region, 1.0, 10.0, true));
+        // Trailing edge at 8 km: within 10 km of the equatorward limit 0 → clipped.
+        assert!(edge_clipped(&[Some(8.0)], &region, 1.0, 10.0, false));
+        assert!(!edge_clipped(&[Some(12.0)], &region, 1.0, 10.0, false));
+        // Poleward toward shrinking positions (southern hemisphere on a northward axis): the
+        // poleward limit is position 0, so a leading edge at 8 km is clipped.
+        assert!(edge_clipped(&[Some(8.0)], &region, -1.0, 10.0, true));
+        assert!(!edge_clipped(&[Some(8.0)], &region, f64::NAN, 10.0, true));
+    }
     use crate::grid::Crs;
     use geographiclib_rs::{Geodesic, InverseGeodesic};
 

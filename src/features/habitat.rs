@@ -32,7 +32,8 @@ pub fn habitat_feature(grid: &Grid, layer: &HabitatLayer<'_>) -> Feature {
         .filter(|(_, (s, _))| **s > 0.0)
         .map(|(i, (s, c))| (i as u32, s * c.sea_area_km2))
         .collect();
-    let total = amounts.iter().map(|(_, a)| a).sum();
+    // An empty f64 sum is −0.0 (a species with no habitat); + 0.0 keeps "-0" out of outputs.
+    let total = amounts.iter().map(|(_, a)| a).sum::<f64>() + 0.0;
     Feature {
         name: format!(
             "habitat/{}/{}/{}",

@@ -1,6 +1,7 @@
 //! Features stage: turns layers (and derived climate layers) into a [`FeatureTable`] of sparse
 //! per-cell amounts, each with its scenario, year, kind and target.
 
+pub mod absent;
 pub mod boundary;
 pub mod corridor;
 pub mod derive;

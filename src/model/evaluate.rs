@@ -33,10 +33,12 @@ pub struct ScenarioResult {
     pub best: Option<f64>,
     /// max(Bₛ* − Bₛ, 0) when Bₛ* is known (≥ 0 by definition). Units: weighted targets.
     pub regret: Option<f64>,
-    /// Targets of this scenario's features that are met.
+    /// Targets of this scenario's features that are met (absent features never are).
     pub targets_met: usize,
-    /// Number of this scenario's features.
+    /// Number of this scenario's features (absent ones included).
     pub targets: usize,
+    /// This scenario's features with no amount anywhere (absent: never met).
+    pub absent: usize,
 }
 
 /// Everything about a network, recomputed from raw amounts.
@@ -48,8 +50,11 @@ pub struct Evaluation {
     pub area_km2: f64,
     /// Amount of each feature held (feature order).
     pub held: Vec<f64>,
-    /// Whether each feature's target is met (up to [`TOLERANCE`]).
+    /// Whether each feature's target is met (up to [`TOLERANCE`]); never for an absent one.
     pub met: Vec<bool>,
+    /// Whether each feature is absent: no positive amount in any cell (e.g. a species gone
+    /// from the region). Absent features are never met, and never make a network infeasible.
+    pub absent: Vec<bool>,
     /// Number of features whose target is met.
     pub targets_met: usize,
     /// Per-scenario benefit, regret and targets met.
@@ -64,11 +69,12 @@ pub struct Evaluation {
     pub within_budget: bool,
     /// Every required cell chosen and no excluded cell chosen.
     pub status_respected: bool,
-    /// All hard rules hold: cell status, budget, max gap, minimum size and, for min-cost,
-    /// every target.
+    /// All hard rules hold: cell status, budget, max gap, minimum size, for min-cost every
+    /// target, and a kept objective ([`Problem::keep_objective`]).
     pub feasible: bool,
     /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
-    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown).
+    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown);
+    /// the cost alone when the problem keeps an objective ([`Problem::keep_objective`]).
     pub objective: f64,
 }
 
@@ -97,11 +103,17 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 .sum()
         })
         .collect();
+    let absent: Vec<bool> = problem
+        .features
+        .iter()
+        .map(|f| !f.amounts.iter().any(|(_, a)| *a > 0.0))
+        .collect();
     let met: Vec<bool> = problem
         .features
         .iter()
         .zip(&held)
-        .map(|(f, h)| at_least(*h, f.target))
+        .zip(&absent)
+        .map(|((f, h), &gone)| !gone && at_least(*h, f.target))
         .collect();
     let credit = |k: usize| -> f64 {
         let f = &problem.features[k];
@@ -134,6 +146,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 regret: b_star.map(|b| (b - benefit).max(0.0)),
                 targets_met: ks.iter().filter(|&&k| met[k]).count(),
                 targets: ks.len(),
+                absent: ks.iter().filter(|&&k| absent[k]).count(),
             }
         })
         .collect();
@@ -159,13 +172,9 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     let lone_cells = problem.min_reserve.as_ref().map_or_else(Vec::new, |m| {
         m.lone_cells(&problem.status, &problem.area_km2, selected)
     });
-    let all_met = met.iter().all(|m| *m);
-    let feasible = status_respected
-        && within_budget
-        && gap.as_ref().is_none_or(|g| g.met)
-        && lone_cells.is_empty()
-        && (problem.objective == Objective::MaxBenefit || all_met);
-    let objective = match problem.objective {
+    // An absent feature's target is zero, so it binds nothing (it is not met either).
+    let all_met = met.iter().zip(&absent).all(|(m, a)| *m || *a);
+    let first = match problem.objective {
         Objective::MinCost => cost + penalty,
         Objective::MaxBenefit => {
             let benefits: Vec<f64> = scenarios.iter().map(|s| s.benefit).collect();
@@ -177,12 +186,34 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
             }
         }
     };
+    // A kept objective (lexicographic second stage) is checked with twice the solver's slack,
+    // so a network the solver accepted within its row tolerance is not called infeasible here.
+    let keeps = problem.keep_objective.is_none_or(|v| {
+        let slack = 2.0 * super::keep_slack(v);
+        if is_minimisation(problem) {
+            first <= v + slack
+        } else {
+            first >= v - slack
+        }
+    });
+    let feasible = status_respected
+        && within_budget
+        && gap.as_ref().is_none_or(|g| g.met)
+        && lone_cells.is_empty()
+        && (problem.objective == Objective::MaxBenefit || all_met)
+        && keeps;
+    let objective = if problem.keep_objective.is_some() {
+        cost
+    } else {
+        first
+    };
     Evaluation {
         cost,
         area_km2,
         targets_met: met.iter().filter(|m| **m).count(),
         held,
         met,
+        absent,
         scenarios,
         exposed_edge_km: exposed,
         gap,
@@ -234,6 +265,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         }
     }
 

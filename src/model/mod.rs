@@ -137,6 +137,25 @@ pub struct Problem {
     /// needed by [`Robustness::LeastRegret`] and to report regret. `None`: the solver computes it
     /// first (see `solve::with_scenario_best`). Units: weighted targets (see [`robust`]).
     pub scenario_best: Option<Vec<f64>>,
+    /// Lexicographic second stage of a max-benefit problem: `Some(v)` keeps the objective at
+    /// least as good as `v` (≥ [`keep_floor`]`(v)` when maximised, ≤ the mirror when minimised,
+    /// as least-regret is) and minimises the total cost among such networks; the objective of
+    /// the solve is then that cost. The budget sweep uses it so that a budget too small for
+    /// every target does not spend cost that buys no benefit. Exact solvers only.
+    pub keep_objective: Option<f64>,
+}
+
+/// Slack below a kept objective `v` (module [`Problem::keep_objective`]): the first stage's
+/// own network must stay feasible although the solver recomputes its objective with row
+/// tolerances of about 1e-7 (HiGHS primal feasibility tolerance; from memory); 1e-6 relative is
+/// above that and far below any benefit difference a planner acts on.
+pub fn keep_slack(v: f64) -> f64 {
+    1e-6 * v.abs().max(1.0)
+}
+
+/// The least objective a kept maximisation may reach: `v −` [`keep_slack`]`(v)`.
+pub fn keep_floor(v: f64) -> f64 {
+    v - keep_slack(v)
 }
 
 impl ModelFeature {

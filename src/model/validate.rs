@@ -192,6 +192,15 @@ impl Problem {
                 "scenarios",
             )?;
         }
+        if let Some(v) = self.keep_objective {
+            if self.objective != Objective::MaxBenefit || !v.is_finite() {
+                return Err(ModelError::Combination(format!(
+                    "a kept objective ({v}) is the second stage of a max-benefit problem: it \
+                     needs objective `max-benefit` and a finite value (min-cost already \
+                     minimises cost)"
+                )));
+            }
+        }
         if self.objective == Objective::MinCost && self.robustness == Robustness::Expected {
             return Err(ModelError::Combination(
                 "`min-cost` with `expected` is not supported: min-cost holds every target in \
@@ -259,6 +268,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         }
     }
 

@@ -139,6 +139,7 @@ mod tests {
             target,
             shortfall: (target - held).max(0.0),
             met: held >= target,
+            absent: false,
         }
     }
 

@@ -8,6 +8,7 @@
 
 mod cells_path;
 mod chart;
+mod compare_page;
 mod coverage_chart;
 mod escape;
 mod feature_map;
@@ -16,8 +17,10 @@ mod network_map;
 mod palette;
 mod tables;
 
+pub use compare_page::{compare_report_html, CompareReport};
+
 use crate::assess::{Coverage, Reserve};
-use crate::export::{ExportError, CAUTION};
+use crate::export::{ExportError, BENEFIT, CAUTION};
 use crate::grid::Grid;
 use crate::model::CellStatus;
 use chart::{line_chart, Chart, Series};
@@ -49,6 +52,28 @@ pub struct ReportInput<'a> {
     pub stress: Option<StressTable>,
     /// The cost–benefit curve of a budget sweep, in budget order.
     pub sweep: Option<Vec<SweepPoint>>,
+    /// Several networks drawn side by side (each budget of a sweep), after the network map.
+    pub panels: Option<NetworkPanels>,
+}
+
+/// One network of several drawn side by side.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NetworkPanel {
+    /// Caption (e.g. `budget 10%: cost 812, 34 of 40 targets met`).
+    pub label: String,
+    /// Its reserves (`Assessment::reserves`).
+    pub reserves: Vec<Reserve>,
+}
+
+/// Networks drawn side by side under one heading.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NetworkPanels {
+    /// Section heading.
+    pub title: String,
+    /// One sentence under the heading (what the panels show).
+    pub note: String,
+    /// The networks, in display order.
+    pub panels: Vec<NetworkPanel>,
 }
 
 /// One cell of the stress table: a network designed for one scenario, evaluated in another.
@@ -128,6 +153,9 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         chosen,
         grid.len()
     );
+    if let Some(p) = &input.panels {
+        s.push_str(&panels_html(grid, input.status, p));
+    }
     if !input.feature_maps.is_empty() {
         s.push_str("<h2>Maps of derived features and layers</h2>\n<div class=\"maps\">");
         for (k, (name, values)) in input.feature_maps.iter().enumerate() {
@@ -149,12 +177,16 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         s.push_str("</div>\n");
     }
     if let Some(t) = &input.stress {
-        s.push_str("<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets met and benefit. ✓ all met, △ at least half, ✗ fewer.</p>\n");
+        let _ = writeln!(s, "<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets met and benefit. ✓ all met, △ at least half, ✗ fewer. {}.</p>", esc(&capital(BENEFIT)));
         s.push_str(&tables::stress_table(t));
         s.push('\n');
     }
     if let Some(points) = &input.sweep {
-        s.push_str("<h2>Budget sweep</h2>\n");
+        let _ = writeln!(
+            s,
+            "<h2>Budget sweep</h2>\n<p class=\"small\">The best benefit each budget buys, at the least cost for that benefit. {}.</p>",
+            esc(&capital(BENEFIT))
+        );
         let series = [Series {
             label: "benefit".into(),
             points: points
@@ -180,6 +212,34 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         esc(env!("CARGO_PKG_VERSION"))
     );
     Ok(s)
+}
+
+/// A heading, a note and small network maps side by side, each with its caption.
+pub(crate) fn panels_html(grid: &Grid, status: &[CellStatus], p: &NetworkPanels) -> String {
+    let mut s = format!(
+        "<h2>{}</h2>\n<p class=\"small\">{}</p>\n<div class=\"maps\">",
+        esc(&p.title),
+        esc(&p.note)
+    );
+    for panel in &p.panels {
+        let _ = write!(
+            s,
+            "<figure>{}<figcaption>{}</figcaption></figure>",
+            network_map::network_panel(grid, status, &panel.reserves, &panel.label),
+            esc(&panel.label)
+        );
+    }
+    s.push_str("</div>\n");
+    s
+}
+
+/// `text` with its first letter in upper case (a sentence made of a definition).
+fn capital(text: &str) -> String {
+    let mut c = text.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
 }
 
 /// Checks every per-cell vector and the stress table's shape.
@@ -208,6 +268,17 @@ fn check(input: &ReportInput) -> Result<(), ExportError> {
                 expected: n,
                 got: bad as usize + 1,
             });
+        }
+    }
+    for panel in input.panels.iter().flat_map(|p| &p.panels) {
+        for r in &panel.reserves {
+            if let Some(&bad) = r.cells.iter().find(|&&c| c as usize >= n) {
+                return Err(ExportError::Length {
+                    what: format!("network `{}` (cell id {bad})", panel.label),
+                    expected: n,
+                    got: bad as usize + 1,
+                });
+            }
         }
     }
     if let Some(t) = &input.stress {
@@ -270,6 +341,7 @@ mod tests {
                     gap: 0.01,
                 },
             ]),
+            panels: None,
         }
     }
 

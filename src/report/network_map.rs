@@ -103,6 +103,75 @@ pub(crate) fn network_map(grid: &Grid, status: &[CellStatus], reserves: &[Reserv
     s
 }
 
+/// Largest side of a small network map, several of which sit side by side. Units: SVG units.
+const PANEL_MAX: f64 = 340.0;
+
+/// A small inline SVG of one network among several (sweep budgets, compared networks): sea,
+/// excluded cells (plain tint), reserves and required cells (outlined), and a scale bar. It
+/// defines no ids, so any number of panels can share a page. `status` and `reserves` are
+/// checked by the caller.
+pub(crate) fn network_panel(
+    grid: &Grid,
+    status: &[CellStatus],
+    reserves: &[Reserve],
+    label: &str,
+) -> String {
+    let frame = MapFrame::fit(grid, PANEL_MAX, PANEL_MAX);
+    let w = frame.width + 2.0 * PAD;
+    let h = frame.height + 2.0 * PAD + 30.0;
+    let mut s = String::new();
+    let _ = write!(
+        s,
+        r#"<svg class="map panel" viewBox="0 0 {w} {h}" width="{w}" height="{h}" role="img" aria-label="Map of the network {l}: {n} reserves">"#,
+        w = round1(w),
+        h = round1(h),
+        l = esc(label),
+        n = reserves.len()
+    );
+    let _ = write!(
+        s,
+        r##"<rect x="0" y="0" width="{}" height="{}" fill="#ffffff"/>"##,
+        round1(w),
+        round1(h)
+    );
+    push_path(
+        &mut s,
+        "sea",
+        &cells_path(grid, &frame, |_| true),
+        &format!(r#"fill="{SEA}" stroke="none""#),
+    );
+    push_path(
+        &mut s,
+        "excluded",
+        &cells_path(grid, &frame, |id| {
+            status.get(id as usize) == Some(&CellStatus::Excluded)
+        }),
+        &format!(r#"fill="{EXCLUDED}" fill-opacity="0.35" stroke="none""#),
+    );
+    s.push_str(r#"<g class="reserves">"#);
+    for (k, r) in reserves.iter().enumerate() {
+        let mut d = String::new();
+        frame.push_multipolygon(&mut d, &dissolve(grid, &r.cells));
+        let _ = write!(
+            s,
+            r##"<path class="reserve" data-reserve="{}" fill="{RESERVE}" fill-opacity="0.85" stroke="#1a1a1a" stroke-width="0.8" fill-rule="evenodd" d="{d}"/>"##,
+            k + 1
+        );
+    }
+    s.push_str("</g>");
+    push_path(
+        &mut s,
+        "required",
+        &cells_path(grid, &frame, |id| {
+            status.get(id as usize) == Some(&CellStatus::Required)
+        }),
+        &format!(r#"fill="none" stroke="{REQUIRED}" stroke-width="1""#),
+    );
+    push_scale_bar(&mut s, &frame);
+    s.push_str("</svg>");
+    s
+}
+
 fn push_path(s: &mut String, class: &str, d: &str, style: &str) {
     if d.is_empty() {
         return;
@@ -272,6 +341,7 @@ mod tests {
             reserves: res.clone(),
             exposed_edge_km: 0.0,
             targets_met: 0,
+            targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 11,
             compactness_ratio: f64::NAN,

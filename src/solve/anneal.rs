@@ -72,6 +72,7 @@ impl Solver for Anneal {
 
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
+        super::exact_only(problem, self.name())?;
         let problem = with_scenario_best(problem, self, options)?;
         let p = &problem;
         let free: Vec<usize> = (0..p.n_cells())

@@ -36,7 +36,8 @@ impl Solver for BruteForce {
                 free.len()
             )));
         }
-        let minimise = is_minimisation(&problem);
+        // A kept objective minimises cost (evaluate reports it as the objective).
+        let minimise = is_minimisation(&problem) || problem.keep_objective.is_some();
         let mut sel: Vec<bool> = problem
             .status
             .iter()

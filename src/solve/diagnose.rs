@@ -406,6 +406,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         }
     }
 

@@ -293,6 +293,7 @@ impl Solver for Greedy {
 
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
+        super::exact_only(problem, self.name())?;
         let problem = with_scenario_best(problem, self, options)?;
         let sel = greedy_network(&problem)?;
         let objective = evaluate(&problem, &sel).objective;
@@ -353,6 +354,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            keep_objective: None,
         };
         let s = Greedy.solve(&p, &SolveOptions::default()).unwrap();
         assert_eq!(s.selected, vec![false, false, true]);

@@ -22,7 +22,9 @@
 //!
 //! # Objective
 //! min Σ cᵢxᵢ + w·exposed (min-cost); max Σₛ Bₛ, t or Σ πₛBₛ minus w·exposed (max-benefit);
-//! min r + w·exposed (least-regret), exposed = Σ Pᵢxᵢ − 2 Σ lᵢⱼzᵢⱼ.
+//! min r + w·exposed (least-regret), exposed = Σ Pᵢxᵢ − 2 Σ lᵢⱼzᵢⱼ. With a kept objective
+//! ([`Problem::keep_objective`]) that objective becomes a row (≥ its floor, or ≤ for
+//! least-regret) and min Σ cᵢxᵢ the objective.
 
 use std::time::Instant;
 
@@ -232,6 +234,22 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         }
     }
 
+    // Lexicographic second stage: the first objective becomes a row, cost the objective.
+    let (objective, minimise) = match problem.keep_objective {
+        None => (objective, minimise),
+        Some(v) => {
+            if minimise {
+                constraints.push(constraint::leq(objective, v + crate::model::keep_slack(v)));
+            } else {
+                constraints.push(constraint::geq(objective, crate::model::keep_floor(v)));
+            }
+            let mut cost = Expression::with_capacity(n);
+            for (i, &xi) in x.iter().enumerate() {
+                cost.add_mul(problem.cost[i], xi);
+            }
+            (cost, true)
+        }
+    };
     if let Some(limit) = problem.budget.max_cost {
         let mut e = Expression::with_capacity(n);
         for (i, &xi) in x.iter().enumerate() {
@@ -430,7 +448,8 @@ impl Solver for Highs {
                 return Err(SolveError::Infeasible(short));
             }
         }
-        let warm = if self.warm_start {
+        // Greedy knows no kept objective, so its network could break that row.
+        let warm = if self.warm_start && problem.keep_objective.is_none() {
             greedy_network(&problem).ok()
         } else {
             None

@@ -194,6 +194,18 @@ pub fn with_scenario_best(
     Ok(out)
 }
 
+/// Heuristics search on the first objective only; a kept objective (lexicographic second
+/// stage, [`Problem::keep_objective`]) needs an exact solver.
+pub(crate) fn exact_only(problem: &Problem, solver: &str) -> Result<(), SolveError> {
+    match problem.keep_objective {
+        None => Ok(()),
+        Some(_) => Err(SolveError::Model(ModelError::Combination(format!(
+            "`{solver}` cannot hold a kept objective while minimising cost; use the exact \
+             solver (HiGHS) or brute force"
+        )))),
+    }
+}
+
 /// Assemble a [`Solution`], taking the per-scenario report from `model::evaluate`.
 #[allow(clippy::too_many_arguments)]
 pub(crate) fn make_solution(

@@ -29,6 +29,11 @@ impl SelectionFrequency {
 }
 
 impl SelectionFrequency {
+    /// Every cell's class word ([`SelectionFrequency::class`]), in cell order.
+    pub fn classes(&self) -> Vec<&'static str> {
+        (0..self.share.len()).map(|i| self.class(i)).collect()
+    }
+
     /// The robust core: cells chosen in every network.
     pub fn core(&self) -> Vec<bool> {
         (0..self.share.len())

@@ -8,4 +8,4 @@ pub mod sweep;
 
 pub use frequency::{selection_frequency, SelectionFrequency};
 pub use stress::{single_scenario_problem, stress_test, StressMatrix, StressRow};
-pub use sweep::{parse_budgets, sweep, Sweep, SweepRun};
+pub use sweep::{parse_budgets, sweep, sweep_of, Sweep, SweepBudget, SweepRun};

@@ -236,6 +236,7 @@ mod tests {
             regret: None,
             targets_met: met,
             targets: 2,
+            absent: 0,
         }
     }
 

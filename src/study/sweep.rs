@@ -1,23 +1,54 @@
 //! Budget sweep: one max-benefit solve per budget (a share of the region's sea area), giving
 //! the cost–benefit curve and, per feature, the smallest budget at which its target is met.
-//! A budget that buys every target gets the least-cost network that holds them all (rather
-//! than an arbitrary one that spends the whole budget), so the curve flattens in cost too.
+//! Each budget gets the least cost for what it buys:
+//! * a budget that buys every target gets the least-cost network that holds them all;
+//! * a smaller one is solved lexicographically: the best benefit of the plan's rule first,
+//!   then the least cost at that benefit ([`Problem::keep_objective`]),
+//!
+//! so no budget spends cost that buys nothing. Measured in cost ([`SweepBudget::Cost`]), cost
+//! then never falls as the budget grows: a larger budget's network either fits the smaller
+//! budget, and then buys no more and costs no less, or costs more than the smaller budget,
+//! which bounds the smaller network's cost. The same holds for area budgets when cost is the
+//! cells' area. With an area budget and another cost layer, a larger area budget can admit a
+//! cheaper network of the same benefit; [`Sweep::cost_falls`] lists where that happens.
 //! Budgets are solved in parallel, one solver thread each, and collected in budget order, so
 //! the result does not depend on the number of threads (unless a time limit cuts solves short).
 
 use rayon::prelude::*;
 
-use crate::model::{evaluate, Objective, Problem};
+use crate::model::{evaluate, Objective, Problem, Robustness};
 use crate::solve::ilp::Highs;
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
+
+/// What a sweep's budget shares are shares of.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SweepBudget {
+    /// Of the region's sea area (`budget.max_area_km2` per run). Units: km².
+    Area(f64),
+    /// Of the whole region's cost (`budget.max_cost` per run): with the budget in the cost's
+    /// own unit, cost never falls as the budget grows (module doc). Units: the plan's cost.
+    Cost(f64),
+}
+
+impl SweepBudget {
+    /// The word used in outputs: `area` or `cost`.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            SweepBudget::Area(_) => "area",
+            SweepBudget::Cost(_) => "cost",
+        }
+    }
+}
 
 /// One budget's solve.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SweepRun {
-    /// Budget as a share of the region's sea area (0–1).
+    /// Budget as a share of the region's sea area or cost (0–1, see [`SweepBudget`]).
     pub share: f64,
-    /// The same budget as area. Units: km².
+    /// The budget as area (NaN when the budget is a share of cost). Units: km².
     pub budget_km2: f64,
+    /// The budget as cost (NaN when the budget is a share of area).
+    pub budget_cost: f64,
     /// The solve (objective = combined benefit of the plan's rule, minus any edge penalty).
     pub solution: Solution,
     /// Cost of the network.
@@ -28,11 +59,9 @@ pub struct SweepRun {
     pub targets_met: usize,
     /// Whether each feature's target is met, in feature order.
     pub met: Vec<bool>,
-    /// Whether the budget buys every target, so the network is the least-cost one that holds
-    /// them all (the max-benefit optimum is then not unique and would spend the budget on
-    /// nothing); `solution` is that min-cost network, its objective the benefit again.
-    pub cost_minimised: bool,
-    /// Relative gap of that least-cost solve (NaN when not cost-minimised).
+    /// Relative gap of the least-cost stage (module doc). `solution` is that stage's network
+    /// with the benefit as its objective; its status, bound and gap are the benefit stage's
+    /// (or proven optimal when every target is met: no benefit is higher).
     pub cost_gap: f64,
 }
 
@@ -53,6 +82,30 @@ impl Sweep {
             .map(|k| self.runs.iter().find(|r| r.met[k]).map(|r| r.share))
             .collect()
     }
+}
+
+impl Sweep {
+    /// Consecutive budgets `(smaller, larger)` (indices into `runs`) where the cost falls as
+    /// the budget grows by more than round-off. Empty for cost budgets and when cost is the
+    /// cells' area (module doc); otherwise worth telling the planner: the smaller budget's
+    /// network costs more than a network of at least its benefit that needs more area.
+    pub fn cost_falls(&self) -> Vec<(usize, usize)> {
+        (1..self.runs.len())
+            .filter(|&i| {
+                let (a, b) = (self.runs[i - 1].cost, self.runs[i].cost);
+                b < a - 1e-9 * a.abs().max(1.0)
+            })
+            .map(|i| (i - 1, i))
+            .collect()
+    }
+}
+
+/// File stem of one budget's network: `budget-10pct` for 10 %, `budget-2.5pct` for 2.5 %
+/// (the percentage to at most six decimals, trailing zeros dropped).
+pub fn budget_stem(share: f64) -> String {
+    let pct = format!("{:.6}", 100.0 * share);
+    let pct = pct.trim_end_matches('0').trim_end_matches('.');
+    format!("budget-{pct}pct")
 }
 
 /// Parses a budget list such as `5%,10%,20%` or `0.05,0.1`, with `...` to continue an even
@@ -120,7 +173,47 @@ pub fn sweep(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Sweep, SolveError> {
+    sweep_of(
+        problem,
+        shares,
+        SweepBudget::Area(sea_area_km2),
+        options,
+        on_solved,
+    )
+}
+
+/// [`sweep`] with the budget shares taken of the region's area or of its total cost. A cost
+/// budget replaces the plan's `max_cost` and keeps its area limit; an area budget replaces the
+/// area limit and keeps `max_cost`.
+pub fn sweep_of(
+    problem: &Problem,
+    shares: &[f64],
+    of: SweepBudget,
+    options: &SolveOptions,
+    on_solved: &(dyn Fn() + Sync),
+) -> Result<Sweep, SolveError> {
     problem.validate()?;
+    // Required cells are in every network: a budget below their use cannot be solved, and
+    // the planner needs to hear which budget and where to start instead.
+    let (used, total, unit) = match of {
+        SweepBudget::Area(total) => (
+            required_sum(problem, &problem.area_km2),
+            total,
+            "the sea area",
+        ),
+        SweepBudget::Cost(total) => (required_sum(problem, &problem.cost), total, "the cost"),
+    };
+    if let Some(&low) = shares.iter().find(|&&s| s * total < used) {
+        return Err(SolveError::Model(crate::model::ModelError::Combination(
+            format!(
+                "budget {:.1}% ({:.1}) is less than the required cells alone use ({used:.1}, {:.1}% of {unit}); start the sweep at a budget of at least {:.1}%",
+                100.0 * low,
+                low * total,
+                100.0 * used / total,
+                (1000.0 * used / total).ceil() / 10.0
+            ),
+        )));
+    }
     let one_thread = SolveOptions {
         threads: Some(1),
         ..options.clone()
@@ -131,40 +224,97 @@ pub fn sweep(
             let mut p = problem.clone();
             p.objective = Objective::MaxBenefit;
             p.scenario_best = None;
-            p.budget.max_area_km2 = Some(share * sea_area_km2);
-            let mut solution = Highs::default().solve(&p, &one_thread)?;
-            let mut e = evaluate(&p, &solution.selected);
-            let mut cost_minimised = false;
-            let mut cost_gap = f64::NAN;
-            if e.targets_met == e.met.len() {
-                // Every target held: the least-cost network holding them all under the same
-                // budget and rules (feasible: the max-benefit network is one).
-                let mut q = p.clone();
-                q.objective = Objective::MinCost;
-                q.robustness = crate::model::Robustness::EveryScenario;
-                let cheap = Highs::default().solve(&q, &one_thread)?;
-                let objective = evaluate(&p, &cheap.selected).objective;
-                cost_gap = cheap.gap;
-                // Every target met is the most benefit there is: proven optimal as benefit.
-                solution = crate::solve::Solution {
-                    objective,
-                    bound: objective,
-                    gap: 0.0,
-                    status: crate::solve::SolveStatus::Optimal,
-                    ..cheap
-                };
-                e = evaluate(&p, &solution.selected);
-                cost_minimised = true;
+            match of {
+                SweepBudget::Area(total) => p.budget.max_area_km2 = Some(share * total),
+                SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
             }
+            let first = Highs::default().solve(&p, &one_thread)?;
+            let e = evaluate(&p, &first.selected);
+            let mut q = p.clone();
+            q.objective = Objective::MinCost;
+            q.robustness = Robustness::EveryScenario;
+            // Whether the budget buys every target. The benefit stage shows it when its network
+            // meets them all; under worst-case and least-regret a network of the best benefit
+            // may miss targets of the easier scenarios although the budget buys them, so the
+            // least-cost every-target solve is tried and an infeasible one means no.
+            let absent = e.absent.iter().filter(|a| **a).count();
+            let every_target = if e.targets_met + absent == e.met.len() {
+                Some(Highs::default().solve(&q, &one_thread)?)
+            } else if matches!(
+                p.robustness,
+                Robustness::WorstCase | Robustness::LeastRegret
+            ) {
+                match Highs::default().solve(&q, &one_thread) {
+                    Ok(s) => Some(s),
+                    Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => None,
+                    Err(other) => return Err(other),
+                }
+            } else {
+                None
+            };
+            let (solution, e, cost_gap) = match every_target {
+                Some(cheap) => {
+                    // The least-cost network holding every target under the same budget and
+                    // rules; every target met is the most benefit there is: proven optimal.
+                    let e = evaluate(&p, &cheap.selected);
+                    let cost_gap = cheap.gap;
+                    let solution = crate::solve::Solution {
+                        objective: e.objective,
+                        bound: e.objective,
+                        gap: 0.0,
+                        status: crate::solve::SolveStatus::Optimal,
+                        seconds: first.seconds + cheap.seconds,
+                        scenarios: e.scenarios.clone(),
+                        ..cheap
+                    };
+                    (solution, e, cost_gap)
+                }
+                None => {
+                    // Lexicographic: the best benefit first, then the least cost at that
+                    // benefit, so cost buys benefit and is not spent for nothing.
+                    let q = Problem {
+                        keep_objective: Some(e.objective),
+                        ..p.clone()
+                    };
+                    // The benefit stage's network meets the kept row, so the cost stage cannot be
+                    // infeasible; if the solver finds no network in its time (it gets no warm
+                    // start: greedy knows no kept row), the benefit stage's network stands.
+                    let cheap = match Highs::default().solve(&q, &one_thread) {
+                        Ok(c) => c,
+                        Err(SolveError::Solver(_)) => crate::solve::Solution {
+                            gap: f64::NAN,
+                            ..first.clone()
+                        },
+                        Err(other) => return Err(other),
+                    };
+                    let kept = evaluate(&p, &cheap.selected);
+                    // The benefit stage's status, bound and gap stand: the second stage only
+                    // chooses among networks with (within slack) the same benefit.
+                    let solution = crate::solve::Solution {
+                        objective: kept.objective,
+                        scenarios: kept.scenarios.clone(),
+                        selected: cheap.selected,
+                        seconds: first.seconds + cheap.seconds,
+                        ..first
+                    };
+                    (solution, kept, cheap.gap)
+                }
+            };
             on_solved();
             Ok(SweepRun {
                 share,
-                budget_km2: share * sea_area_km2,
+                budget_km2: match of {
+                    SweepBudget::Area(total) => share * total,
+                    SweepBudget::Cost(_) => f64::NAN,
+                },
+                budget_cost: match of {
+                    SweepBudget::Cost(total) => share * total,
+                    SweepBudget::Area(_) => f64::NAN,
+                },
                 cost: e.cost,
                 area_km2: e.area_km2,
                 targets_met: e.targets_met,
                 met: e.met,
-                cost_minimised,
                 cost_gap,
                 solution,
             })
@@ -176,10 +326,22 @@ pub fn sweep(
     })
 }
 
-/// Column names of `sweep.csv`.
-pub const SWEEP_COLUMNS: [&str; 11] = [
+/// Sum of `values` over the required cells.
+fn required_sum(problem: &Problem, values: &[f64]) -> f64 {
+    problem
+        .status
+        .iter()
+        .zip(values)
+        .filter(|(s, _)| **s == crate::model::CellStatus::Required)
+        .map(|(_, v)| v)
+        .sum()
+}
+
+/// Column names of `sweep.csv` before the per-scenario benefit columns.
+pub const SWEEP_COLUMNS: [&str; 10] = [
     "budget_share",
     "budget_km2",
+    "budget_cost",
     "status",
     "gap",
     "objective",
@@ -187,39 +349,69 @@ pub const SWEEP_COLUMNS: [&str; 11] = [
     "area_km2",
     "targets_met",
     "targets",
-    "scenario_benefits",
-    "cost_gap",
 ];
 
-/// `sweep.csv`: the cost–benefit curve, one row per budget; `scenario_benefits` lists
-/// `name=benefit` pairs separated by `;`; `cost_gap` is the gap of the least-cost solve of a
-/// budget that buys every target (empty otherwise).
-pub fn sweep_csv(s: &Sweep) -> String {
-    let rows = s.runs.iter().map(|r| {
-        vec![
-            format!("{:.6}", r.share),
-            format!("{:.3}", r.budget_km2),
-            r.solution.status.as_str().to_string(),
-            format!("{:.6}", r.solution.gap),
-            format!("{:.6}", r.solution.objective),
-            format!("{:.3}", r.cost),
-            format!("{:.3}", r.area_km2),
-            r.targets_met.to_string(),
-            r.met.len().to_string(),
+/// The header of `sweep.csv`: [`SWEEP_COLUMNS`], then `benefit_<scenario>` for each scenario
+/// (in plan order), then `cost_gap`.
+pub fn sweep_columns(s: &Sweep) -> Vec<String> {
+    let mut h: Vec<String> = SWEEP_COLUMNS.iter().map(|c| c.to_string()).collect();
+    if let Some(r) = s.runs.first() {
+        h.extend(
             r.solution
                 .scenarios
                 .iter()
-                .map(|x| format!("{}={:.6}", x.name, x.benefit))
-                .collect::<Vec<_>>()
-                .join(";"),
-            if r.cost_gap.is_nan() {
-                String::new()
-            } else {
-                format!("{:.6}", r.cost_gap)
-            },
-        ]
+                .map(|x| format!("benefit_{}", x.name)),
+        );
+    }
+    h.push("cost_gap".into());
+    h
+}
+
+/// Three decimals, or empty when not a number.
+fn num3(v: f64) -> String {
+    if v.is_nan() {
+        String::new()
+    } else {
+        format!("{v:.3}")
+    }
+}
+
+/// `sweep.csv`: the cost–benefit curve, one row per budget, columns [`sweep_columns`];
+/// `budget_km2` or `budget_cost` is empty, whichever the budget is not measured in.
+/// `objective` is the plan rule's combined benefit; each `benefit_<scenario>` is that
+/// scenario's benefit Bₛ (weighted targets met, partly met ones counting their share; see
+/// [`crate::model::robust`]); `cost_gap` is the relative gap of the least-cost stage (empty
+/// when the solver reports none).
+pub fn sweep_csv(s: &Sweep) -> String {
+    let header = sweep_columns(s);
+    let header: Vec<&str> = header.iter().map(String::as_str).collect();
+    let rows = s.runs.iter().map(|r| {
+        let mut row = vec![
+            format!("{:.6}", r.share),
+            num3(r.budget_km2),
+            num3(r.budget_cost),
+            r.solution.status.as_str().to_string(),
+            format!("{:.6}", r.solution.gap),
+            format!("{:.6}", r.solution.objective + 0.0),
+            format!("{:.3}", r.cost + 0.0),
+            format!("{:.3}", r.area_km2 + 0.0),
+            r.targets_met.to_string(),
+            r.met.len().to_string(),
+        ];
+        row.extend(
+            r.solution
+                .scenarios
+                .iter()
+                .map(|x| format!("{:.6}", x.benefit + 0.0)),
+        );
+        row.push(if r.cost_gap.is_nan() {
+            String::new()
+        } else {
+            format!("{:.6}", r.cost_gap)
+        });
+        row
     });
-    crate::export::table::csv_text(&SWEEP_COLUMNS, rows)
+    crate::export::table::csv_text(&header, rows)
 }
 
 /// `first-met.csv`: per feature, the smallest budget share of the sweep that meets its target
@@ -261,5 +453,14 @@ mod tests {
         assert!(parse_budgets("0%").is_err());
         assert!(parse_budgets("ten").unwrap_err().contains("`ten`"));
         assert!(parse_budgets("10%,...").is_err());
+    }
+
+    #[test]
+    fn budget_file_stems() {
+        // Hand: 0.1 → 10 %, 0.025 → 2.5 %, 1/3 → 33.333333 % (six decimals), 1 → 100 %.
+        assert_eq!(budget_stem(0.1), "budget-10pct");
+        assert_eq!(budget_stem(0.025), "budget-2.5pct");
+        assert_eq!(budget_stem(1.0 / 3.0), "budget-33.333333pct");
+        assert_eq!(budget_stem(1.0), "budget-100pct");
     }
 }
