@@ -345,11 +345,11 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                 })
                 .unwrap_or_default();
             format!(
-                "objective {:.1}{versus}, cost {:.1}, {}/{} targets met",
+                "objective {:.1}{versus}, cost {:.1}, {}/{} targets reached",
                 sol.objective,
                 e.cost,
-                e.targets_met,
-                e.met.len()
+                e.targets_reached,
+                e.reached.len()
             )
         };
         progress("bench: greedy baseline");
@@ -383,9 +383,9 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     let assessment = timed(&mut figures, "assess", || {
         let a = crate::assess::assess(&grid, &features, &problem.cost, &selected);
         let note = format!(
-            "{} reserves, {}/{} targets met",
+            "{} reserves, {}/{} targets reached",
             a.reserves.len(),
-            a.targets_met,
+            a.targets_reached,
             a.coverage.len()
         );
         Ok((a, note))

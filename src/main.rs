@@ -15,13 +15,13 @@ fn main() {
     }
 }
 
-/// 3 when the plan's targets cannot all be met (README, "Exit codes"), else 1 (a bad plan or
+/// 3 when the plan's targets cannot all be reached (README, "Exit codes"), else 1 (a bad plan or
 /// input, or a failure); clap exits with 2 on a bad command line before this.
 fn exit_code(e: &anyhow::Error) -> i32 {
     use driftplan::pipeline::RunError;
     use driftplan::solve::SolveError;
     let cannot = e.chain().any(|c| {
-        c.downcast_ref::<cli::CannotBeMet>().is_some()
+        c.downcast_ref::<cli::CannotBeReached>().is_some()
             || matches!(
                 c.downcast_ref::<RunError>(),
                 Some(RunError::Solve(

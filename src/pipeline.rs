@@ -50,7 +50,7 @@ pub enum RunError {
     /// Derived climate features could not be built.
     #[error(transparent)]
     Climate(#[from] crate::climate::ClimateError),
-    /// The optimiser failed or the targets cannot be met.
+    /// The optimiser failed or the targets cannot be reached.
     #[error(transparent)]
     Solve(#[from] SolveError),
     /// The required cells alone break a budget limit of the plan.
@@ -533,7 +533,10 @@ pub fn run_facts(
         ),
     ));
     f.push(("reserves".into(), a.reserves.len().to_string()));
-    f.push(("targets met".into(), crate::assess::targets_met_text(a)));
+    f.push((
+        "targets reached".into(),
+        crate::assess::targets_reached_text(a),
+    ));
     f.push((
         "compactness ratio".into(),
         format!("{:.2} (1 = circle)", a.compactness_ratio),

@@ -1,5 +1,5 @@
 //! Absent features through the command line: a species that leaves the region in some
-//! scenario and year is reported as absent, never counted as met; one with no habitat
+//! scenario and year is reported as absent, never counted as reached; one with no habitat
 //! anywhere is a plan error naming its layer unless the plan allows it.
 
 mod common;
@@ -40,7 +40,7 @@ fn remove_amber_wrasse(dir: &Path, files: &[&str]) {
 }
 
 #[test]
-fn a_species_gone_in_some_years_is_absent_and_never_met() {
+fn a_species_gone_in_some_years_is_absent_and_never_reached() {
     let tmp = tempfile::tempdir().unwrap();
     let d = tmp.path();
     let plan = common::plan_with(d, "max_share = 0.5", "objective = \"min-cost\"");
@@ -73,8 +73,8 @@ fn a_species_gone_in_some_years_is_absent_and_never_met() {
         "{text}"
     );
 
-    // coverage.csv: the two habitat rows are absent and not met; every zero-total row is
-    // absent and none is met; nothing prints as "-0".
+    // coverage.csv: the two habitat rows are absent and not reached; every zero-total row is
+    // absent and none is reached; nothing prints as "-0".
     let csv_text = std::fs::read_to_string(out.join("coverage.csv")).unwrap();
     assert!(
         !csv_text.contains(",-0,") && !csv_text.contains(",-0\n"),
@@ -85,32 +85,39 @@ fn a_species_gone_in_some_years_is_absent_and_never_met() {
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let rows: Vec<csv::StringRecord> = r.records().map(|r| r.unwrap()).collect();
     let mut absent = 0;
-    let mut met = 0;
+    let mut reached = 0;
     for row in &rows {
         let total: f64 = row[col("total")].parse().unwrap();
         let is_absent = &row[col("absent")] == "true";
         assert_eq!(is_absent, total == 0.0, "{row:?}");
         if is_absent {
             absent += 1;
-            assert_eq!(&row[col("met")], "false", "absent counted as met: {row:?}");
+            assert_eq!(
+                &row[col("reached")],
+                "false",
+                "absent counted as reached: {row:?}"
+            );
         }
-        met += usize::from(&row[col("met")] == "true");
+        reached += usize::from(&row[col("reached")] == "true");
     }
     for year in ["2070", "2090"] {
         let name = format!("habitat/amber-wrasse/ssp5-8.5/{year}");
         let row = rows.iter().find(|r| r[col("feature")] == name).unwrap();
-        assert_eq!((&row[col("absent")], &row[col("met")]), ("true", "false"));
+        assert_eq!(
+            (&row[col("absent")], &row[col("reached")]),
+            ("true", "false")
+        );
     }
-    // summary.json counts them apart, and targets met agrees with the rows.
+    // summary.json counts them apart, and targets reached agrees with the rows.
     let s: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     assert_eq!(s["targets_absent"], absent);
     assert!(absent >= 2);
-    assert_eq!(s["targets_met"], met);
+    assert_eq!(s["targets_reached"], reached);
     assert_eq!(s["targets_total"], rows.len());
-    assert!(met + absent <= rows.len());
+    assert!(reached + absent <= rows.len());
     let report = std::fs::read_to_string(out.join("report.html")).unwrap();
-    assert!(report.contains("absent: no amount in the region, never counted as met"));
+    assert!(report.contains("absent: no amount in the region, never counted as reached"));
 }
 
 #[test]
@@ -121,6 +128,7 @@ fn a_species_with_no_habitat_anywhere_is_a_plan_error_unless_allowed() {
     let all: Vec<String> = std::fs::read_dir(d.join("demo-data/ocean"))
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.ends_with(".csv"))
         .collect();
     let all: Vec<&str> = all.iter().map(String::as_str).collect();
     remove_amber_wrasse(d, &all);

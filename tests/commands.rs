@@ -182,7 +182,7 @@ fn assess_compare_and_sweep_agree_with_solve() {
             v[0] == v[1] || (v[0].is_nan() && v[1].is_nan()),
             "{name}: {v:?}"
         );
-        if name.starts_with("targets_met") || name.ends_with("held_share") {
+        if name.starts_with("targets_reached") || name.ends_with("protected_share") {
             assert!(v[2] >= v[0] - 1e-12, "{name}: superset worse {v:?}");
         }
         if ["cost", "area_km2", "cells_selected"].contains(&name) {

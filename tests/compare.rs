@@ -99,9 +99,9 @@ fn the_two_optima_read_from_files() {
     assert_eq!(value(&c, "cost", 0), 7.0);
     assert_eq!(value(&c, "cost", 1), 7.0);
     // CHECK-VALUES: {0, 4, 5} meets all 9 targets, {2, 4} fails in s3 (B/s3 holds 0 of 1).
-    assert_eq!(value(&c, "targets_met", 0), 8.0);
-    assert_eq!(value(&c, "targets_met", 1), 9.0);
-    assert_eq!(c.measure("targets_met").unwrap().best, vec![1]);
+    assert_eq!(value(&c, "targets_reached", 0), 8.0);
+    assert_eq!(value(&c, "targets_reached", 1), 9.0);
+    assert_eq!(c.measure("targets_reached").unwrap().best, vec![1]);
     // Ranking rule (target coverage first): {2, 4} misses a target, so it is not best on cost
     // although it ties at 7, nor on total edge although it is shorter (8 km against 10 km,
     // hand count below); it is still best on nothing else either.
@@ -123,10 +123,10 @@ fn the_two_optima_read_from_files() {
         "{t}"
     );
     // Hand computation: {2, 4} holds shares 1 on 8 features and 0 on B/s3 → mean 8/9.
-    assert!((value(&c, "mean_held_share", 0) - 8.0 / 9.0).abs() < 1e-12);
-    assert_eq!(value(&c, "min_held_share", 0), 0.0);
-    assert_eq!(value(&c, "targets_met_habitat", 0), 5.0);
-    assert_eq!(value(&c, "targets_met_refugium", 0), 3.0);
+    assert!((value(&c, "mean_protected_share", 0) - 8.0 / 9.0).abs() < 1e-12);
+    assert_eq!(value(&c, "min_protected_share", 0), 0.0);
+    assert_eq!(value(&c, "targets_reached_habitat", 0), 5.0);
+    assert_eq!(value(&c, "targets_reached_refugium", 0), 3.0);
     // Hand computation on 1 km cells: {2, 4} exposes cell 2's west and north sides and
     // cell 4's south, west and east sides = 5 km; {0, 4, 5} exposes 0: east, north;
     // 4: south, west; 5: south = 5 km. Both are two reserves (diagonal cells do not join).
@@ -137,7 +137,7 @@ fn the_two_optima_read_from_files() {
     // → 8 km; {0, 4, 5}: 0 south + west, 4 north, 5 north + east = 5 km → 10 km.
     assert!((value(&c, "total_edge_km", 0) - 8.0).abs() < 1e-9);
     assert!((value(&c, "total_edge_km", 1) - 10.0).abs() < 1e-9);
-    // They differ only in size and shape, in s3's B and C held, and in what follows from
+    // They differ only in size and shape, in s3's B and C protected, and in what follows from
     // those (the largest gap too: centroids of one LAEA row differ slightly in latitude).
     let d = differences(&c, 0, 1).unwrap();
     let names: Vec<&str> = d.iter().map(|d| d.name.as_str()).collect();
@@ -150,10 +150,10 @@ fn the_two_optima_read_from_files() {
             "total_edge_km",
             "compactness_ratio",
             "largest_gap_km",
-            "targets_met",
-            "mean_held_share",
-            "min_held_share",
-            "targets_met_habitat",
+            "targets_reached",
+            "mean_protected_share",
+            "min_protected_share",
+            "targets_reached_habitat",
             "B/s3",
             "C/s3",
         ]
@@ -188,13 +188,13 @@ fn a_network_against_itself_has_no_differences() {
 #[test]
 fn a_superset_is_never_worse_on_coverage_nor_cheaper() {
     // Brute force over every network of the 6-cell grid and every strict superset of it
-    // (3^6 − 2^6 = 665 pairs): adding cells can only add held amounts, cost and area.
+    // (3^6 − 2^6 = 665 pairs): adding cells can only add protected amounts, cost and area.
     let coverage = [
-        "targets_met",
-        "mean_held_share",
-        "min_held_share",
-        "targets_met_habitat",
-        "targets_met_refugium",
+        "targets_reached",
+        "mean_protected_share",
+        "min_protected_share",
+        "targets_reached_habitat",
+        "targets_reached_refugium",
     ];
     let size = ["cost", "area_km2", "share_of_region", "cells_selected"];
     // Assess each of the 64 networks once (building a grid opens PROJ, which is slow).
@@ -222,7 +222,7 @@ fn a_superset_is_never_worse_on_coverage_nor_cheaper() {
             }
             // Ranking rule: the smaller network is best on size only while it meets as many
             // targets as the larger one; otherwise only the larger one is ranked.
-            let small_ranked = s.targets_met == b.targets_met;
+            let small_ranked = s.targets_reached == b.targets_reached;
             assert_eq!(c.ranked, if small_ranked { vec![0, 1] } else { vec![1] });
             for name in size {
                 let m = c.measure(name).unwrap();
@@ -238,7 +238,7 @@ fn a_superset_is_never_worse_on_coverage_nor_cheaper() {
             assert!(value(&c, "cost", 1) > value(&c, "cost", 0));
             for f in &c.features {
                 assert!(
-                    f.held[1] >= f.held[0] && f.best.contains(&1),
+                    f.protected[1] >= f.protected[0] && f.best.contains(&1),
                     "{}",
                     f.feature
                 );
@@ -280,15 +280,18 @@ fn csv_and_json_read_back_with_independent_parsers() {
     let b3 = find("feature", "B/s3", "a");
     assert_eq!(&b3[col("scenario")], "s3");
     assert_eq!(&b3[col("kind")], "habitat");
-    assert_eq!(b3[col("held")].parse::<f64>().unwrap(), 0.0);
+    assert_eq!(b3[col("protected")].parse::<f64>().unwrap(), 0.0);
     assert_eq!(b3[col("target")].parse::<f64>().unwrap(), 1.0);
-    assert_eq!(&b3[col("met")], "false");
+    assert_eq!(&b3[col("reached")], "false");
     assert_eq!(&b3[col("best")], "false");
     // Hand value: C/s3 = [0,0,0,1,1,1] → {0, 4, 5} holds cells 4 and 5 = 2 of total 3.
     let c3 = find("feature", "C/s3", "b");
-    assert_eq!(c3[col("held")].parse::<f64>().unwrap(), 2.0);
+    assert_eq!(c3[col("protected")].parse::<f64>().unwrap(), 2.0);
     assert_eq!(c3[col("total")].parse::<f64>().unwrap(), 3.0);
-    assert_eq!(c3[col("share_of_target")].parse::<f64>().unwrap(), 1.0);
+    assert_eq!(
+        c3[col("protected_share_of_target")].parse::<f64>().unwrap(),
+        1.0
+    );
 
     let v: serde_json::Value = serde_json::from_str(&compare_json(&c)).unwrap();
     for key in [
@@ -304,7 +307,7 @@ fn csv_and_json_read_back_with_independent_parsers() {
     assert_eq!(measures.len(), 14);
     let tm = measures
         .iter()
-        .find(|m| m["measure"] == "targets_met")
+        .find(|m| m["measure"] == "targets_reached")
         .unwrap();
     assert_eq!(tm["values"], serde_json::json!([8.0, 9.0]));
     assert_eq!(tm["best"], serde_json::json!(["b"]));
@@ -315,5 +318,8 @@ fn csv_and_json_read_back_with_independent_parsers() {
         .starts_with("target coverage first"));
     assert_eq!(v["features"].as_array().unwrap().len(), 9);
     assert_eq!(v["features"][7]["feature"], "B/s3");
-    assert_eq!(v["features"][7]["met"], serde_json::json!([false, true]));
+    assert_eq!(
+        v["features"][7]["reached"],
+        serde_json::json!([false, true])
+    );
 }

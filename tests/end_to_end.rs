@@ -55,7 +55,7 @@ fn demo_run_meets_every_target_respects_rules_and_is_deterministic() {
         );
     }
 
-    // Every target met in every scenario and year (coverage.csv recomputed here from the columns).
+    // Every target reached in every scenario and year (coverage.csv recomputed here from the columns).
     let mut rdr = csv::Reader::from_path(a.path().join("coverage.csv")).unwrap();
     let headers = rdr.headers().unwrap().clone();
     let col = |name: &str| {
@@ -64,14 +64,19 @@ fn demo_run_meets_every_target_respects_rules_and_is_deterministic() {
             .position(|h| h == name)
             .unwrap_or_else(|| panic!("no column {name}"))
     };
-    let (held, target, scen, year) = (col("held"), col("target"), col("scenario"), col("year"));
+    let (protected, target, scen, year) = (
+        col("protected"),
+        col("target"),
+        col("scenario"),
+        col("year"),
+    );
     let mut n = 0;
     let mut scenarios = std::collections::BTreeSet::new();
     for rec in rdr.records() {
         let rec = rec.unwrap();
-        let h: f64 = rec[held].parse().unwrap();
+        let h: f64 = rec[protected].parse().unwrap();
         let t: f64 = rec[target].parse().unwrap();
-        assert!(h >= t * (1.0 - 1e-6), "target not met: {:?}", rec);
+        assert!(h >= t * (1.0 - 1e-6), "target not reached: {:?}", rec);
         scenarios.insert((rec[scen].to_string(), rec[year].to_string()));
         n += 1;
     }
@@ -212,13 +217,21 @@ fn climate_demo_holds_leading_edge_and_refugium_targets_in_every_scenario() {
     let mut rdr = csv::Reader::from_path(dir.path().join("coverage.csv")).unwrap();
     let headers = rdr.headers().unwrap().clone();
     let col = |name: &str| headers.iter().position(|h| h == name).unwrap();
-    let (kind, scen, held, target) = (col("kind"), col("scenario"), col("held"), col("target"));
+    let (kind, scen, protected, target) = (
+        col("kind"),
+        col("scenario"),
+        col("protected"),
+        col("target"),
+    );
     let mut seen = std::collections::BTreeSet::new();
     for rec in rdr.records() {
         let rec = rec.unwrap();
         if ["leading-edge", "refugium"].contains(&&rec[kind]) {
-            let (h, t): (f64, f64) = (rec[held].parse().unwrap(), rec[target].parse().unwrap());
-            assert!(t > 0.0 && h >= t * (1.0 - 1e-6), "not held: {rec:?}");
+            let (h, t): (f64, f64) = (
+                rec[protected].parse().unwrap(),
+                rec[target].parse().unwrap(),
+            );
+            assert!(t > 0.0 && h >= t * (1.0 - 1e-6), "not protected: {rec:?}");
             seen.insert((rec[kind].to_string(), rec[scen].to_string()));
         }
     }

@@ -377,10 +377,10 @@ fn coverage_csv_round_trips() {
             "scenario",
             "year",
             "total",
-            "held",
+            "protected",
             "target",
             "shortfall",
-            "met",
+            "reached",
             "absent"
         ]
     );
@@ -393,14 +393,14 @@ fn coverage_csv_round_trips() {
         assert_eq!(&row[3], c.scenario.as_deref().unwrap_or(""));
         assert_eq!(row[4].parse::<i32>().ok(), c.year);
         assert_eq!(row[5].parse::<f64>().unwrap(), c.total);
-        assert_eq!(row[6].parse::<f64>().unwrap(), c.held);
+        assert_eq!(row[6].parse::<f64>().unwrap(), c.protected);
         assert_eq!(row[7].parse::<f64>().unwrap(), c.target);
         assert_eq!(row[8].parse::<f64>().unwrap(), c.shortfall);
-        assert_eq!(row[9].parse::<bool>().unwrap(), c.met);
+        assert_eq!(row[9].parse::<bool>().unwrap(), c.reached);
         assert_eq!(row[10].parse::<bool>().unwrap(), c.absent);
     }
-    // Hand: held 40 (cell (1,1) is in reserve A; (2,2) is its hole) of 200, target 0.3·200 = 60.
-    assert_eq!(a.coverage[0].held, 40.0);
+    // Hand: protected 40 (cell (1,1) is in reserve A; (2,2) is its hole) of 200, target 0.3·200 = 60.
+    assert_eq!(a.coverage[0].protected, 40.0);
     assert_eq!(a.coverage[0].shortfall, 20.0);
 }
 

@@ -1,4 +1,4 @@
-//! Solver defaults and plans that cannot be met, through the command line on a coarse copy of
+//! Solver defaults and plans that cannot be reached, through the command line on a coarse copy of
 //! the demo: the defaults are printed, `check` names the budget key the required cells break,
 //! an over-tight budget writes `diagnosis.csv` and exits with its own code, and least-regret
 //! never reports a negative regret.
@@ -118,7 +118,7 @@ fn check_names_the_budget_key_the_required_cells_break() {
             }
             let out = driftplan(&args);
             let err = text(&out.stderr);
-            // A bad plan: exit code 1, not 3 ("cannot be met" is for plans that are valid).
+            // A bad plan: exit code 1, not 3 ("cannot be reached" is for plans that are valid).
             assert_eq!(out.status.code(), Some(1), "{cmd} {budget}: {err}");
             assert!(err.contains(key), "{cmd} {budget}: {err}");
             assert!(err.contains(&plan.display().to_string()), "{err}");
@@ -191,7 +191,7 @@ fn an_over_tight_budget_writes_a_diagnosis_and_exits_3() {
     } else {
         assert_eq!(listed, short, "{err}");
     }
-    // Nothing else is written for a plan that cannot be met.
+    // Nothing else is written for a plan that cannot be reached.
     assert!(!out.join("summary.json").exists());
 }
 
@@ -343,7 +343,7 @@ fn diagnosis_rows_equal_brute_force_on_a_tiny_plan() {
         .collect();
     assert_eq!(rows.len(), 2);
     // Brute force over all 2ⁿ networks (independent of the solvers).
-    let held = |k: usize, mask: u32| -> f64 {
+    let protected = |k: usize, mask: u32| -> f64 {
         (0..n)
             .filter(|i| mask & (1 << i) != 0)
             .map(|i| amount[k][i])
@@ -360,7 +360,7 @@ fn diagnosis_rows_equal_brute_force_on_a_tiny_plan() {
         let total: f64 = amount[k].iter().sum();
         let best = (0u32..1 << n)
             .filter(|&m| spent(m) <= budget)
-            .map(|m| held(k, m))
+            .map(|m| protected(k, m))
             .fold(0.0, f64::max);
         let got: f64 = r[3].parse().unwrap();
         assert!(
@@ -373,7 +373,7 @@ fn diagnosis_rows_equal_brute_force_on_a_tiny_plan() {
     }
     // The cheapest network meeting both targets without the budget, by brute force.
     let cheapest = (0u32..1 << n)
-        .filter(|&m| (0..2).all(|k| held(k, m) >= targets[k] * (1.0 - 1e-9)))
+        .filter(|&m| (0..2).all(|k| protected(k, m) >= targets[k] * (1.0 - 1e-9)))
         .map(spent)
         .fold(f64::INFINITY, f64::min);
     assert!(cheapest > budget);

@@ -117,7 +117,7 @@ fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> Stri
         .collect();
     refugium[0] = f64::NAN;
     let cell = |m, b| StressCell {
-        targets_met: m,
+        targets_reached: m,
         targets_total: 6,
         benefit: b,
     };
@@ -131,8 +131,8 @@ fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> Stri
             ("cost".into(), format!("{:.2}", a.cost)),
             ("reserves".into(), a.reserves.len().to_string()),
             (
-                "targets met".into(),
-                format!("{} of {}", a.targets_met, a.coverage.len()),
+                "targets reached".into(),
+                format!("{} of {}", a.targets_reached, a.coverage.len()),
             ),
         ],
         grid: g,

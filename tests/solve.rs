@@ -125,7 +125,7 @@ fn tiny_instance_edge_penalty() {
 fn tiny_instance_three_scenarios() {
     // CHECK-VALUES.md: s1 as above; s2: A=[0,1,1,0,1,1]; s3: A=[0,0,1,0,1,1],
     // B=[0,1,0,0,0,1], C=[0,0,0,1,1,1]. Every-scenario optimum costs 7, only {0,4,5}
-    // achieves it; {2,4} fails s3 (B held 0).
+    // achieves it; {2,4} fails s3 (B protected 0).
     let mut f = Vec::new();
     let s1 = [
         [1., 0., 1., 0., 1., 0.],
@@ -155,9 +155,9 @@ fn tiny_instance_three_scenarios() {
     let sel24: Vec<bool> = (0..6).map(|i| i == 2 || i == 4).collect();
     let e = evaluate(&p, &sel24);
     assert!(!e.feasible);
-    assert_eq!(e.scenarios[2].targets_met, 2);
+    assert_eq!(e.scenarios[2].targets_reached, 2);
     // Per-scenario report: {0,4,5} meets all three targets in each scenario.
-    assert!(h.scenarios.iter().all(|s| s.targets_met == 3));
+    assert!(h.scenarios.iter().all(|s| s.targets_reached == 3));
     let b = BruteForce.solve(&p, &opts()).unwrap();
     assert_eq!(ids(&b.selected), vec![0, 4, 5]);
 }
@@ -203,7 +203,7 @@ fn random_instance(seed: u64) -> Problem {
             features.push(f);
         }
     }
-    // One weight-only feature (target 0, like a corridor weight): its credit is w·held/total.
+    // One weight-only feature (target 0, like a corridor weight): its credit is w·protected/total.
     // Its own RNG keeps the stream of the rest of the instance unchanged.
     let mut rng_w = ChaCha8Rng::seed_from_u64(seed + 1000);
     let dense: Vec<f64> = (0..n).map(|_| rng_w.gen_range(0..=4) as f64).collect();
@@ -350,7 +350,7 @@ fn highs_matches_brute_force_on_random_instances() {
                                 );
                                 assert!(close(h.bound, h.objective), "{what}");
                                 if objective == Objective::MinCost {
-                                    assert!(e.met.iter().all(|m| *m), "{what}");
+                                    assert!(e.reached.iter().all(|m| *m), "{what}");
                                 }
                                 // The heuristics keep the rules and cannot beat the optimum.
                                 let minimise = objective == Objective::MinCost
@@ -460,12 +460,12 @@ fn max_gap_costs_a_stepping_stone() {
         position_km: vec![0.0, 10.0, 20.0, 30.0, 40.0],
         max_gap_km: 25.0,
     });
-    assert!(!evaluate(&p, &free.selected).gap.unwrap().met);
+    assert!(!evaluate(&p, &free.selected).gap.unwrap().reached);
     let spaced = Highs::default().solve(&p, &opts()).unwrap();
     assert_eq!(ids(&spaced.selected), vec![0, 2, 4]);
     assert!(close(spaced.objective - free.objective, 2.0));
     let g = evaluate(&p, &spaced.selected).gap.unwrap();
-    assert!(g.met);
+    assert!(g.reached);
     assert_eq!(g.longest_gap_km, 20.0);
     p.spacing.as_mut().unwrap().max_gap_km = 15.0;
     assert!(close(
@@ -474,7 +474,7 @@ fn max_gap_costs_a_stepping_stone() {
     ));
     // Greedy also meets the rule (by its gap repair).
     let gr = Greedy.solve(&p, &opts()).unwrap();
-    assert!(evaluate(&p, &gr.selected).gap.unwrap().met);
+    assert!(evaluate(&p, &gr.selected).gap.unwrap().reached);
 }
 
 /// Rook neighbours on a rows × cols grid with row-major ids.
@@ -637,7 +637,7 @@ fn least_regret_differs_from_worst_case_and_expected() {
 #[test]
 fn infeasible_target_names_feature_and_reason() {
     // Hand computation: kelp sits in cells 0 (2), 1 (3), 2 (5); cell 2 is excluded, so at most
-    // 2 + 3 = 5 can be held against a target of 6 → binding `excluded cells`, achievable 5.
+    // 2 + 3 = 5 can be protected against a target of 6 → binding `excluded cells`, achievable 5.
     let mut p = base(
         vec![1.0; 4],
         vec![
@@ -792,7 +792,7 @@ fn highs_agrees_with_cbc() {
 fn budget_diagnosis_matches_brute_force_on_the_tiny_instance() {
     use driftplan::solve::diagnose::{diagnose_budget, diagnosis_csv, Cheapest};
     // CHECK-VALUES.md tiny instance with a cost budget of 5, below its minimum-set optimum 7,
-    // so the targets cannot all be met. Cell 5 is required (cost 1) to exercise the status.
+    // so the targets cannot all be reached. Cell 5 is required (cost 1) to exercise the status.
     let mut p = tiny();
     p.budget.max_cost = Some(5.0);
     p.status[5] = CellStatus::Required;
@@ -802,7 +802,7 @@ fn budget_diagnosis_matches_brute_force_on_the_tiny_instance() {
     ));
     let d = diagnose_budget(&p, &opts()).unwrap();
     // Brute force (independent of the solver): over all 2⁶ networks with cell 5 chosen and
-    // cost ≤ 5, the most of each feature held.
+    // cost ≤ 5, the most of each feature protected.
     for (k, row) in d.rows.iter().enumerate() {
         let f = &p.features[k];
         let mut best = 0.0f64;
@@ -812,13 +812,13 @@ fn budget_diagnosis_matches_brute_force_on_the_tiny_instance() {
             if !sel[5] || cost > 5.0 {
                 continue;
             }
-            let held: f64 = f
+            let protected: f64 = f
                 .amounts
                 .iter()
                 .filter(|(c, _)| sel[*c as usize])
                 .map(|(_, a)| a)
                 .sum();
-            best = best.max(held);
+            best = best.max(protected);
         }
         let total: f64 = f.amounts.iter().map(|(_, a)| a).sum();
         assert_eq!(row.feature, f.name);
@@ -833,7 +833,7 @@ fn budget_diagnosis_matches_brute_force_on_the_tiny_instance() {
         assert!(close(row.shortfall(), (f.target - best).max(0.0)));
     }
     // By hand: A (cells 0, 2, 4; target 2) with 4 left after the required cell: at most one of
-    // cells 0 (3), 2 (4), 4 (3) → 1 of 3, short by 1; B already held by cell 5; C by cell 3 or 4.
+    // cells 0 (3), 2 (4), 4 (3) → 1 of 3, short by 1; B already protected by cell 5; C by cell 3 or 4.
     assert_eq!(d.rows[0].best, 1.0);
     assert_eq!(d.rows[0].shortfall(), 1.0);
     assert_eq!((d.rows[1].shortfall(), d.rows[2].shortfall()), (0.0, 0.0));

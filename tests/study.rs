@@ -141,12 +141,12 @@ fn sweep_benefit_grows_with_budget_and_matches_enumeration() {
         );
     }
     // First budget meeting each feature, recomputed from the runs.
-    for (k, first) in s.first_met().iter().enumerate() {
-        let want = s.runs.iter().find(|r| r.met[k]).map(|r| r.share);
+    for (k, first) in s.first_reached().iter().enumerate() {
+        let want = s.runs.iter().find(|r| r.reached[k]).map(|r| r.share);
         assert_eq!(*first, want);
     }
-    // At the whole region every target is reachable, so every feature is met somewhere.
-    assert!(s.first_met().iter().all(|m| m.is_some()));
+    // At the whole region every target is reachable, so every feature is reached somewhere.
+    assert!(s.first_reached().iter().all(|m| m.is_some()));
     // Independent of the thread count.
     let one = rayon::ThreadPoolBuilder::new()
         .num_threads(1)
@@ -191,7 +191,7 @@ fn enumerate_sweep_answer(q: &Problem) -> (f64, f64) {
         .filter_map(|m| {
             let sel: Vec<bool> = (0..n).map(|i| m >> i & 1 == 1).collect();
             let e = evaluate(&q, &sel);
-            let every = e.targets_met == e.met.len();
+            let every = e.targets_reached == e.reached.len();
             e.feasible.then_some((e.objective, e.cost, every))
         })
         .collect();

@@ -1,10 +1,10 @@
-//! Coverage of each feature by a network: total, held, target, shortfall, met, absent.
+//! Coverage of each feature by a network: total, protected, target, shortfall, reached, absent.
 
 use super::{is_chosen, Coverage};
 use crate::features::{Feature, FeatureTable};
 use rayon::prelude::*;
 
-/// Relative tolerance for "target met": the solver's own feasibility tolerance is about 1e-9
+/// Relative tolerance for "target reached": the solver's own feasibility tolerance is about 1e-9
 /// of the row scale (HiGHS default primal feasibility tolerance is 1e-7 absolute; from memory),
 /// so a network the solver calls feasible must not be reported as short by rounding noise.
 const MET_REL_TOL: f64 = 1e-9;
@@ -14,7 +14,7 @@ const PARALLEL_MIN_AMOUNTS: usize = 50_000;
 
 /// Coverage of every feature by the chosen cells, in feature-table order.
 ///
-/// Each feature's held amount is summed in ascending cell order, so the result is the same
+/// Each feature's protected amount is summed in ascending cell order, so the result is the same
 /// whatever the number of threads.
 pub fn coverage(features: &FeatureTable, selected: &[bool]) -> Vec<Coverage> {
     let stored: usize = features.features.iter().map(|f| f.amounts.len()).sum();
@@ -27,7 +27,7 @@ pub fn coverage(features: &FeatureTable, selected: &[bool]) -> Vec<Coverage> {
 }
 
 fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Coverage {
-    let held: f64 = f
+    let protected: f64 = f
         .amounts
         .iter()
         .filter(|(c, _)| is_chosen(selected, *c))
@@ -37,9 +37,9 @@ fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Cov
                // `+ 0.0`: the total of no amounts is −0.0, and outputs never say "-0".
     let total = f.total + 0.0;
     let target = f.target.amount(total) + 0.0;
-    // No amount anywhere: absent, never met (a 0 ≥ 0 comparison would call it met).
+    // No amount anywhere: absent, never reached (a 0 ≥ 0 comparison would call it reached).
     let absent = crate::features::absent::is_absent(f);
-    let met = !absent && held >= target - MET_REL_TOL * target.abs();
+    let reached = !absent && protected >= target - MET_REL_TOL * target.abs();
     Coverage {
         feature: f.name.clone(),
         kind: f.kind.as_str().to_string(),
@@ -47,10 +47,10 @@ fn feature_coverage(f: &Feature, scenarios: &[String], selected: &[bool]) -> Cov
         scenario: f.scenario.and_then(|s| scenarios.get(s).cloned()),
         year: f.year,
         total,
-        held,
+        protected,
         target,
-        shortfall: (target - held).max(0.0) + 0.0,
-        met,
+        shortfall: (target - protected).max(0.0) + 0.0,
+        reached,
         absent,
     }
 }
@@ -98,21 +98,24 @@ mod tests {
         let cov = coverage(&t, &sel);
         for (k, c) in cov.iter().enumerate() {
             // Brute force: sum over every cell of the dense amount.
-            let mut held = 0.0;
+            let mut protected = 0.0;
             for cell in 0..n {
                 if cell % (k as u32 + 2) == 0 && cell % 3 == 0 {
-                    held += (cell as usize + k) as f64 * 0.1;
+                    protected += (cell as usize + k) as f64 * 0.1;
                 }
             }
-            assert!((c.held - held).abs() <= 1e-9 * held, "feature {k}");
-            assert_eq!(c.met, c.held >= 0.3 * c.total * (1.0 - 1e-9));
+            assert!(
+                (c.protected - protected).abs() <= 1e-9 * protected,
+                "feature {k}"
+            );
+            assert_eq!(c.reached, c.protected >= 0.3 * c.total * (1.0 - 1e-9));
         }
     }
 
     #[test]
-    fn an_absent_feature_is_never_met() {
+    fn an_absent_feature_is_never_reached() {
         // A species with no habitat in the region (zero total, −0.0 as an empty float sum):
-        // its 30% target is 0, and 0 ≥ 0 would call it met; it is absent instead, and no
+        // its 30% target is 0, and 0 ≥ 0 would call it reached; it is absent instead, and no
         // amount prints as "-0".
         let f = Feature {
             name: "habitat/gone/ssp5-8.5/2090".into(),
@@ -128,12 +131,12 @@ mod tests {
         };
         for sel in [vec![true, true], vec![false, false]] {
             let c = feature_coverage(&f, &[], &sel);
-            assert!(c.absent && !c.met, "{c:?}");
-            for v in [c.total, c.held, c.target, c.shortfall] {
+            assert!(c.absent && !c.reached, "{c:?}");
+            for v in [c.total, c.protected, c.target, c.shortfall] {
                 assert!(v == 0.0 && v.is_sign_positive(), "{c:?}");
             }
         }
-        // A weight-only feature (target 0) that is present is met by holding nothing.
+        // A weight-only feature (target 0) that is present is reached by holding nothing.
         let present = Feature {
             amounts: vec![(1, 2.0)],
             total: 2.0,
@@ -141,7 +144,7 @@ mod tests {
             ..f
         };
         let c = feature_coverage(&present, &[], &[false, false]);
-        assert!(c.met && !c.absent);
+        assert!(c.reached && !c.absent);
     }
 
     #[test]
@@ -158,15 +161,15 @@ mod tests {
             target: Target::Amount(1.0),
             weight: 1.0,
         };
-        // Held 1 − 5e-10 against target 1: inside the 1e-9 relative tolerance → met.
-        assert!(feature_coverage(&f, &[], &[true, false]).met);
+        // Protected 1 − 5e-10 against target 1: inside the 1e-9 relative tolerance → reached.
+        assert!(feature_coverage(&f, &[], &[true, false]).reached);
         let f2 = Feature {
             amounts: vec![(0, 1.0 - 2e-9)],
             ..f
         };
-        // 1 − 2e-9 is outside the tolerance → not met; shortfall 2e-9 by hand.
+        // 1 − 2e-9 is outside the tolerance → not reached; shortfall 2e-9 by hand.
         let c = feature_coverage(&f2, &[], &[true]);
-        assert!(!c.met);
+        assert!(!c.reached);
         assert!((c.shortfall - 2e-9).abs() < 1e-15);
     }
 }

@@ -31,16 +31,16 @@ pub struct Coverage {
     /// Total amount over the grid.
     pub total: f64,
     /// Amount inside the network.
-    pub held: f64,
+    pub protected: f64,
     /// Target amount.
     pub target: f64,
-    /// max(0, target − held).
+    /// max(0, target − protected).
     pub shortfall: f64,
-    /// Whether the target is met (within a relative tolerance of 1e-9 of the target); never
+    /// Whether the target is reached (within a relative tolerance of 1e-9 of the target); never
     /// for an absent feature.
-    pub met: bool,
+    pub reached: bool,
     /// The feature has no amount anywhere in the region (zero total: a species gone from the
-    /// region in this scenario and year). Its own state: it is never met, whatever its target.
+    /// region in this scenario and year). Its own state: it is never reached, whatever its target.
     pub absent: bool,
 }
 
@@ -84,9 +84,9 @@ pub struct Assessment {
     pub reserves: Vec<Reserve>,
     /// Reserve edge facing unprotected sea (shared edges with unchosen cells). Units: km.
     pub exposed_edge_km: f64,
-    /// Number of targets met (absent features never are).
-    pub targets_met: usize,
-    /// Number of absent features (zero total), counted apart from met and missed targets.
+    /// Number of targets reached (absent features never are).
+    pub targets_reached: usize,
+    /// Number of absent features (zero total), counted apart from reached and missed targets.
     pub targets_absent: usize,
     /// Reserve edge on the coast or the region boundary (not shared with any cell): it needs no
     /// protection from fishing pressure next door, so it is kept apart from the exposed edge.
@@ -111,7 +111,7 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
     debug_assert_eq!(cost.len(), grid.len(), "one cost per cell");
     debug_assert_eq!(selected.len(), grid.len(), "one selection flag per cell");
     let coverage = coverage(features, selected);
-    let targets_met = coverage.iter().filter(|c| c.met).count();
+    let targets_reached = coverage.iter().filter(|c| c.reached).count();
     let targets_absent = coverage.iter().filter(|c| c.absent).count();
     let chosen: Vec<u32> = (0..grid.len() as u32)
         .filter(|&i| is_chosen(selected, i))
@@ -149,20 +149,20 @@ pub fn assess(grid: &Grid, features: &FeatureTable, cost: &[f64], selected: &[bo
         largest_gap_km: shape::largest_gap_km(&positions, &chosen_flags),
         reserves,
         exposed_edge_km: exposed,
-        targets_met,
+        targets_reached,
         targets_absent,
         boundary_edge_km: boundary,
         cells_selected: chosen.len(),
     }
 }
 
-/// "X of Y" targets met, with the absent features counted apart when there are any, e.g.
-/// `140 of 148 (8 absent: no amount in the region, never counted as met)`.
-pub fn targets_met_text(a: &Assessment) -> String {
-    let mut s = format!("{} of {}", a.targets_met, a.coverage.len());
+/// "X of Y" targets reached, with the absent features counted apart when there are any, e.g.
+/// `140 of 148 (8 absent: no amount in the region, never counted as reached)`.
+pub fn targets_reached_text(a: &Assessment) -> String {
+    let mut s = format!("{} of {}", a.targets_reached, a.coverage.len());
     if a.targets_absent > 0 {
         s.push_str(&format!(
-            " ({} absent: no amount in the region, never counted as met)",
+            " ({} absent: no amount in the region, never counted as reached)",
             a.targets_absent
         ));
     }
@@ -237,9 +237,9 @@ mod tests {
             scenarios: vec!["ssp2-4.5".into()],
             years: vec![2050],
             features: vec![
-                // Held 2 + 5 = 7 of total 2 + 5 + 6 = 13; target 0.5·13 = 6.5 → met.
+                // Protected 2 + 5 = 7 of total 2 + 5 + 6 = 13; target 0.5·13 = 6.5 → reached.
                 feature("a", vec![(1, 2.0), (5, 5.0), (6, 6.0)], Target::Share(0.5)),
-                // Held 1 (cell 3) of 1 + 4 = 5; target 3 → shortfall 2.
+                // Protected 1 (cell 3) of 1 + 4 = 5; target 3 → shortfall 2.
                 feature("b", vec![(3, 1.0), (8, 4.0)], Target::Amount(3.0)),
             ],
         };
@@ -249,15 +249,15 @@ mod tests {
         assert!((a.area_km2 - 500.0).abs() < 1e-9);
         assert!((a.share_of_region - 500.0 / 1200.0).abs() < 1e-12);
         assert_eq!(a.cells_selected, 5);
-        assert_eq!(a.coverage[0].held, 7.0);
+        assert_eq!(a.coverage[0].protected, 7.0);
         assert_eq!(a.coverage[0].target, 6.5);
-        assert!(a.coverage[0].met);
+        assert!(a.coverage[0].reached);
         assert_eq!(a.coverage[0].shortfall, 0.0);
         assert_eq!(a.coverage[0].scenario.as_deref(), Some("ssp2-4.5"));
-        assert_eq!(a.coverage[1].held, 1.0);
+        assert_eq!(a.coverage[1].protected, 1.0);
         assert_eq!(a.coverage[1].shortfall, 2.0);
-        assert!(!a.coverage[1].met);
-        assert_eq!(a.targets_met, 1);
+        assert!(!a.coverage[1].reached);
+        assert_eq!(a.targets_reached, 1);
         // Reserves: {0,1,5} (300 km²) first, then {3} and {11} (100 km² each, lower id first).
         let cells: Vec<Vec<u32>> = a.reserves.iter().map(|r| r.cells.clone()).collect();
         assert_eq!(cells, vec![vec![0, 1, 5], vec![3], vec![11]]);
@@ -293,8 +293,8 @@ mod tests {
         assert_eq!(a.cost, 0.0);
         assert!(a.reserves.is_empty());
         assert_eq!(a.exposed_edge_km, 0.0);
-        // A zero target is met by holding nothing (hand check: 0 ≥ 0).
-        assert!(a.coverage[0].met);
+        // A zero target is reached by holding nothing (hand check: 0 ≥ 0).
+        assert!(a.coverage[0].reached);
         assert!(!a.coverage[0].absent);
         // Unknown scenario index is reported as no scenario rather than a panic.
         assert_eq!(a.coverage[0].scenario, None);

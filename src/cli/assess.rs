@@ -90,13 +90,13 @@ fn assess(
     }
     export::write_outputs(out, &files)?;
     println!(
-        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} targets met",
+        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} targets reached",
         a.cells_selected,
         a.cost,
         a.area_km2,
         100.0 * a.share_of_region,
         a.reserves.len(),
-        driftplan::assess::targets_met_text(&a)
+        driftplan::assess::targets_reached_text(&a)
     );
     for note in driftplan::features::absent::first_notes(
         driftplan::features::absent::absent_notes(&inputs.features),

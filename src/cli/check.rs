@@ -39,7 +39,9 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         20,
     );
     if !absent.is_empty() {
-        println!("  absent (no amount in the region; reported as absent, never counted as met):");
+        println!(
+            "  absent (no amount in the region; reported as absent, never counted as reached):"
+        );
         for note in absent {
             println!("    {note}");
         }

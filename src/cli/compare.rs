@@ -97,9 +97,9 @@ fn compare(
             .zip(&assessments)
             .map(|((name, _), a)| driftplan::report::NetworkPanel {
                 label: format!(
-                    "{name}: cost {:.1}, {} of {} targets met, {} reserves",
+                    "{name}: cost {:.1}, {} of {} targets reached, {} reserves",
                     a.cost,
-                    a.targets_met,
+                    a.targets_reached,
                     a.coverage.len(),
                     a.reserves.len()
                 ),
@@ -134,7 +134,7 @@ fn compare(
     print!("{}", driftplan::compare::compare_table(&cmp));
     if let Some(m) = &matrix {
         println!(
-            "stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
+            "stress test (targets reached and benefit; rows: designed for, columns: evaluated in)"
         );
         println!("({})", export::BENEFIT);
         print!("{}", driftplan::study::stress::stress_table(m));

@@ -29,7 +29,7 @@ mod sweep;
 /// the sea.
 ///
 /// Exit codes: 0 success; 1 a bad plan, bad input or a failure; 2 a bad command line; 3 the
-/// plan is valid but its targets cannot all be met (see diagnosis.csv).
+/// plan is valid but its targets cannot all be reached (see diagnosis.csv).
 #[derive(Parser, Debug)]
 #[command(name = "driftplan", version, about, long_about)]
 pub struct Args {
@@ -64,7 +64,7 @@ enum Command {
     ///
     /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
     /// stress.csv (each scenario solved alone and the network scored in every scenario) and
-    /// report.html. When the targets cannot all be met it writes only diagnosis.csv (per
+    /// report.html. When the targets cannot all be reached it writes only diagnosis.csv (per
     /// feature the best the budget allows), says what the cheapest network meeting every target
     /// costs, and exits with code 3.
     Solve(solve::Args),
@@ -80,9 +80,9 @@ enum Command {
     /// meet the most targets. One network is an error: use `assess` to score it.
     Compare(compare::Args),
     /// One max-benefit solve per budget: the cost–benefit curve, the budget at which each
-    /// target is first met, and how often each cell is chosen.
+    /// target is first reached, and how often each cell is chosen.
     ///
-    /// Writes sweep.csv, first-met.csv, selection-frequency.csv, selection-frequency.geojson,
+    /// Writes sweep.csv, first-reached.csv, selection-frequency.csv, selection-frequency.geojson,
     /// networks/budget-<share>pct.geojson (one per budget) and report.html. Budgets are shares
     /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
     /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
@@ -259,19 +259,19 @@ pub(crate) fn solve_options(
     Ok(options)
 }
 
-/// A plan whose targets cannot all be met (exit code 3, distinct from a bad plan's 1).
+/// A plan whose targets cannot all be reached (exit code 3, distinct from a bad plan's 1).
 #[derive(Debug)]
-pub(crate) struct CannotBeMet(pub String);
+pub(crate) struct CannotBeReached(pub String);
 
-impl std::fmt::Display for CannotBeMet {
+impl std::fmt::Display for CannotBeReached {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         f.write_str(&self.0)
     }
 }
 
-impl std::error::Error for CannotBeMet {}
+impl std::error::Error for CannotBeReached {}
 
-/// Exit code for "the plan's targets cannot all be met".
+/// Exit code for "the plan's targets cannot all be reached".
 pub(crate) const EXIT_CANNOT_BE_MET: i32 = 3;
 
 /// The stress test with a progress bar (skipped with one scenario or when asked). The time

@@ -1,6 +1,6 @@
 //! `driftplan solve`: the whole run, grid → features → optimise → assess → export.
 
-use super::{load_with, solve_options, stress, CannotBeMet, Progress, SolverArgs};
+use super::{load_with, solve_options, stress, CannotBeReached, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::export;
 use driftplan::model::Problem;
@@ -112,7 +112,7 @@ pub(crate) fn solve(
             e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)),
         )) => {
             spinner.finish_and_clear();
-            return Err(cannot_be_met(
+            return Err(cannot_be_reached(
                 &plan, &problem, &clock, &options, &e, out, progress,
             )?);
         }
@@ -163,7 +163,7 @@ pub(crate) fn solve(
     print_summary(&plan, &inputs, &solution, &assessment, out);
     if let Some(m) = &matrix {
         println!(
-            "  stress test (targets met and benefit; rows: designed for, columns: evaluated in)"
+            "  stress test (targets reached and benefit; rows: designed for, columns: evaluated in)"
         );
         if plan.objective != driftplan::model::Objective::MaxBenefit {
             println!("  ({})", export::BENEFIT);
@@ -175,9 +175,9 @@ pub(crate) fn solve(
     Ok(())
 }
 
-/// The "cannot be met" error for an infeasible plan, after writing `diagnosis.csv` (per
+/// The "cannot be reached" error for an infeasible plan, after writing `diagnosis.csv` (per
 /// feature: the best the budget allows) and finding the cheapest network meeting every target.
-fn cannot_be_met(
+fn cannot_be_reached(
     plan: &Plan,
     problem: &Problem,
     clock: &TimeBudget,
@@ -187,9 +187,9 @@ fn cannot_be_met(
     progress: &Progress,
 ) -> Result<anyhow::Error> {
     if problem.objective != driftplan::model::Objective::MinCost {
-        return Ok(CannotBeMet(format!("the plan cannot be met: {error}")).into());
+        return Ok(CannotBeReached(format!("the plan cannot be reached: {error}")).into());
     }
-    progress.say("the targets cannot all be met: finding the best each target can reach and the cheapest network that meets them all");
+    progress.say("the targets cannot all be reached: finding the best each target can reach and the cheapest network that meets them all");
     let d = diagnose_budget(problem, &clock.options(options, 1.0, 1))?;
     export::write_outputs(out, &[("diagnosis.csv", diagnosis_csv(&d))])?;
     let keys: Vec<String> = [
@@ -208,8 +208,8 @@ fn cannot_be_met(
     } else {
         format!(" within {}", keys.join(" and "))
     };
-    Ok(CannotBeMet(format!(
-        "the targets of {} cannot all be met{within}:\n{}per-feature details in {}",
+    Ok(CannotBeReached(format!(
+        "the targets of {} cannot all be reached{within}:\n{}per-feature details in {}",
         plan.file.display(),
         diagnosis_text(&d, 10),
         out.join("diagnosis.csv").display()
@@ -337,7 +337,10 @@ fn print_summary(
         100.0 * a.share_of_region
     );
     println!("  reserves    {}", a.reserves.len());
-    println!("  targets met {}", driftplan::assess::targets_met_text(a));
+    println!(
+        "  targets reached {}",
+        driftplan::assess::targets_reached_text(a)
+    );
     for note in driftplan::features::absent::first_notes(
         driftplan::features::absent::absent_notes(&inputs.features),
         10,
@@ -348,7 +351,7 @@ fn print_summary(
         println!("  clipped edge: {note}");
     }
     // Benefit is what max-benefit maximises; in a min-cost run every target is a hard rule,
-    // so only the targets met are shown.
+    // so only the targets reached are shown.
     let max_benefit = plan.objective == driftplan::model::Objective::MaxBenefit;
     if max_benefit {
         println!("  ({})", export::BENEFIT);
@@ -369,8 +372,8 @@ fn print_summary(
             .map(|r| format!(", regret {r:.3}"))
             .unwrap_or_default();
         println!(
-            "    {:<12} {} of {} targets met{absent}{benefit}{regret}",
-            s.name, s.targets_met, s.targets
+            "    {:<12} {} of {} targets reached{absent}{benefit}{regret}",
+            s.name, s.targets_reached, s.targets
         );
     }
     println!("  outputs     {}", out.display());

@@ -123,11 +123,11 @@ fn sweep(
             .zip(&per_budget)
             .map(|(r, a)| driftplan::report::NetworkPanel {
                 label: format!(
-                    "budget {:.1}%: cost {:.1}, {} of {} targets met, {} reserves",
+                    "budget {:.1}%: cost {:.1}, {} of {} targets reached, {} reserves",
                     100.0 * r.share,
                     r.cost,
-                    r.targets_met,
-                    r.met.len(),
+                    r.targets_reached,
+                    r.reached.len(),
                     a.reserves.len()
                 ),
                 reserves: a.reserves.clone(),
@@ -136,7 +136,10 @@ fn sweep(
     };
     let files = vec![
         ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
-        ("first-met.csv", driftplan::study::sweep::first_met_csv(&sw)),
+        (
+            "first-reached.csv",
+            driftplan::study::sweep::first_reached_csv(&sw),
+        ),
         (
             "selection-frequency.csv",
             driftplan::study::frequency::frequency_csv(f_all),
@@ -208,8 +211,8 @@ fn sweep(
             100.0 * r.share,
             r.cost,
             r.solution.objective,
-            r.targets_met,
-            r.met.len(),
+            r.targets_reached,
+            r.reached.len(),
             r.solution.status.as_str(),
             driftplan::solve::progress::gap_percent(r.solution.gap)
         );

@@ -21,9 +21,9 @@ struct FeatureOut<'a> {
     year: Option<i32>,
     total: f64,
     target: f64,
-    held: &'a [f64],
-    share_of_target: &'a [f64],
-    met: &'a [bool],
+    protected: &'a [f64],
+    protected_share_of_target: &'a [f64],
+    reached: &'a [bool],
     absent: bool,
     best: Vec<&'a str>,
 }
@@ -40,16 +40,16 @@ struct ComparisonOut<'a> {
 }
 
 /// `compare.json`, pretty-printed, keys in this order:
-/// * `networks`: names, in the order every `values`/`held`/... array follows;
+/// * `networks`: names, in the order every `values`/`protected`/... array follows;
 /// * `ranking_rule`: how `best` is awarded ([`super::RANKING_RULE`]); `ranked`: the networks
 ///   that meet the most targets, the only ones that can be best on a measure other than
-///   `targets_met`;
+///   `targets_reached`;
 /// * `measures`: `[{measure, better, values, best}]` where `measure` carries its unit
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
-/// * `features`: `[{feature, kind, species, scenario, year, total, target, held,
-///   share_of_target, met, absent, best}]`, amounts in the feature's own unit,
-///   `share_of_target` = min(held/target, 1) (0 for an absent feature);
+/// * `features`: `[{feature, kind, species, scenario, year, total, target, protected,
+///   protected_share_of_target, reached, absent, best}]`, amounts in the feature's own unit,
+///   `protected_share_of_target` = min(protected/target, 1) (0 for an absent feature);
 /// * `caution`, `driftplan_version`.
 ///
 /// Non-finite numbers are written as `null`.
@@ -81,9 +81,9 @@ pub fn compare_json(c: &Comparison) -> String {
                 year: f.year,
                 total: f.total,
                 target: f.target,
-                held: &f.held,
-                share_of_target: &f.share_of_target,
-                met: &f.met,
+                protected: &f.protected,
+                protected_share_of_target: &f.protected_share_of_target,
+                reached: &f.reached,
                 absent: f.absent,
                 best: names(&f.best),
             })
@@ -145,16 +145,16 @@ mod tests {
             "year",
             "total",
             "target",
-            "held",
-            "share_of_target",
-            "met",
+            "protected",
+            "protected_share_of_target",
+            "reached",
             "best",
         ] {
             assert!(f.get(key).is_some(), "missing {key}");
         }
         assert_eq!(f["kind"], "refugium");
-        assert_eq!(f["held"], serde_json::json!([0.0, 5.0]));
-        assert_eq!(f["met"], serde_json::json!([false, true]));
+        assert_eq!(f["protected"], serde_json::json!([0.0, 5.0]));
+        assert_eq!(f["reached"], serde_json::json!([false, true]));
         // Key order in the text is the documented order.
         let pos = |k: &str| text.find(&format!("\"{k}\"")).unwrap();
         assert!(pos("networks") < pos("measures") && pos("measures") < pos("features"));

@@ -9,12 +9,12 @@ use super::Comparison;
 /// * `kind`, `species`, `scenario`, `year`: the feature's (empty on measure rows).
 /// * `network`: the network's name.
 /// * `value`: the measure's value (empty on feature rows).
-/// * `better`: `higher`, `lower` or `none` (not ranked); `higher` on feature rows (more held).
+/// * `better`: `higher`, `lower` or `none` (not ranked); `higher` on feature rows (more protected).
 /// * `best`: `true` when this network is best on the row's measure or holds the most of the
 ///   feature (ties all `true`); `false` otherwise and on unranked measures.
-/// * `total`, `target`, `held`: the feature's amounts in its own unit (empty on measure rows).
-/// * `share_of_target`: min(held/target, 1), 0–1 (empty on measure rows).
-/// * `met`: `true`/`false` (empty on measure rows).
+/// * `total`, `target`, `protected`: the feature's amounts in its own unit (empty on measure rows).
+/// * `protected_share_of_target`: min(protected/target, 1), 0–1 (empty on measure rows).
+/// * `reached`: `true`/`false` (empty on measure rows).
 /// * `ranked`: `true` when the network meets the most targets of all networks compared, so it
 ///   competes for `best` on every measure ([`super::RANKING_RULE`]); `false`: it misses
 ///   targets.
@@ -31,9 +31,9 @@ pub const COMPARE_COLUMNS: [&str; 16] = [
     "best",
     "total",
     "target",
-    "held",
-    "share_of_target",
-    "met",
+    "protected",
+    "protected_share_of_target",
+    "reached",
     "ranked",
 ];
 
@@ -82,9 +82,9 @@ pub fn compare_csv(c: &Comparison) -> String {
                 &f.best.contains(&i).to_string(),
                 &f.total.to_string(),
                 &f.target.to_string(),
-                &f.held[i].to_string(),
-                &f.share_of_target[i].to_string(),
-                &f.met[i].to_string(),
+                &f.protected[i].to_string(),
+                &f.protected_share_of_target[i].to_string(),
+                &f.reached[i].to_string(),
                 &c.ranked.contains(&i).to_string(),
             ]);
         }
@@ -124,7 +124,7 @@ mod tests {
                 "", "", "true"
             ]
         );
-        // Hand value from the fixture: y holds 5 of refugium/c against a target of 2 → met.
+        // Hand value from the fixture: y holds 5 of refugium/c against a target of 2 → reached.
         let last = rows.last().unwrap();
         assert_eq!(&last[1], "refugium/c");
         assert_eq!(&last[6], "y");
@@ -133,14 +133,14 @@ mod tests {
         assert_eq!(&last[13], "1");
         assert_eq!(&last[14], "true");
         assert_eq!(&last[9], "true");
-        // mean_held_share of y = 2/3 survives the text round trip exactly.
+        // mean_protected_share of y = 2/3 survives the text round trip exactly.
         let mean = rows
             .iter()
-            .find(|r| &r[1] == "mean_held_share" && &r[6] == "y")
+            .find(|r| &r[1] == "mean_protected_share" && &r[6] == "y")
             .unwrap();
         assert_eq!(
             mean[7].parse::<f64>().unwrap(),
-            c.measure("mean_held_share").unwrap().values[1]
+            c.measure("mean_protected_share").unwrap().values[1]
         );
     }
 }

@@ -49,14 +49,14 @@ fn m(name: impl Into<String>, better: Better, value: f64) -> MeasureValue {
 }
 
 /// How much of its target a feature holds, capped at 1 (0–1). A target of zero or less is
-/// held whole by any network, as [`Coverage::met`] counts it met; an absent feature (no amount
+/// protected whole by any network, as [`Coverage::reached`] counts it reached; an absent feature (no amount
 /// in the region) holds nothing of anything: 0.
-pub fn held_share(c: &Coverage) -> f64 {
+pub fn protected_share(c: &Coverage) -> f64 {
     if c.absent {
         0.0
     } else if c.target > 0.0 {
         // `+ 0.0` turns −0 (the sum of no amounts) into 0, so outputs never show "-0".
-        (c.held / c.target).clamp(0.0, 1.0) + 0.0
+        (c.protected / c.target).clamp(0.0, 1.0) + 0.0
     } else {
         1.0
     }
@@ -72,10 +72,10 @@ pub fn held_share(c: &Coverage) -> f64 {
 ///   `largest_gap_km` (widest step along the poleward axis between chosen cells): lower is
 ///   better.
 /// * `reserves`: not ranked: fewer reserves are compact, more spread risk; planners weigh it.
-/// * `targets_met`, `mean_held_share` (mean over present features of min(held/target, 1)),
-///   `min_held_share` (the worst present feature's share; 1 means every target met; absent
+/// * `targets_reached`, `mean_protected_share` (mean over present features of min(protected/target, 1)),
+///   `min_protected_share` (the worst present feature's share; 1 means every target reached; absent
 ///   features, with no amount in the region, are left out of both) and
-///   `targets_met_<kind>` per feature kind present (`habitat`, `leading-edge`, ...,
+///   `targets_reached_<kind>` per feature kind present (`habitat`, `leading-edge`, ...,
 ///   alphabetical): higher is better. The share measures are left out when the plan has no
 ///   features (a mean of nothing is not a number).
 pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
@@ -93,7 +93,7 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
         ),
         m("compactness_ratio", Better::Lower, a.compactness_ratio),
         m("largest_gap_km", Better::Lower, a.largest_gap_km),
-        m("targets_met", Better::Higher, a.targets_met as f64),
+        m("targets_reached", Better::Higher, a.targets_reached as f64),
     ];
     if a.coverage.iter().any(|c| !c.absent) {
         // Summed in feature order, so the value is reproducible to the last bit.
@@ -101,19 +101,23 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
             .coverage
             .iter()
             .filter(|c| !c.absent)
-            .map(held_share)
+            .map(protected_share)
             .collect();
         let mean = shares.iter().sum::<f64>() / shares.len() as f64;
         let min = shares.iter().copied().fold(f64::INFINITY, f64::min);
-        out.push(m("mean_held_share", Better::Higher, mean));
-        out.push(m("min_held_share", Better::Higher, min));
+        out.push(m("mean_protected_share", Better::Higher, mean));
+        out.push(m("min_protected_share", Better::Higher, min));
     }
     let mut per_kind: BTreeMap<&str, usize> = BTreeMap::new();
     for c in &a.coverage {
-        *per_kind.entry(c.kind.as_str()).or_default() += usize::from(c.met);
+        *per_kind.entry(c.kind.as_str()).or_default() += usize::from(c.reached);
     }
-    for (kind, met) in per_kind {
-        out.push(m(format!("targets_met_{kind}"), Better::Higher, met as f64));
+    for (kind, reached) in per_kind {
+        out.push(m(
+            format!("targets_reached_{kind}"),
+            Better::Higher,
+            reached as f64,
+        ));
     }
     out
 }
@@ -122,25 +126,25 @@ pub fn network_measures(a: &Assessment) -> Vec<MeasureValue> {
 mod tests {
     use super::*;
 
-    fn cov(kind: &str, held: f64, target: f64) -> Coverage {
+    fn cov(kind: &str, protected: f64, target: f64) -> Coverage {
         Coverage {
-            feature: format!("{kind}-{held}"),
+            feature: format!("{kind}-{protected}"),
             kind: kind.into(),
             species: None,
             scenario: None,
             year: None,
             total: 10.0,
-            held,
+            protected,
             target,
-            shortfall: (target - held).max(0.0),
-            met: held >= target,
+            shortfall: (target - protected).max(0.0),
+            reached: protected >= target,
             absent: false,
         }
     }
 
     fn assessment(coverage: Vec<Coverage>) -> Assessment {
         Assessment {
-            targets_met: coverage.iter().filter(|c| c.met).count(),
+            targets_reached: coverage.iter().filter(|c| c.reached).count(),
             targets_absent: 0,
             coverage,
             cost: 7.5,
@@ -157,9 +161,9 @@ mod tests {
 
     #[test]
     fn shares_and_kind_counts_by_hand() {
-        // Hand computation: held shares min(2/4, 1) = 0.5, min(6/3, 1) = 1, min(0/2, 1) = 0,
+        // Hand computation: protected shares min(2/4, 1) = 0.5, min(6/3, 1) = 1, min(0/2, 1) = 0,
         // zero target → 1. Mean (0.5 + 1 + 0 + 1)/4 = 0.625, min 0.
-        // Met: habitat 6≥3 and 0≥0 → 2 of 3 habitat; refugium 0 of 1.
+        // Reached: habitat 6≥3 and 0≥0 → 2 of 3 habitat; refugium 0 of 1.
         let a = assessment(vec![
             cov("habitat", 2.0, 4.0),
             cov("habitat", 6.0, 3.0),
@@ -180,11 +184,11 @@ mod tests {
             ("total_edge_km", Better::Lower, 100.0),
             ("compactness_ratio", Better::Lower, 1.5),
             ("largest_gap_km", Better::Lower, 12.0),
-            ("targets_met", Better::Higher, 2.0),
-            ("mean_held_share", Better::Higher, 0.625),
-            ("min_held_share", Better::Higher, 0.0),
-            ("targets_met_habitat", Better::Higher, 2.0),
-            ("targets_met_refugium", Better::Higher, 0.0),
+            ("targets_reached", Better::Higher, 2.0),
+            ("mean_protected_share", Better::Higher, 0.625),
+            ("min_protected_share", Better::Higher, 0.0),
+            ("targets_reached_habitat", Better::Higher, 2.0),
+            ("targets_reached_refugium", Better::Higher, 0.0),
         ];
         let want: Vec<(String, Better, f64)> = want
             .into_iter()
@@ -196,17 +200,17 @@ mod tests {
     #[test]
     fn absent_features_are_left_out_of_the_shares() {
         // Hand: present features hold 2/4 and 6/3 → shares 0.5 and 1, mean 0.75, min 0.5;
-        // the absent one (zero target of a zero total) would add a share of 1 as a met zero
-        // target, but is absent: not met, not in the shares.
+        // the absent one (zero target of a zero total) would add a share of 1 as a reached zero
+        // target, but is absent: not reached, not in the shares.
         let mut gone = cov("habitat", 0.0, 0.0);
-        gone.met = false;
+        gone.reached = false;
         gone.absent = true;
         let a = assessment(vec![
             cov("habitat", 2.0, 4.0),
             cov("habitat", 6.0, 3.0),
             gone.clone(),
         ]);
-        assert_eq!(held_share(&gone), 0.0);
+        assert_eq!(protected_share(&gone), 0.0);
         let get = |n: &str| {
             network_measures(&a)
                 .into_iter()
@@ -214,9 +218,9 @@ mod tests {
                 .unwrap()
                 .value
         };
-        assert_eq!(get("mean_held_share"), 0.75);
-        assert_eq!(get("min_held_share"), 0.5);
-        assert_eq!(get("targets_met_habitat"), 1.0);
+        assert_eq!(get("mean_protected_share"), 0.75);
+        assert_eq!(get("min_protected_share"), 0.5);
+        assert_eq!(get("targets_reached_habitat"), 1.0);
     }
 
     #[test]
@@ -227,7 +231,7 @@ mod tests {
             .collect();
         assert!(!names
             .iter()
-            .any(|n| n.contains("share_") && n.contains("held")));
+            .any(|n| n.contains("share_") && n.contains("protected")));
         assert_eq!(names.len(), 10);
     }
 }

@@ -13,7 +13,7 @@ mod table;
 
 pub use json::compare_json;
 pub use long_csv::{compare_csv, COMPARE_COLUMNS};
-pub use measures::{held_share, network_measures, Better, MeasureValue};
+pub use measures::{network_measures, protected_share, Better, MeasureValue};
 pub use rank::{differences, Difference, DifferenceOf};
 pub use table::compare_table;
 
@@ -77,12 +77,12 @@ pub struct FeatureRow {
     pub total: f64,
     /// Target amount (the same for every network).
     pub target: f64,
-    /// Amount held, per network.
-    pub held: Vec<f64>,
-    /// min(held/target, 1) per network (0–1; 1 for a zero target), see [`held_share`].
-    pub share_of_target: Vec<f64>,
-    /// Whether the target is met, per network (never when absent).
-    pub met: Vec<bool>,
+    /// Amount protected, per network.
+    pub protected: Vec<f64>,
+    /// min(protected/target, 1) per network (0–1; 1 for a zero target), see [`protected_share`].
+    pub protected_share_of_target: Vec<f64>,
+    /// Whether the target is reached, per network (never when absent).
+    pub reached: Vec<bool>,
     /// The feature has no amount anywhere in the region: absent, for every network alike.
     pub absent: bool,
     /// Indices of the networks holding the most of it (ties together, ascending).
@@ -90,7 +90,7 @@ pub struct FeatureRow {
 }
 
 /// How "best" is awarded on a measure, stated with every comparison's table.
-pub const RANKING_RULE: &str = "target coverage first: `targets_met` is ranked over every network; every other measure's best is awarded only among the networks that meet the most targets, so a network that misses targets is never best on cost, area or shape";
+pub const RANKING_RULE: &str = "target coverage first: `targets_reached` is ranked over every network; every other measure's best is awarded only among the networks that meet the most targets, so a network that misses targets is never best on cost, area or shape";
 
 /// Several networks side by side.
 #[derive(Debug, Clone, PartialEq)]
@@ -98,7 +98,7 @@ pub struct Comparison {
     /// Network names, in the order given; every per-network vector follows this order.
     pub networks: Vec<String>,
     /// Networks that meet the most targets (ties all, ascending): the only ones ranked on any
-    /// measure but `targets_met` ([`RANKING_RULE`]). The others miss targets.
+    /// measure but `targets_reached` ([`RANKING_RULE`]). The others miss targets.
     pub ranked: Vec<usize>,
     /// Network-level measures, in [`network_measures`] order.
     pub measures: Vec<Measure>,
@@ -137,11 +137,11 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
     // ranked on the other measures.
     let most = networks
         .iter()
-        .map(|(_, a)| a.targets_met)
+        .map(|(_, a)| a.targets_reached)
         .max()
         .unwrap_or(0);
     let ranked: Vec<usize> = (0..networks.len())
-        .filter(|&i| networks[i].1.targets_met == most)
+        .filter(|&i| networks[i].1.targets_reached == most)
         .collect();
     // Same features ⇒ same kinds ⇒ the same measure list for every network.
     let measures = per_network[0]
@@ -149,7 +149,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
         .enumerate()
         .map(|(k, mv)| {
             let values: Vec<f64> = per_network.iter().map(|v| v[k].value).collect();
-            let best = if mv.name == "targets_met" {
+            let best = if mv.name == "targets_reached" {
                 rank::best_of(&values, mv.better)
             } else {
                 rank::best_among(&values, mv.better, &ranked)
@@ -170,7 +170,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
             let rows: Vec<&crate::assess::Coverage> =
                 networks.iter().map(|(_, a)| &a.coverage[k]).collect();
             // `+ 0.0` turns −0 (a float sum of no amounts) into 0, so outputs never show "-0".
-            let held: Vec<f64> = rows.iter().map(|r| r.held + 0.0).collect();
+            let protected: Vec<f64> = rows.iter().map(|r| r.protected + 0.0).collect();
             FeatureRow {
                 feature: c.feature.clone(),
                 kind: c.kind.clone(),
@@ -179,11 +179,11 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
                 year: c.year,
                 total: c.total + 0.0,
                 target: c.target + 0.0,
-                share_of_target: rows.iter().map(|r| held_share(r)).collect(),
-                met: rows.iter().map(|r| r.met).collect(),
+                protected_share_of_target: rows.iter().map(|r| protected_share(r)).collect(),
+                reached: rows.iter().map(|r| r.reached).collect(),
                 absent: c.absent,
-                best: rank::best_of(&held, Better::Higher),
-                held,
+                best: rank::best_of(&protected, Better::Higher),
+                protected,
             }
         })
         .collect();
@@ -307,10 +307,10 @@ mod tests {
     #[test]
     fn two_networks_by_hand() {
         // Network x = {0}: cost 1, area 100 km², exposed edge 2 sides (east → 1, north → 3)
-        // = 20 km; holds a 4/4 (met), b 0/2, c 0/2 → met 1, shares (1 + 0 + 0)/3 = 1/3.
+        // = 20 km; holds a 4/4 (reached), b 0/2, c 0/2 → reached 1, shares (1 + 0 + 0)/3 = 1/3.
         // Network y = {4, 5}: cost 5 + 6 = 11, area 200 km², exposed edge: cell 4 west → 3,
         // south → 1; cell 5 south → 2 = 3 sides = 30 km; holds a 2/4 (0.5), b 1/2 (0.5),
-        // c 5/2 (met, 1) → met 1, mean share (0.5 + 0.5 + 1)/3 = 2/3.
+        // c 5/2 (reached, 1) → reached 1, mean share (0.5 + 0.5 + 1)/3 = 2/3.
         let x = assessed(&[0]);
         let y = assessed(&[4, 5]);
         let c = compare(&[("x".into(), &x), ("y".into(), &y)]).unwrap();
@@ -322,27 +322,27 @@ mod tests {
         assert!((get("exposed_edge_km").values[0] - 20.0).abs() < 1e-9);
         assert!((get("exposed_edge_km").values[1] - 30.0).abs() < 1e-9);
         assert_eq!(get("exposed_edge_km").best, vec![0]);
-        assert_eq!(get("targets_met").values, vec![1.0, 1.0]);
-        assert_eq!(get("targets_met").best, vec![0, 1]);
-        assert!((get("mean_held_share").values[0] - 1.0 / 3.0).abs() < 1e-12);
-        assert!((get("mean_held_share").values[1] - 2.0 / 3.0).abs() < 1e-12);
-        assert_eq!(get("mean_held_share").best, vec![1]);
-        assert_eq!(get("min_held_share").values, vec![0.0, 0.5]);
-        assert_eq!(get("targets_met_habitat").values, vec![1.0, 0.0]);
-        assert_eq!(get("targets_met_refugium").values, vec![0.0, 1.0]);
+        assert_eq!(get("targets_reached").values, vec![1.0, 1.0]);
+        assert_eq!(get("targets_reached").best, vec![0, 1]);
+        assert!((get("mean_protected_share").values[0] - 1.0 / 3.0).abs() < 1e-12);
+        assert!((get("mean_protected_share").values[1] - 2.0 / 3.0).abs() < 1e-12);
+        assert_eq!(get("mean_protected_share").best, vec![1]);
+        assert_eq!(get("min_protected_share").values, vec![0.0, 0.5]);
+        assert_eq!(get("targets_reached_habitat").values, vec![1.0, 0.0]);
+        assert_eq!(get("targets_reached_refugium").values, vec![0.0, 1.0]);
         assert_eq!(get("reserves").values, vec![1.0, 1.0]);
         assert!(get("reserves").best.is_empty());
-        // Feature rows: held side by side and who holds most.
-        assert_eq!(c.features[0].held, vec![4.0, 2.0]);
+        // Feature rows: protected side by side and who holds most.
+        assert_eq!(c.features[0].protected, vec![4.0, 2.0]);
         assert_eq!(c.features[0].best, vec![0]);
-        assert_eq!(c.features[2].share_of_target, vec![0.0, 1.0]);
-        assert_eq!(c.features[2].met, vec![false, true]);
+        assert_eq!(c.features[2].protected_share_of_target, vec![0.0, 1.0]);
+        assert_eq!(c.features[2].reached, vec![false, true]);
         assert_eq!(c.features[1].scenario.as_deref(), Some("ssp2-4.5"));
-        // Differences: every measure but targets_met and reserves differs, then all three
-        // features' held amounts.
+        // Differences: every measure but targets_reached and reserves differs, then all three
+        // features' protected amounts.
         let d = differences(&c, 0, 1).unwrap();
         let names: Vec<&str> = d.iter().map(|d| d.name.as_str()).collect();
-        assert!(!names.contains(&"targets_met") && !names.contains(&"reserves"));
+        assert!(!names.contains(&"targets_reached") && !names.contains(&"reserves"));
         assert!(names.ends_with(&["habitat/a", "habitat/b", "refugium/c"]));
         let cost = d.iter().find(|d| d.name == "cost").unwrap();
         assert_eq!((cost.a, cost.b, cost.better), (1.0, 11.0, Some(0)));

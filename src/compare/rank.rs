@@ -47,7 +47,7 @@ pub(crate) fn best_among(values: &[f64], better: Better, among: &[usize]) -> Vec
 pub enum DifferenceOf {
     /// A network-level measure ([`Comparison::measures`]).
     Measure,
-    /// A feature's held amount ([`Comparison::features`]).
+    /// A feature's protected amount ([`Comparison::features`]).
     Feature,
 }
 
@@ -58,7 +58,7 @@ pub struct Difference {
     pub name: String,
     /// Whether `name` is a measure or a feature.
     pub of: DifferenceOf,
-    /// Value for the first network (a feature's held amount, in the feature's unit).
+    /// Value for the first network (a feature's protected amount, in the feature's unit).
     pub a: f64,
     /// Value for the second network.
     pub b: f64,
@@ -107,8 +107,8 @@ pub fn differences(c: &Comparison, a: usize, b: usize) -> Option<Vec<Difference>
             &f.feature,
             DifferenceOf::Feature,
             Better::Higher,
-            f.held[a],
-            f.held[b],
+            f.protected[a],
+            f.protected[b],
         );
     }
     Some(out)

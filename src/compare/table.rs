@@ -2,7 +2,7 @@
 
 use super::Comparison;
 
-/// Most features listed in the "met by some networks only" part; the rest are counted.
+/// Most features listed in the "reached by some networks only" part; the rest are counted.
 const MAX_FEATURE_LINES: usize = 20;
 
 /// Marks the best network(s) on a measure.
@@ -73,7 +73,7 @@ fn layout(rows: &[Vec<String>], left: usize) -> String {
 /// The ranking rule in words, naming the networks it leaves unranked (they miss targets).
 pub fn ranking_line(c: &Comparison) -> String {
     let most = c
-        .measure("targets_met")
+        .measure("targets_reached")
         .and_then(|m| c.ranked.first().map(|&i| m.values[i]))
         .unwrap_or(0.0);
     let missing: Vec<&str> = (0..c.networks.len())
@@ -81,7 +81,7 @@ pub fn ranking_line(c: &Comparison) -> String {
         .map(|i| c.networks[i].as_str())
         .collect();
     let mut s = format!(
-        "Ranking: target coverage first. `*` on targets_met marks the most targets met ({most:.0} of {}); on every other measure `*` is awarded only among the networks that meet that many.",
+        "Ranking: target coverage first. `*` on targets_reached marks the most targets reached ({most:.0} of {}); on every other measure `*` is awarded only among the networks that meet that many.",
         c.features.len()
     );
     if !missing.is_empty() {
@@ -126,7 +126,7 @@ pub fn compare_table(c: &Comparison) -> String {
     let split: Vec<_> = c
         .features
         .iter()
-        .filter(|f| f.met.iter().any(|&m| m) && !f.met.iter().all(|&m| m))
+        .filter(|f| f.reached.iter().any(|&m| m) && !f.reached.iter().all(|&m| m))
         .collect();
     let absent = c.features.iter().filter(|f| f.absent).count();
     out.push('\n');
@@ -143,7 +143,7 @@ pub fn compare_table(c: &Comparison) -> String {
         return out;
     }
     out.push_str(&format!(
-        "Targets met by some networks only ({} of {} features):\n\n",
+        "Targets reached by some networks only ({} of {} features):\n\n",
         split.len(),
         c.features.len()
     ));
@@ -162,13 +162,18 @@ pub fn compare_table(c: &Comparison) -> String {
             f.scenario.clone().unwrap_or_else(|| "-".into()),
             f.year.map(|y| y.to_string()).unwrap_or_else(|| "-".into()),
         ];
-        r.extend(f.share_of_target.iter().zip(&f.met).map(|(s, &met)| {
-            if met {
-                "met".to_string()
-            } else {
-                format!("{:.0}%", s * 100.0)
-            }
-        }));
+        r.extend(
+            f.protected_share_of_target
+                .iter()
+                .zip(&f.reached)
+                .map(|(s, &reached)| {
+                    if reached {
+                        "reached".to_string()
+                    } else {
+                        format!("{:.0}%", s * 100.0)
+                    }
+                }),
+        );
         rows.push(r);
     }
     out.push_str(&layout(&rows, 3));
@@ -178,7 +183,7 @@ pub fn compare_table(c: &Comparison) -> String {
             split.len() - MAX_FEATURE_LINES
         ));
     }
-    out.push_str("met = target held; otherwise the share of the target held\n");
+    out.push_str("reached = target protected; otherwise the share of the target protected\n");
     out
 }
 
@@ -201,36 +206,42 @@ mod tests {
             "{t}"
         );
         assert!(lines[1].contains("(1 of 3)") && !lines[1].contains("Not ranked"));
-        // Hand layout: `measure` column 20 wide (`targets_met_refugium`), `better` 6 wide,
+        // Hand layout: `measure` column 24 wide (`targets_reached_refugium`), `better` 6 wide,
         // each network column 7 wide (`0.333 *`), two spaces between columns; numbers and
         // names right-aligned with room for the best marker ` *`.
         let row = |name: &str, better: &str, a: &str, b: &str| {
-            format!("{name:<20}  {better:<6}  {a:>7}  {b:>7}")
+            format!("{name:<24}  {better:<6}  {a:>7}  {b:>7}")
                 .trim_end()
                 .to_string()
         };
         assert_eq!(lines[3], row("measure", "better", "x  ", "other  "));
         assert_eq!(lines[4], row("cost", "lower", "1 *", "11  "));
         assert_eq!(lines[8], row("reserves", "none", "1  ", "1  "));
-        // Tie on targets met: both marked.
-        assert_eq!(lines[13], row("targets_met", "higher", "1 *", "1 *"));
+        // Tie on targets reached: both marked.
+        assert_eq!(lines[13], row("targets_reached", "higher", "1 *", "1 *"));
         // Hand values: mean shares 1/3 and 2/3; the worst share of x is 0 (not -0).
         assert_eq!(
             lines[14],
-            row("mean_held_share", "higher", "0.333  ", "0.667 *")
+            row("mean_protected_share", "higher", "0.333  ", "0.667 *")
         );
         assert_eq!(
             lines[15],
-            row("min_held_share", "higher", "0.000  ", "0.500 *")
+            row("min_protected_share", "higher", "0.000  ", "0.500 *")
         );
-        // Split targets: a met only by x, c only by `other`; b by neither so not listed.
+        // Split targets: a reached only by x, c only by `other`; b by neither so not listed.
         // Hand values: other holds 2 of a's target 4 → 50%; x holds 0 of c → 0%.
         assert!(
-            t.contains("Targets met by some networks only (2 of 3 features)"),
+            t.contains("Targets reached by some networks only (2 of 3 features)"),
             "{t}"
         );
-        assert!(t.contains("habitat/a   ssp2-4.5  2050  met    50%"), "{t}");
-        assert!(t.contains("refugium/c  ssp2-4.5  2050   0%    met"), "{t}");
+        assert!(
+            t.contains("habitat/a   ssp2-4.5  2050  reached      50%"),
+            "{t}"
+        );
+        assert!(
+            t.contains("refugium/c  ssp2-4.5  2050       0%  reached"),
+            "{t}"
+        );
         assert!(!t.contains("habitat/b"));
         assert!(lines.iter().all(|l| !l.ends_with(' ')));
     }

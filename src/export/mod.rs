@@ -34,7 +34,7 @@ who use the sea.";
 
 /// What "benefit" means wherever it is shown (terminal, report, README): the score that
 /// max-benefit maximises ([`crate::model::robust`]).
-pub const BENEFIT: &str = "benefit = weighted targets met: each feature scores its weight times the share of its target held (at most 1), so a half-met target of weight 1 scores 0.5; `of N` is the score of every target met";
+pub const BENEFIT: &str = "benefit = weighted targets reached: each feature scores its weight times the share of its target protected (at most 1), so a half-reached target of weight 1 scores 0.5; `of N` is the score of every target reached";
 
 /// Errors of the export stage. Each names the file or the item that could not be written.
 #[derive(Debug, thiserror::Error)]

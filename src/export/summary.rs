@@ -45,10 +45,10 @@ pub struct Summary {
     pub compactness_ratio: f64,
     /// Longest stretch of the poleward axis between consecutive chosen cells. Units: km.
     pub largest_gap_km: f64,
-    /// Targets met (absent features never are).
-    pub targets_met: usize,
+    /// Targets reached (absent features never are).
+    pub targets_reached: usize,
     /// Features absent from the region (zero total in their scenario and year): counted
-    /// apart, never met.
+    /// apart, never reached.
     pub targets_absent: usize,
     /// Targets in the plan (absent features included).
     pub targets_total: usize,
@@ -61,7 +61,7 @@ pub struct Summary {
     pub warnings: Vec<String>,
     /// What these results are and are not.
     pub caution: String,
-    /// Per scenario: benefit, best achievable benefit, regret and targets met.
+    /// Per scenario: benefit, best achievable benefit, regret and targets reached.
     pub scenarios: Vec<ScenarioResult>,
     /// How each point-lattice layer was sampled: cells bilinear / coastal fallback / nearest
     /// / missing (empty when the plan has no point lattices).
@@ -102,7 +102,7 @@ impl Summary {
             boundary_edge_km: assessment.boundary_edge_km,
             compactness_ratio: assessment.compactness_ratio,
             largest_gap_km: assessment.largest_gap_km,
-            targets_met: assessment.targets_met,
+            targets_reached: assessment.targets_reached,
             targets_absent: assessment.targets_absent,
             targets_total: assessment.coverage.len(),
             cells_selected: assessment.cells_selected,
@@ -169,7 +169,7 @@ mod tests {
                 benefit_max: 3.0,
                 best: Some(3.0),
                 regret: Some(0.5),
-                targets_met: 2,
+                targets_reached: 2,
                 targets: 3,
                 absent: 0,
             }],
@@ -182,7 +182,7 @@ mod tests {
             share_of_region: 0.5,
             reserves: vec![],
             exposed_edge_km: 40.0,
-            targets_met: 0,
+            targets_reached: 0,
             targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 1,

@@ -1,4 +1,4 @@
-//! `coverage.csv`: one row per feature with its total, held amount, target and shortfall.
+//! `coverage.csv`: one row per feature with its total, protected amount, target and shortfall.
 
 use crate::assess::Assessment;
 
@@ -10,17 +10,17 @@ pub const COVERAGE_COLUMNS: [&str; 11] = [
     "scenario",
     "year",
     "total",
-    "held",
+    "protected",
     "target",
     "shortfall",
-    "met",
+    "reached",
     "absent",
 ];
 
 /// `coverage.csv`: columns [`COVERAGE_COLUMNS`], one row per feature in assessment order.
 /// Missing species/scenario/year are empty fields; amounts are in each feature's own unit,
-/// written in shortest round-trip form; `met` is `true`/`false`; `absent` is `true` for a
-/// feature with no amount anywhere in the region (never met, see
+/// written in shortest round-trip form; `reached` is `true`/`false`; `absent` is `true` for a
+/// feature with no amount anywhere in the region (never reached, see
 /// [`crate::features::absent`]).
 pub fn coverage_csv(assessment: &Assessment) -> String {
     let rows = assessment.coverage.iter().map(|c| {
@@ -31,10 +31,10 @@ pub fn coverage_csv(assessment: &Assessment) -> String {
             c.scenario.clone().unwrap_or_default(),
             c.year.map(|y| y.to_string()).unwrap_or_default(),
             c.total.to_string(),
-            c.held.to_string(),
+            c.protected.to_string(),
             c.target.to_string(),
             c.shortfall.to_string(),
-            c.met.to_string(),
+            c.reached.to_string(),
             c.absent.to_string(),
         ]
     });
@@ -91,7 +91,7 @@ mod tests {
             share_of_region: 0.0,
             reserves: vec![],
             exposed_edge_km: 0.0,
-            targets_met: 0,
+            targets_reached: 0,
             targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 0,
@@ -132,10 +132,10 @@ mod tests {
                 scenario: Some("ssp2-4.5".into()),
                 year: Some(2050),
                 total: 10.0,
-                held: 2.5,
+                protected: 2.5,
                 target: 3.0,
                 shortfall: 0.5,
-                met: false,
+                reached: false,
                 absent: false,
             }],
             ..empty_assessment()
@@ -143,7 +143,7 @@ mod tests {
         // Expected text written out by hand following RFC 4180 quoting.
         assert_eq!(
             coverage_csv(&a),
-            "feature,kind,species,scenario,year,total,held,target,shortfall,met,absent\n\
+            "feature,kind,species,scenario,year,total,protected,target,shortfall,reached,absent\n\
              \"habitat/cod, juvenile\",habitat,,ssp2-4.5,2050,10,2.5,3,0.5,false,false\n"
         );
     }

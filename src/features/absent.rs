@@ -1,6 +1,6 @@
 //! Absent features: a feature with no amount anywhere in the region (zero total) in its
 //! scenario and year, e.g. a species that has left the region under strong warming. Absent is
-//! its own state: its target (a share of nothing) is never counted as met. This module finds
+//! its own state: its target (a share of nothing) is never counted as reached. This module finds
 //! them in a [`FeatureTable`] and words them for people.
 
 use super::{FeatureKind, FeatureTable};

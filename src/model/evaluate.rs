@@ -1,4 +1,4 @@
-//! Recompute everything about a network from raw amounts: cost, area, holdings, targets met,
+//! Recompute everything about a network from raw amounts: cost, area, holdings, targets reached,
 //! per-scenario benefit and regret, exposed edge, max gap and the objective in the problem's
 //! own sense. It shares no code with any solver's formulation, which makes it the independent
 //! check for solvers and tests.
@@ -23,7 +23,7 @@ pub fn at_least(value: f64, limit: f64) -> bool {
 pub struct ScenarioResult {
     /// Scenario name.
     pub name: String,
-    /// Bₛ = Σ wₖ·min(heldₖ/capₖ, 1) over the scenario's features (capₖ = Tₖ, or the total
+    /// Bₛ = Σ wₖ·min(protectedₖ/capₖ, 1) over the scenario's features (capₖ = Tₖ, or the total
     /// amount of a weight-only feature). Units: weighted targets
     /// (see [`super::robust`]).
     pub benefit: f64,
@@ -33,11 +33,11 @@ pub struct ScenarioResult {
     pub best: Option<f64>,
     /// max(Bₛ* − Bₛ, 0) when Bₛ* is known (≥ 0 by definition). Units: weighted targets.
     pub regret: Option<f64>,
-    /// Targets of this scenario's features that are met (absent features never are).
-    pub targets_met: usize,
+    /// Targets of this scenario's features that are reached (absent features never are).
+    pub targets_reached: usize,
     /// Number of this scenario's features (absent ones included).
     pub targets: usize,
-    /// This scenario's features with no amount anywhere (absent: never met).
+    /// This scenario's features with no amount anywhere (absent: never reached).
     pub absent: usize,
 }
 
@@ -48,16 +48,16 @@ pub struct Evaluation {
     pub cost: f64,
     /// Total sea area. Units: km².
     pub area_km2: f64,
-    /// Amount of each feature held (feature order).
-    pub held: Vec<f64>,
-    /// Whether each feature's target is met (up to [`TOLERANCE`]); never for an absent one.
-    pub met: Vec<bool>,
+    /// Amount of each feature protected (feature order).
+    pub protected: Vec<f64>,
+    /// Whether each feature's target is reached (up to [`TOLERANCE`]); never for an absent one.
+    pub reached: Vec<bool>,
     /// Whether each feature is absent: no positive amount in any cell (e.g. a species gone
-    /// from the region). Absent features are never met, and never make a network infeasible.
+    /// from the region). Absent features are never reached, and never make a network infeasible.
     pub absent: Vec<bool>,
-    /// Number of features whose target is met.
-    pub targets_met: usize,
-    /// Per-scenario benefit, regret and targets met.
+    /// Number of features whose target is reached.
+    pub targets_reached: usize,
+    /// Per-scenario benefit, regret and targets reached.
     pub scenarios: Vec<ScenarioResult>,
     /// Exposed reserve edge (0 without an edge penalty). Units: km.
     pub exposed_edge_km: f64,
@@ -92,7 +92,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     };
     let cost = sum_selected(&problem.cost);
     let area_km2 = sum_selected(&problem.area_km2);
-    let held: Vec<f64> = problem
+    let protected: Vec<f64> = problem
         .features
         .iter()
         .map(|f| {
@@ -108,17 +108,17 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         .iter()
         .map(|f| !f.amounts.iter().any(|(_, a)| *a > 0.0))
         .collect();
-    let met: Vec<bool> = problem
+    let reached: Vec<bool> = problem
         .features
         .iter()
-        .zip(&held)
+        .zip(&protected)
         .zip(&absent)
         .map(|((f, h), &gone)| !gone && at_least(*h, f.target))
         .collect();
     let credit = |k: usize| -> f64 {
         let f = &problem.features[k];
         match f.benefit_cap() {
-            Some(cap) => f.weight * (held[k] / cap).min(1.0),
+            Some(cap) => f.weight * (protected[k] / cap).min(1.0),
             None => 0.0,
         }
     };
@@ -144,7 +144,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
                 // fall short of the optimum); a network that beats it shows the scenario can
                 // reach its own benefit, so its regret there is 0, never negative.
                 regret: b_star.map(|b| (b - benefit).max(0.0)),
-                targets_met: ks.iter().filter(|&&k| met[k]).count(),
+                targets_reached: ks.iter().filter(|&&k| reached[k]).count(),
                 targets: ks.len(),
                 absent: ks.iter().filter(|&&k| absent[k]).count(),
             }
@@ -172,8 +172,8 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     let lone_cells = problem.min_reserve.as_ref().map_or_else(Vec::new, |m| {
         m.lone_cells(&problem.status, &problem.area_km2, selected)
     });
-    // An absent feature's target is zero, so it binds nothing (it is not met either).
-    let all_met = met.iter().zip(&absent).all(|(m, a)| *m || *a);
+    // An absent feature's target is zero, so it binds nothing (it is not reached either).
+    let all_reached = reached.iter().zip(&absent).all(|(m, a)| *m || *a);
     let first = match problem.objective {
         Objective::MinCost => cost + penalty,
         Objective::MaxBenefit => {
@@ -198,9 +198,9 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     });
     let feasible = status_respected
         && within_budget
-        && gap.as_ref().is_none_or(|g| g.met)
+        && gap.as_ref().is_none_or(|g| g.reached)
         && lone_cells.is_empty()
-        && (problem.objective == Objective::MaxBenefit || all_met)
+        && (problem.objective == Objective::MaxBenefit || all_reached)
         && keeps;
     let objective = if problem.keep_objective.is_some() {
         cost
@@ -210,9 +210,9 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
     Evaluation {
         cost,
         area_km2,
-        targets_met: met.iter().filter(|m| **m).count(),
-        held,
-        met,
+        targets_reached: reached.iter().filter(|m| **m).count(),
+        protected,
+        reached,
         absent,
         scenarios,
         exposed_edge_km: exposed,
@@ -281,13 +281,13 @@ mod tests {
         let e = evaluate(&p, &sel(&[2, 4]));
         assert_eq!(e.cost, 7.0);
         assert!(e.feasible);
-        assert_eq!(e.held, vec![2.0, 1.0, 1.0]);
+        assert_eq!(e.protected, vec![2.0, 1.0, 1.0]);
         let e = evaluate(&p, &sel(&[0, 4, 5]));
         assert_eq!((e.cost, e.feasible), (7.0, true));
-        // {2} alone: A held 1 < 2 → infeasible for min-cost; benefit 0.5 + 1 + 0 = 1.5.
+        // {2} alone: A protected 1 < 2 → infeasible for min-cost; benefit 0.5 + 1 + 0 = 1.5.
         let e = evaluate(&p, &sel(&[2]));
         assert!(!e.feasible);
-        assert_eq!(e.targets_met, 1);
+        assert_eq!(e.targets_reached, 1);
         assert_eq!(e.scenarios[0].benefit, 1.5);
         p.edge_penalty = Some(unit_grid_penalty(2, 3, 1.0));
         assert_eq!(evaluate(&p, &sel(&[2, 4])).objective, 15.0);

@@ -161,7 +161,7 @@ pub fn keep_floor(v: f64) -> f64 {
 impl ModelFeature {
     /// The holding at which the feature's benefit credit stops growing: its target when it
     /// has one; otherwise its whole amount over the region, so a weight-only feature (target 0,
-    /// e.g. a corridor weight) earns wₖ·heldₖ/totalₖ — in proportion to how much the network
+    /// e.g. a corridor weight) earns wₖ·protectedₖ/totalₖ — in proportion to how much the network
     /// holds. `None` for a weight-only feature with no amount anywhere (it earns nothing and
     /// nothing can change that). Units: the feature's own.
     pub fn benefit_cap(&self) -> Option<f64> {

@@ -1,14 +1,14 @@
 //! Objectives and robustness rules: how targets and scenarios become one number to optimise.
 //!
 //! # Benefit
-//! A feature k with target Tₖ > 0 and weight wₖ earns wₖ·min(heldₖ/Tₖ, 1): its credit is capped
+//! A feature k with target Tₖ > 0 and weight wₖ earns wₖ·min(protectedₖ/Tₖ, 1): its credit is capped
 //! at its target (maximum coverage, Church & ReVelle 1974, Papers of the Regional Science
 //! Association 32:101). A weight-only feature (Tₖ = 0, e.g. a corridor weight) has no target to
-//! meet, so its credit is proportional to what the network holds: wₖ·heldₖ/Aₖ with Aₖ its total
+//! meet, so its credit is proportional to what the network holds: wₖ·protectedₖ/Aₖ with Aₖ its total
 //! amount over the region (capₖ = Tₖ or Aₖ, [`super::ModelFeature::benefit_cap`]).
-//! The benefit of scenario s is Bₛ(x) = Σ_{k ∈ Fₛ} wₖ·min(heldₖ/capₖ, 1), where Fₛ holds the
-//! features of scenario s plus the scenario-free ones. Units: weighted targets met (with unit
-//! weights, Bₛ counts targets met, fractions for partly met ones); it is not normalised, so
+//! The benefit of scenario s is Bₛ(x) = Σ_{k ∈ Fₛ} wₖ·min(protectedₖ/capₖ, 1), where Fₛ holds the
+//! features of scenario s plus the scenario-free ones. Units: weighted targets reached (with unit
+//! weights, Bₛ counts targets reached, fractions for partly reached ones); it is not normalised, so
 //! Bₛ ranges over [0, Σ_{k∈Fₛ} wₖ].
 //!
 //! Linear form: yₖ ∈ [0, capₖ] continuous, yₖ ≤ Σᵢ aᵢₖxᵢ, Bₛ = Σ_{k∈Fₛ} (wₖ/capₖ)·yₖ.

@@ -54,7 +54,7 @@ pub struct GapReport {
     /// chosen. Units: km.
     pub longest_gap_km: f64,
     /// Whether the rule (conditions 1–3 in the module doc) holds.
-    pub met: bool,
+    pub reached: bool,
 }
 
 /// Distinct sorted positions of the allowed (non-excluded) cells.
@@ -101,23 +101,23 @@ pub fn check_gaps(spacing: &Spacing, status: &[CellStatus], selected: &[bool]) -
     ) else {
         return GapReport {
             longest_gap_km: f64::INFINITY,
-            met: allowed.is_empty(),
+            reached: allowed.is_empty(),
         };
     };
     let mut longest = (first - p1).max(pm - last).max(0.0);
-    let mut met = first <= p1 + g && pm - last <= g;
+    let mut reached = first <= p1 + g && pm - last <= g;
     for w in chosen.windows(2) {
         let gap = w[1] - w[0];
         longest = longest.max(gap);
         // Position index of w[0] among the allowed positions (chosen cells are allowed).
         let q = allowed.partition_point(|&p| p < w[0]);
         if pm - w[0] > g && gap > reach(&allowed, q, g) {
-            met = false;
+            reached = false;
         }
     }
     GapReport {
         longest_gap_km: longest,
-        met,
+        reached,
     }
 }
 
@@ -197,18 +197,18 @@ mod tests {
         let s = sp(&[0.0, 5.0, 10.0], 6.0);
         let st = vec![CellStatus::Free; 3];
         let r = check_gaps(&s, &st, &[true, false, true]);
-        assert!(!r.met);
+        assert!(!r.reached);
         assert_eq!(r.longest_gap_km, 10.0);
         let r = check_gaps(&s, &st, &[true, true, true]);
-        assert!(r.met);
+        assert!(r.reached);
         assert_eq!(r.longest_gap_km, 5.0);
-        // {5} alone: start stretch 5 ≤ 6, end stretch 5 ≤ 6 → met.
-        assert!(check_gaps(&s, &st, &[false, true, false]).met);
+        // {5} alone: start stretch 5 ≤ 6, end stretch 5 ≤ 6 → reached.
+        assert!(check_gaps(&s, &st, &[false, true, false]).reached);
         // Excluding cell 5 leaves a 10 km data gap: {0, 10} is then the best possible and
         // passes because r(0) = max(6, 10 − 0) = 10.
         let st2 = vec![CellStatus::Free, CellStatus::Excluded, CellStatus::Free];
-        assert!(check_gaps(&s, &st2, &[true, false, true]).met);
-        assert!(!check_gaps(&s, &st2, &[true, false, false]).met);
+        assert!(check_gaps(&s, &st2, &[true, false, true]).reached);
+        assert!(!check_gaps(&s, &st2, &[true, false, false]).reached);
     }
 
     #[test]
@@ -245,7 +245,7 @@ mod tests {
                     let lhs: f64 = r.cover.iter().map(|&i| sel[i as usize] as u8 as f64).sum();
                     lhs >= r.trigger.map_or(1.0, |q| u[q])
                 });
-                let direct = check_gaps(&s, &st, &sel).met;
+                let direct = check_gaps(&s, &st, &sel).reached;
                 if npos > 0 {
                     assert_eq!(
                         rows_ok, direct,

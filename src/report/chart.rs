@@ -274,7 +274,7 @@ mod tests {
         let svg = line_chart(&Chart {
             title: "t",
             x_label: "year",
-            y_label: "held ÷ target",
+            y_label: "protected ÷ target",
             series: &series,
             y_range: Some((0.0, 2.0)),
             reference: Some((1.0, "target")),

@@ -122,11 +122,11 @@ fn measure_table(c: &Comparison) -> String {
     s
 }
 
-/// One row per feature: scenario, year, target and each network's share of the target (`met`
-/// when held).
+/// One row per feature: scenario, year, target and each network's share of the target (`reached`
+/// when protected).
 fn feature_table(c: &Comparison) -> String {
     let mut s = String::from(
-        "<h2>Features</h2>\n<p class=\"small\">Each network's holding as a share of the feature's target; met = target held; absent = no amount in the region, never met.</p>\n<table class=\"features\"><thead><tr><th scope=\"col\">feature</th><th scope=\"col\">scenario</th><th scope=\"col\">year</th><th scope=\"col\">target</th>",
+        "<h2>Features</h2>\n<p class=\"small\">Each network's holding as a share of the feature's target; reached = target protected; absent = no amount in the region, never reached.</p>\n<table class=\"features\"><thead><tr><th scope=\"col\">feature</th><th scope=\"col\">scenario</th><th scope=\"col\">year</th><th scope=\"col\">target</th>",
     );
     for name in &c.networks {
         let _ = write!(s, "<th scope=\"col\">{}</th>", esc(name));
@@ -141,11 +141,11 @@ fn feature_table(c: &Comparison) -> String {
             f.year.map(|y| y.to_string()).unwrap_or_else(|| "–".into()),
             esc(&value_label(f.target))
         );
-        for (share, &met) in f.share_of_target.iter().zip(&f.met) {
+        for (share, &reached) in f.protected_share_of_target.iter().zip(&f.reached) {
             if f.absent {
                 s.push_str("<td>absent</td>");
-            } else if met {
-                s.push_str("<td>met</td>");
+            } else if reached {
+                s.push_str("<td>reached</td>");
             } else {
                 let _ = write!(s, "<td>{:.0}%</td>", 100.0 * share);
             }
@@ -205,8 +205,8 @@ mod tests {
             "{html}"
         );
         assert!(html.contains("z&lt;"));
-        // Feature rows: habitat/a is met by x; y holds 2 of its target 4 → 50 %.
-        assert!(html.contains("<th scope=\"row\">habitat/a</th><td>ssp2-4.5</td><td>2050</td><td>4</td><td>met</td><td>50%</td><td>0%</td>"), "{html}");
+        // Feature rows: habitat/a is reached by x; y holds 2 of its target 4 → 50 %.
+        assert!(html.contains("<th scope=\"row\">habitat/a</th><td>ssp2-4.5</td><td>2050</td><td>4</td><td>reached</td><td>50%</td><td>0%</td>"), "{html}");
         for bad in ["http://", "https://", "<script", "src="] {
             assert!(!html.contains(bad), "{bad}");
         }

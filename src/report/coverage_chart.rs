@@ -8,14 +8,14 @@ use std::collections::BTreeMap;
 
 /// Most lines per chart before falling back to lowest and median (eight Okabe–Ito hues).
 const MAX_LINES: usize = 8;
-/// Shares above this are drawn at it: 200% of a target says "well held" and keeps the
+/// Shares above this are drawn at it: 200% of a target says "well protected" and keeps the
 /// interesting part (around 100%) readable.
 pub(crate) const CAP_PERCENT: f64 = 200.0;
 
-/// Share of the target held, in per cent; `None` when the feature has no positive target.
+/// Share of the target protected, in per cent; `None` when the feature has no positive target.
 pub(crate) fn percent_of_target(c: &Coverage) -> Option<f64> {
-    (c.target > 0.0 && c.target.is_finite() && c.held.is_finite())
-        .then(|| 100.0 * c.held / c.target)
+    (c.target > 0.0 && c.target.is_finite() && c.protected.is_finite())
+        .then(|| 100.0 * c.protected / c.target)
 }
 
 /// The lines of one scenario: per line label, per year, the lowest share among its features.
@@ -102,11 +102,11 @@ pub(crate) fn coverage_charts(coverage: &[Coverage]) -> Vec<String> {
             let mut years: Vec<i32> = rows.iter().filter_map(|c| c.year).collect();
             years.sort_unstable();
             years.dedup();
-            let title = format!("Scenario {name}: share of target held");
+            let title = format!("Scenario {name}: share of target protected");
             Some(line_chart(&Chart {
                 title: &title,
                 x_label: "year",
-                y_label: "held ÷ target (%, capped at 200)",
+                y_label: "protected ÷ target (%, capped at 200)",
                 series: &series,
                 y_range: Some((0.0, CAP_PERCENT)),
                 reference: Some((100.0, "target")),
@@ -125,7 +125,7 @@ mod tests {
         species: Option<&str>,
         scenario: &str,
         year: i32,
-        held: f64,
+        protected: f64,
         target: f64,
     ) -> Coverage {
         Coverage {
@@ -135,10 +135,10 @@ mod tests {
             scenario: Some(scenario.into()),
             year: Some(year),
             total: 100.0,
-            held,
+            protected,
             target,
-            shortfall: (target - held).max(0.0),
-            met: held >= target,
+            shortfall: (target - protected).max(0.0),
+            reached: protected >= target,
             absent: false,
         }
     }

@@ -33,7 +33,7 @@ pub struct ReportInput<'a> {
     /// Plan name, shown as the page title.
     pub title: &'a str,
     /// Run facts in display order, as `(name, value)` text (plan hash, solver, status,
-    /// objective, bound, gap, seconds, cost, area, share, reserves, targets met …).
+    /// objective, bound, gap, seconds, cost, area, share, reserves, targets reached …).
     pub facts: Vec<(String, String)>,
     /// The planning grid (cells in projected metres).
     pub grid: &'a Grid,
@@ -59,7 +59,7 @@ pub struct ReportInput<'a> {
 /// One network of several drawn side by side.
 #[derive(Debug, Clone, PartialEq)]
 pub struct NetworkPanel {
-    /// Caption (e.g. `budget 10%: cost 812, 34 of 40 targets met`).
+    /// Caption (e.g. `budget 10%: cost 812, 34 of 40 targets reached`).
     pub label: String,
     /// Its reserves (`Assessment::reserves`).
     pub reserves: Vec<Reserve>,
@@ -80,7 +80,7 @@ pub struct NetworkPanels {
 #[derive(Debug, Clone, PartialEq)]
 pub struct StressCell {
     /// Targets the network meets in the evaluated scenario.
-    pub targets_met: usize,
+    pub targets_reached: usize,
     /// Targets in the evaluated scenario.
     pub targets_total: usize,
     /// Benefit in the evaluated scenario (weighted target attainment, the objective's unit).
@@ -177,7 +177,7 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         s.push_str("</div>\n");
     }
     if let Some(t) = &input.stress {
-        let _ = writeln!(s, "<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets met and benefit. ✓ all met, △ at least half, ✗ fewer. {}.</p>", esc(&capital(BENEFIT)));
+        let _ = writeln!(s, "<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets reached and benefit. ✓ all reached, △ at least half, ✗ fewer. {}.</p>", esc(&capital(BENEFIT)));
         s.push_str(&tables::stress_table(t));
         s.push('\n');
     }
@@ -392,7 +392,7 @@ mod tests {
             designed_for: vec!["a".into()],
             evaluated_in: vec!["a".into(), "b".into()],
             cells: vec![vec![StressCell {
-                targets_met: 1,
+                targets_reached: 1,
                 targets_total: 1,
                 benefit: 1.0,
             }]],

@@ -340,7 +340,7 @@ mod tests {
             share_of_region: 0.0,
             reserves: res.clone(),
             exposed_edge_km: 0.0,
-            targets_met: 0,
+            targets_reached: 0,
             targets_absent: 0,
             boundary_edge_km: 0.0,
             cells_selected: 11,

@@ -5,7 +5,7 @@ use super::feature_map::value_label;
 use super::{StressTable, SweepPoint};
 use std::fmt::Write;
 
-/// Cell tints of the stress table: every target met, at least half met, fewer. Light tints of
+/// Cell tints of the stress table: every target reached, at least half reached, fewer. Light tints of
 /// Okabe–Ito bluish green, orange and vermillion, with a text mark as well so colour is not
 /// the only cue.
 const ALL_MET: &str = "#d4efe5";
@@ -27,7 +27,7 @@ pub(crate) fn facts_table(facts: &[(String, String)]) -> String {
     s
 }
 
-/// Designed-for × evaluated-in table: each cell shows targets met / total and the benefit.
+/// Designed-for × evaluated-in table: each cell shows targets reached / total and the benefit.
 /// The shape is checked by the caller.
 pub(crate) fn stress_table(t: &StressTable) -> String {
     let mut s = String::from(
@@ -40,17 +40,17 @@ pub(crate) fn stress_table(t: &StressTable) -> String {
     for (label, row) in t.designed_for.iter().zip(&t.cells) {
         let _ = write!(s, r#"<tr><th scope="row">{}</th>"#, esc(label));
         for cell in row {
-            let (bg, mark) = if cell.targets_met >= cell.targets_total {
+            let (bg, mark) = if cell.targets_reached >= cell.targets_total {
                 (ALL_MET, "✓")
-            } else if 2 * cell.targets_met >= cell.targets_total {
+            } else if 2 * cell.targets_reached >= cell.targets_total {
                 (HALF_MET, "△")
             } else {
                 (FEW_MET, "✗")
             };
             let _ = write!(
                 s,
-                r#"<td style="background:{bg}">{mark} {}/{} met<br><span class="small">benefit {}</span></td>"#,
-                cell.targets_met,
+                r#"<td style="background:{bg}">{mark} {}/{} reached<br><span class="small">benefit {}</span></td>"#,
+                cell.targets_reached,
                 cell.targets_total,
                 esc(&value_label(cell.benefit))
             );
@@ -97,7 +97,7 @@ mod tests {
     #[test]
     fn stress_cells_show_counts_and_tints() {
         let cell = |m, b| StressCell {
-            targets_met: m,
+            targets_reached: m,
             targets_total: 4,
             benefit: b,
         };
@@ -110,10 +110,10 @@ mod tests {
             ],
         };
         let h = stress_table(&t);
-        // Hand: 4/4 → all met; 1/4 < half → few; 2/4 = half → half tint.
-        assert!(h.contains(&format!(r#"background:{ALL_MET}">✓ 4/4 met"#)));
-        assert!(h.contains(&format!(r#"background:{FEW_MET}">✗ 1/4 met"#)));
-        assert!(h.contains(&format!(r#"background:{HALF_MET}">△ 2/4 met"#)));
+        // Hand: 4/4 → all reached; 1/4 < half → few; 2/4 = half → half tint.
+        assert!(h.contains(&format!(r#"background:{ALL_MET}">✓ 4/4 reached"#)));
+        assert!(h.contains(&format!(r#"background:{FEW_MET}">✗ 1/4 reached"#)));
+        assert!(h.contains(&format!(r#"background:{HALF_MET}">△ 2/4 reached"#)));
         assert!(h.contains("ssp5-8.5 &amp; co"));
         assert_eq!(h.matches("<tr>").count(), 3);
     }

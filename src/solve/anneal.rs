@@ -5,7 +5,7 @@
 //! * State: a network; move: flip one free cell drawn uniformly (ChaCha8 from
 //!   `SolveOptions::seed`, so a seed always gives the same run).
 //! * Energy (minimised): the objective in minimisation sense (negated for max-benefit rules)
-//!   plus penalties for broken rules: λ × normalised shortfall Σₖ max(0, Tₖ − heldₖ)/Tₖ
+//!   plus penalties for broken rules: λ × normalised shortfall Σₖ max(0, Tₖ − protectedₖ)/Tₖ
 //!   (min-cost), λ × relative budget excess (max-benefit with a budget) and λ × number of
 //!   violated max-gap rows. λ is the objective's whole range (all costs, all edges and all
 //!   benefit) plus one, so no saving can pay for a broken rule.

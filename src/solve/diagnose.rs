@@ -1,4 +1,4 @@
-//! Why targets cannot be met: per feature, the most any allowed network can hold, and what
+//! Why targets cannot be reached: per feature, the most any allowed network can hold, and what
 //! stops it. Run before building an integer program for min-cost problems, so the user gets a
 //! precise message instead of a bare "infeasible".
 //!
@@ -27,7 +27,7 @@ use super::{time, Shortfall, SolveError, SolveOptions, Solver};
 /// cell) at most `limit`, required cells included, excluded cells left out.
 fn knapsack_bound(problem: &Problem, amount: &[(u32, f64)], weight: &[f64], limit: f64) -> f64 {
     let mut room = limit;
-    let mut held = 0.0;
+    let mut protected = 0.0;
     for (i, st) in problem.status.iter().enumerate() {
         if *st == CellStatus::Required {
             room -= weight[i];
@@ -36,7 +36,7 @@ fn knapsack_bound(problem: &Problem, amount: &[(u32, f64)], weight: &[f64], limi
     let mut items: Vec<(f64, f64)> = Vec::new();
     for &(c, a) in amount {
         match problem.status[c as usize] {
-            CellStatus::Required => held += a,
+            CellStatus::Required => protected += a,
             CellStatus::Excluded => {}
             CellStatus::Free => items.push((a, weight[c as usize])),
         }
@@ -49,16 +49,16 @@ fn knapsack_bound(problem: &Problem, amount: &[(u32, f64)], weight: &[f64], limi
     });
     for (a, w) in items {
         if w <= room {
-            held += a;
+            protected += a;
             room -= w;
         } else {
             if room > 0.0 {
-                held += a * room / w;
+                protected += a * room / w;
             }
             break;
         }
     }
-    held
+    protected
 }
 
 /// Per feature that cannot reach its target: the target, the most achievable and the binding
@@ -161,7 +161,7 @@ pub enum Cheapest {
         /// Relative gap of that solve (the cheapest cost is at least cost·(1 − gap)).
         gap: f64,
     },
-    /// Even without the budget some targets cannot be met (region or excluded cells).
+    /// Even without the budget some targets cannot be reached (region or excluded cells).
     Unreachable(Vec<Shortfall>),
     /// The solve could not tell (e.g. it stopped without a network); the reason.
     Unknown(String),
@@ -242,7 +242,7 @@ pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diag
             };
             let sol = Highs::default().solve(&alone, &o)?;
             (
-                evaluate(&alone, &sol.selected).held[0],
+                evaluate(&alone, &sol.selected).protected[0],
                 sol.status == super::SolveStatus::Optimal,
             )
         };
@@ -358,7 +358,7 @@ pub fn diagnosis_text(d: &Diagnosis, limit: usize) -> String {
         }
         Cheapest::Unreachable(short) => {
             s.push_str(&format!(
-                "no budget is enough: {} targets cannot be met by any network",
+                "no budget is enough: {} targets cannot be reached by any network",
                 short.len()
             ));
             if let Some(f) = short.first() {

@@ -4,8 +4,8 @@
 //! # Method (common practice, no single source)
 //! Start from the required cells.
 //! * Min-cost: repeatedly add the free cell with the largest reduction in normalised shortfall
-//!   Σₖ max(0, Tₖ − heldₖ)/Tₖ per unit of added objective (cost + weight × change in exposed
-//!   edge; a cell that lowers the objective counts as nearly free) until every target is met;
+//!   Σₖ max(0, Tₖ − protectedₖ)/Tₖ per unit of added objective (cost + weight × change in exposed
+//!   edge; a cell that lowers the objective counts as nearly free) until every target is reached;
 //!   then drop, most expensive first, any cell whose removal keeps every rule and lowers the
 //!   objective.
 //! * Max-benefit: repeatedly add the cell with the largest objective gain per unit of budget
@@ -107,7 +107,7 @@ fn score(st: &mut State, i: usize) -> Option<f64> {
     }
 }
 
-/// Add cells by the greedy rule until no candidate remains (or min-cost targets are met).
+/// Add cells by the greedy rule until no candidate remains (or min-cost targets are reached).
 fn grow(st: &mut State) {
     let p = st.p;
     let n = p.n_cells();

@@ -296,7 +296,7 @@ impl Formulation {
             .iter()
             .map(|c| match *c {
                 Col::X(i) => xv(i),
-                Col::Y(k) => e.held[k].min(problem.features[k].benefit_cap().unwrap_or(0.0)),
+                Col::Y(k) => e.protected[k].min(problem.features[k].benefit_cap().unwrap_or(0.0)),
                 Col::Z(q) => {
                     let (i, j, _) = problem
                         .edge_penalty
@@ -422,7 +422,7 @@ pub(crate) fn infeasible(problem: &Problem) -> SolveError {
             return SolveError::Infeasible(short);
         }
         SolveError::JointlyInfeasible(
-            "each target can be met on its own, but not all together under the budget, the \
+            "each target can be reached on its own, but not all together under the budget, the \
              max gap and the required/excluded cells"
                 .into(),
         )

@@ -121,7 +121,7 @@ pub struct Solution {
     pub seconds: f64,
     /// Which solver produced it (`highs`, `greedy`, `anneal`, ...).
     pub solver: String,
-    /// Per-scenario benefit, regret and targets met of `selected` (via `model::evaluate`).
+    /// Per-scenario benefit, regret and targets reached of `selected` (via `model::evaluate`).
     pub scenarios: Vec<ScenarioResult>,
     /// Bₛ* used for regret (least-regret problems; otherwise whatever the problem carried).
     pub scenario_best: Option<Vec<f64>>,
@@ -143,10 +143,10 @@ pub struct Shortfall {
 /// Why a solve failed.
 #[derive(Debug, thiserror::Error)]
 pub enum SolveError {
-    /// Targets cannot all be met; each shortfall says by how much and why.
-    #[error("targets cannot all be met: {}", .0.iter().map(|s| format!("{} needs {:.3} but at most {:.3} is achievable ({})", s.feature, s.target, s.achievable, s.binding)).collect::<Vec<_>>().join("; "))]
+    /// Targets cannot all be reached; each shortfall says by how much and why.
+    #[error("targets cannot all be reached: {}", .0.iter().map(|s| format!("{} needs {:.3} but at most {:.3} is achievable ({})", s.feature, s.target, s.achievable, s.binding)).collect::<Vec<_>>().join("; "))]
     Infeasible(Vec<Shortfall>),
-    /// Each target can be met on its own, but not all of them together under the budget,
+    /// Each target can be reached on its own, but not all of them together under the budget,
     /// the max gap and the required/excluded cells.
     #[error("no network meets every rule at once: {0}")]
     JointlyInfeasible(String),

@@ -12,7 +12,7 @@ pub(crate) struct Flip {
     pub d_cost: f64,
     pub d_area: f64,
     pub d_exposed: f64,
-    /// Change of Σₖ max(0, Tₖ − heldₖ)/Tₖ (normalised shortfall).
+    /// Change of Σₖ max(0, Tₖ − protectedₖ)/Tₖ (normalised shortfall).
     pub d_shortfall: f64,
     /// Change of the number of broken hard spatial rules: violated max-gap rows plus lone
     /// undersized cells (minimum size).
@@ -28,7 +28,7 @@ pub(crate) struct State<'a> {
     feat_scen: Vec<Vec<u32>>,
     /// Benefit cap of each feature (`ModelFeature::benefit_cap`, cached: it sums amounts).
     caps: Vec<Option<f64>>,
-    pub held: Vec<f64>,
+    pub protected: Vec<f64>,
     pub benefit: Vec<f64>,
     pub cost: f64,
     pub area: f64,
@@ -83,7 +83,7 @@ impl<'a> State<'a> {
             feat_coef,
             feat_scen,
             caps: p.features.iter().map(|f| f.benefit_cap()).collect(),
-            held: vec![0.0; p.features.len()],
+            protected: vec![0.0; p.features.len()],
             benefit,
             cost: 0.0,
             area: 0.0,
@@ -153,7 +153,7 @@ impl<'a> State<'a> {
 
     fn credit_delta(&self, k: usize, da: f64) -> (f64, f64) {
         let f = &self.p.features[k];
-        let h = self.held[k];
+        let h = self.protected[k];
         // Benefit grows up to the cap (target, or total for a weight-only feature); the
         // shortfall only counts real targets.
         let d_capped = self.caps[k].map_or(0.0, |c| (h + da).min(c) - h.min(c));
@@ -280,7 +280,7 @@ impl<'a> State<'a> {
         }
         for idx in 0..self.cell_feats[i].len() {
             let (k, a) = self.cell_feats[i][idx];
-            self.held[k as usize] += sign * a;
+            self.protected[k as usize] += sign * a;
         }
         self.cost += f.d_cost;
         self.area += f.d_area;
@@ -358,7 +358,7 @@ impl<'a> State<'a> {
         self.p
             .features
             .iter()
-            .zip(&self.held)
+            .zip(&self.protected)
             .filter(|(f, h)| !crate::model::evaluate::at_least(**h, f.target))
             .count()
     }

@@ -36,9 +36,9 @@ impl StressRow {
             .unwrap_or(f64::NAN)
     }
 
-    /// The fewest targets met in any scenario (`None` without a network).
-    pub fn worst_targets_met(&self) -> Option<usize> {
-        self.evaluated.iter().map(|r| r.targets_met).min()
+    /// The fewest targets reached in any scenario (`None` without a network).
+    pub fn worst_targets_reached(&self) -> Option<usize> {
+        self.evaluated.iter().map(|r| r.targets_reached).min()
     }
 }
 
@@ -119,7 +119,7 @@ pub fn stress_test(
     })
 }
 
-/// `stress.csv`: one row per designed-for × evaluated-in pair (long form), with targets met,
+/// `stress.csv`: one row per designed-for × evaluated-in pair (long form), with targets reached,
 /// benefit, its maximum and the regret when known; rows without a network are kept with empty
 /// values so every design appears.
 pub fn stress_csv(m: &StressMatrix) -> String {
@@ -138,7 +138,7 @@ pub fn stress_csv(m: &StressMatrix) -> String {
                 row.designed_for.clone(),
                 row.status.clone(),
                 e.name.clone(),
-                e.targets_met.to_string(),
+                e.targets_reached.to_string(),
                 e.targets.to_string(),
                 format!("{:.6}", e.benefit),
                 format!("{:.6}", e.benefit_max),
@@ -154,15 +154,15 @@ pub const STRESS_COLUMNS: [&str; 8] = [
     "designed_for",
     "status",
     "evaluated_in",
-    "targets_met",
+    "targets_reached",
     "targets",
     "benefit",
     "benefit_max",
     "regret",
 ];
 
-/// The matrix as a terminal table: targets met / total and the benefit in each cell, the worst
-/// case (fewest targets met) last.
+/// The matrix as a terminal table: targets reached / total and the benefit in each cell, the worst
+/// case (fewest targets reached) last.
 pub fn stress_table(m: &StressMatrix) -> String {
     let w = m
         .rows
@@ -192,10 +192,10 @@ pub fn stress_table(m: &StressMatrix) -> String {
         for r in &row.evaluated {
             out.push_str(&format!(
                 "  {:>cw$}",
-                format!("{}/{} {:.1}", r.targets_met, r.targets, r.benefit)
+                format!("{}/{} {:.1}", r.targets_reached, r.targets, r.benefit)
             ));
         }
-        let worst = row.worst_targets_met().unwrap_or(0);
+        let worst = row.worst_targets_reached().unwrap_or(0);
         out.push_str(&format!("  {worst:>cw$}\n"));
     }
     out
@@ -213,7 +213,7 @@ pub fn report_table(m: &StressMatrix) -> crate::report::StressTable {
                 r.evaluated
                     .iter()
                     .map(|e| crate::report::StressCell {
-                        targets_met: e.targets_met,
+                        targets_reached: e.targets_reached,
                         targets_total: e.targets,
                         benefit: e.benefit,
                     })
@@ -227,14 +227,14 @@ pub fn report_table(m: &StressMatrix) -> crate::report::StressTable {
 mod tests {
     use super::*;
 
-    fn result(name: &str, met: usize, benefit: f64) -> ScenarioResult {
+    fn result(name: &str, reached: usize, benefit: f64) -> ScenarioResult {
         ScenarioResult {
             name: name.into(),
             benefit,
             benefit_max: 2.0,
             best: None,
             regret: None,
-            targets_met: met,
+            targets_reached: reached,
             targets: 2,
             absent: 0,
         }
@@ -267,7 +267,7 @@ mod tests {
         let m = matrix();
         // Hand values: row a has benefits 2 and 1.5 → worst 1.5; targets 2 and 1 → worst 1.
         assert_eq!(m.rows[0].worst_benefit(), 1.5);
-        assert_eq!(m.rows[0].worst_targets_met(), Some(1));
+        assert_eq!(m.rows[0].worst_targets_reached(), Some(1));
         assert!(m.rows[1].worst_benefit().is_nan());
         // CSV re-read with the csv crate: 2 rows for a, 2 empty rows for b.
         let text = stress_csv(&m);
@@ -289,6 +289,6 @@ mod tests {
         // The report keeps rows with a network only.
         let rt = report_table(&m);
         assert_eq!(rt.designed_for, vec!["a".to_string()]);
-        assert_eq!(rt.cells[0][1].targets_met, 1);
+        assert_eq!(rt.cells[0][1].targets_reached, 1);
     }
 }

@@ -1,5 +1,5 @@
 //! Budget sweep: one max-benefit solve per budget (a share of the region's sea area), giving
-//! the cost–benefit curve and, per feature, the smallest budget at which its target is met.
+//! the cost–benefit curve and, per feature, the smallest budget at which its target is reached.
 //! Each budget gets the least cost for what it buys:
 //! * a budget that buys every target gets the least-cost network that holds them all;
 //! * a smaller one is solved lexicographically: the best benefit of the plan's rule first,
@@ -55,13 +55,13 @@ pub struct SweepRun {
     pub cost: f64,
     /// Area of the network. Units: km².
     pub area_km2: f64,
-    /// Targets met (all scenarios).
-    pub targets_met: usize,
-    /// Whether each feature's target is met, in feature order.
-    pub met: Vec<bool>,
+    /// Targets reached (all scenarios).
+    pub targets_reached: usize,
+    /// Whether each feature's target is reached, in feature order.
+    pub reached: Vec<bool>,
     /// Relative gap of the least-cost stage (module doc). `solution` is that stage's network
     /// with the benefit as its objective; its status, bound and gap are the benefit stage's
-    /// (or proven optimal when every target is met: no benefit is higher).
+    /// (or proven optimal when every target is reached: no benefit is higher).
     pub cost_gap: f64,
 }
 
@@ -77,9 +77,9 @@ pub struct Sweep {
 impl Sweep {
     /// Per feature, the smallest budget share whose network meets its target (`None`: no
     /// budget of the sweep does).
-    pub fn first_met(&self) -> Vec<Option<f64>> {
+    pub fn first_reached(&self) -> Vec<Option<f64>> {
         (0..self.features.len())
-            .map(|k| self.runs.iter().find(|r| r.met[k]).map(|r| r.share))
+            .map(|k| self.runs.iter().find(|r| r.reached[k]).map(|r| r.share))
             .collect()
     }
 }
@@ -238,7 +238,7 @@ pub fn sweep_of(
             // may miss targets of the easier scenarios although the budget buys them, so the
             // least-cost every-target solve is tried and an infeasible one means no.
             let absent = e.absent.iter().filter(|a| **a).count();
-            let every_target = if e.targets_met + absent == e.met.len() {
+            let every_target = if e.targets_reached + absent == e.reached.len() {
                 Some(Highs::default().solve(&q, &one_thread)?)
             } else if matches!(
                 p.robustness,
@@ -255,7 +255,7 @@ pub fn sweep_of(
             let (solution, e, cost_gap) = match every_target {
                 Some(cheap) => {
                     // The least-cost network holding every target under the same budget and
-                    // rules; every target met is the most benefit there is: proven optimal.
+                    // rules; every target reached is the most benefit there is: proven optimal.
                     let e = evaluate(&p, &cheap.selected);
                     let cost_gap = cheap.gap;
                     let solution = crate::solve::Solution {
@@ -313,8 +313,8 @@ pub fn sweep_of(
                 },
                 cost: e.cost,
                 area_km2: e.area_km2,
-                targets_met: e.targets_met,
-                met: e.met,
+                targets_reached: e.targets_reached,
+                reached: e.reached,
                 cost_gap,
                 solution,
             })
@@ -347,7 +347,7 @@ pub const SWEEP_COLUMNS: [&str; 10] = [
     "objective",
     "cost",
     "area_km2",
-    "targets_met",
+    "targets_reached",
     "targets",
 ];
 
@@ -379,7 +379,7 @@ fn num3(v: f64) -> String {
 /// `sweep.csv`: the cost–benefit curve, one row per budget, columns [`sweep_columns`];
 /// `budget_km2` or `budget_cost` is empty, whichever the budget is not measured in.
 /// `objective` is the plan rule's combined benefit; each `benefit_<scenario>` is that
-/// scenario's benefit Bₛ (weighted targets met, partly met ones counting their share; see
+/// scenario's benefit Bₛ (weighted targets reached, partly reached ones counting their share; see
 /// [`crate::model::robust`]); `cost_gap` is the relative gap of the least-cost stage (empty
 /// when the solver reports none).
 pub fn sweep_csv(s: &Sweep) -> String {
@@ -395,8 +395,8 @@ pub fn sweep_csv(s: &Sweep) -> String {
             format!("{:.6}", r.solution.objective + 0.0),
             format!("{:.3}", r.cost + 0.0),
             format!("{:.3}", r.area_km2 + 0.0),
-            r.targets_met.to_string(),
-            r.met.len().to_string(),
+            r.targets_reached.to_string(),
+            r.reached.len().to_string(),
         ];
         row.extend(
             r.solution
@@ -414,15 +414,15 @@ pub fn sweep_csv(s: &Sweep) -> String {
     crate::export::table::csv_text(&header, rows)
 }
 
-/// `first-met.csv`: per feature, the smallest budget share of the sweep that meets its target
+/// `first-reached.csv`: per feature, the smallest budget share of the sweep that meets its target
 /// (empty when none does).
-pub fn first_met_csv(s: &Sweep) -> String {
+pub fn first_reached_csv(s: &Sweep) -> String {
     let rows = s
         .features
         .iter()
-        .zip(s.first_met())
+        .zip(s.first_reached())
         .map(|(f, m)| vec![f.clone(), m.map(|v| format!("{v:.6}")).unwrap_or_default()]);
-    crate::export::table::csv_text(&["feature", "first_met_budget_share"], rows)
+    crate::export::table::csv_text(&["feature", "first_reached_budget_share"], rows)
 }
 
 /// The sweep in the report's form.

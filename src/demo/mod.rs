@@ -12,6 +12,9 @@ use std::f64::consts::PI;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
+mod binary;
+mod netcdf3;
+
 /// Scenario names (IPCC AR6 shared socio-economic pathways) and their invented warming rates
 /// (°C per year of sea-surface temperature, chosen to be plausible, not taken from any model).
 pub const SCENARIOS: [(&str, f64); 3] = [
@@ -323,7 +326,7 @@ fn closed(mut ring: Vec<(f64, f64)>) -> Vec<(f64, f64)> {
 }
 
 /// Every demo file: (path relative to the output folder, contents).
-pub fn generate() -> Vec<(PathBuf, String)> {
+pub fn generate() -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
     let mut files = Vec::new();
     let data = Path::new("demo-data");
 
@@ -373,6 +376,21 @@ pub fn generate() -> Vec<(PathBuf, String)> {
     ]);
     let (ilon, ilat, r) = ISLANDS[0];
     let ring = circle(ilon, ilat, r + 0.15, 48);
+    let protected: Vec<(Vec<(String, String)>, Vec<(f64, f64)>)> = [
+        ("Northern Reef Reserve (invented)", &inshore),
+        ("Tarn Isle Sanctuary (invented)", &ring),
+    ]
+    .iter()
+    .map(|(name, r)| {
+        (
+            vec![
+                ("name".to_string(), name.to_string()),
+                ("status".to_string(), "existing".to_string()),
+            ],
+            r.to_vec(),
+        )
+    })
+    .collect();
     files.push((
         data.join("protected.geojson"),
         feature_collection(&[
@@ -455,7 +473,150 @@ pub fn generate() -> Vec<(PathBuf, String)> {
         PathBuf::from("scenarios").join("demo-climate.toml"),
         climate_plan_toml(),
     ));
-    files
+    let mut out: Vec<(PathBuf, Vec<u8>)> = files
+        .into_iter()
+        .map(|(p, t)| (p, t.into_bytes()))
+        .collect();
+    out.extend(binary_files(&data, &protected)?);
+    Ok(out)
+}
+
+/// Name of the species whose habitat the climate demo reads from GeoTIFFs.
+const RASTER_SPECIES: &str = "harbour-seagrass";
+
+/// The climate demo's inputs in the formats planners receive: sea temperature as NetCDF-CF
+/// (one file per scenario, every year on a no-leap time axis, Kelvin packed as short with a
+/// scale factor, land as _FillValue, 0–360 longitudes, latitudes north to south), one
+/// species' habitat as GeoTIFFs (land as nodata), the protected areas as a GeoPackage.
+fn binary_files(
+    data: &Path,
+    protected: &[(Vec<(String, String)>, Vec<(f64, f64)>)],
+) -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
+    use netcdf3::{AttrValue, Data, Var};
+    let mut out = Vec::new();
+    let pts = full_lattice();
+    let n_lon = ((EAST - WEST) / STEP).round() as usize + 1;
+    let n_lat = ((NORTH - SOUTH) / STEP).round() as usize + 1;
+    // Lattice rows from the north, as rasters and most model output store them.
+    let at = |i: usize, j_from_north: usize| pts[(n_lat - 1 - j_from_north) * n_lon + i];
+    let text = |s: &str| AttrValue::Text(s.to_string());
+    // Two steps a year, mid-January and mid-July (days of a 365-day year), ±1.5 °C of
+    // season (southern summer in January), so the year's mean is the annual field.
+    let seasons = [(15.0, 1.5), (196.0, -1.5)];
+    for (scenario, rate) in SCENARIOS {
+        let mut time = Vec::new();
+        let mut tos = Vec::new();
+        for year in YEARS {
+            for (day, season) in seasons {
+                time.push((year - 1850) as f64 * 365.0 + day);
+                for j in 0..n_lat {
+                    for i in 0..n_lon {
+                        let (lon, lat) = at(i, j);
+                        tos.push(if depth_m(lon, lat) > 0.0 {
+                            // Packed: (K − 273.15) / 0.01 = °C × 100.
+                            ((sst_c(lon, lat, rate, year) + season) * 100.0).round() as i16
+                        } else {
+                            i16::MIN
+                        });
+                    }
+                }
+            }
+        }
+        let lat: Vec<f64> = (0..n_lat)
+            .map(|j| round(NORTH - j as f64 * STEP, 6))
+            .collect();
+        let lon: Vec<f64> = (0..n_lon)
+            .map(|i| round(WEST + i as f64 * STEP + 360.0, 6))
+            .collect();
+        let vars = vec![
+            Var {
+                name: "time".into(),
+                dims: vec![0],
+                attrs: vec![
+                    ("standard_name".into(), text("time")),
+                    ("units".into(), text("days since 1850-01-01")),
+                    ("calendar".into(), text("noleap")),
+                ],
+                data: Data::Double(time),
+            },
+            Var {
+                name: "lat".into(),
+                dims: vec![1],
+                attrs: vec![
+                    ("standard_name".into(), text("latitude")),
+                    ("units".into(), text("degrees_north")),
+                ],
+                data: Data::Double(lat),
+            },
+            Var {
+                name: "lon".into(),
+                dims: vec![2],
+                attrs: vec![
+                    ("standard_name".into(), text("longitude")),
+                    ("units".into(), text("degrees_east")),
+                ],
+                data: Data::Double(lon),
+            },
+            Var {
+                name: "tos".into(),
+                dims: vec![0, 1, 2],
+                attrs: vec![
+                    ("standard_name".into(), text("sea_surface_temperature")),
+                    ("units".into(), text("K")),
+                    ("scale_factor".into(), AttrValue::Double(vec![0.01])),
+                    ("add_offset".into(), AttrValue::Double(vec![273.15])),
+                    ("_FillValue".into(), AttrValue::Short(vec![i16::MIN])),
+                ],
+                data: Data::Short(tos),
+            },
+        ];
+        let globals = vec![
+            ("Conventions".into(), text("CF-1.8")),
+            (
+                "title".into(),
+                text(&format!(
+                    "Invented sea-surface temperature of the Merrow Coast demo, {scenario}"
+                )),
+            ),
+        ];
+        let dims = [
+            ("time", YEARS.len() * seasons.len()),
+            ("lat", n_lat),
+            ("lon", n_lon),
+        ];
+        out.push((
+            data.join("ocean").join(format!("sst_{scenario}.nc")),
+            netcdf3::write(&dims, &globals, &vars),
+        ));
+        let species = SPECIES
+            .iter()
+            .find(|s| s.name == RASTER_SPECIES)
+            .ok_or_else(|| std::io::Error::other("the raster species is one of the demo's"))?;
+        for year in YEARS {
+            let mut values = Vec::with_capacity(n_lon * n_lat);
+            for j in 0..n_lat {
+                for i in 0..n_lon {
+                    let (lon, lat) = at(i, j);
+                    let d = depth_m(lon, lat);
+                    values.push(if d > 0.0 {
+                        round(suitability(species, sst_c(lon, lat, rate, year), d), 3)
+                    } else {
+                        f64::NAN
+                    });
+                }
+            }
+            out.push((
+                data.join("rasters")
+                    .join(format!("{RASTER_SPECIES}_{scenario}_{year}.tif")),
+                binary::geotiff(WEST, NORTH, STEP, (n_lon, n_lat), &values)?,
+            ));
+        }
+    }
+    out.push((
+        data.join("protected.gpkg"),
+        binary::geopackage("protected_areas", protected)?,
+    ));
+    Ok(out)
 }
 
 /// Latitude (degrees) of the invented Merrow Front: the 0.5°-wide window of latitudes that
@@ -582,6 +743,23 @@ fn climate_plan_toml() -> String {
             "name = \"merrow-coast-climate-demo\"",
             1,
         );
+    // Inputs as planners receive them: NetCDF-CF temperature, a GeoTIFF habitat, a GeoPackage.
+    let base = base
+        .replacen(
+            "[temperature]\npath = \"../demo-data/ocean/{scenario}_{year}.csv\"\ncolumn = \"sst_c\"\n",
+            "[temperature]\n# Sea-surface temperature as climate models deliver it: NetCDF-CF, one file per\n# scenario with every year on a no-leap time axis (the year's value is the mean of its\n# time steps), Kelvin packed as short with a scale factor, land as _FillValue.\npath = \"../demo-data/ocean/sst_{scenario}.nc\"\nvariable = \"tos\"\n",
+            1,
+        )
+        .replacen(
+            "path = \"../demo-data/protected.geojson\"",
+            "path = \"../demo-data/protected.gpkg\"    # a GeoPackage, as agencies publish them",
+            1,
+        )
+        .replacen(
+            &format!("name = \"{RASTER_SPECIES}\"\nhabitat = {{ path = \"../demo-data/ocean/{{scenario}}_{{year}}.csv\", column = \"{{species}}\" }}"),
+            &format!("name = \"{RASTER_SPECIES}\"\n# A habitat model delivered as GeoTIFFs (one band, land as nodata).\nhabitat = {{ path = \"../demo-data/rasters/{{species}}_{{scenario}}_{{year}}.tif\" }}"),
+            1,
+        );
     base + r#"
 # ---------------------------------------------------------------- climate-adaptation features
 # Inspect every derived layer with `driftplan features scenarios/demo-climate.toml --out DIR`.
@@ -703,7 +881,7 @@ gap = 0.005
 
 /// Writes every demo file under `dir` (creating folders) and returns the plan file's path.
 pub fn write(dir: &Path) -> std::io::Result<PathBuf> {
-    for (rel, text) in generate() {
+    for (rel, text) in generate()? {
         let path = dir.join(&rel);
         if let Some(parent) = path.parent() {
             std::fs::create_dir_all(parent)?;
@@ -721,7 +899,7 @@ mod tests {
 
     #[test]
     fn generation_is_deterministic() {
-        assert_eq!(generate(), generate());
+        assert_eq!(generate().unwrap(), generate().unwrap());
     }
 
     #[test]
