@@ -544,18 +544,18 @@ fn supplied_inputs_through_the_seam() {
     let habitat = moving_band(&g, 2);
     let mut plan = bare_plan();
     plan.velocity = VelocitySource::Supplied {
-        speed: template(
+        speed: Box::new(template(
             "velocity_{scenario}.csv",
             Sampling::Interpolate,
             Some("speed_km_per_yr"),
             Missing::Error,
-        ),
-        bearing: template(
+        )),
+        bearing: Box::new(template(
             "velocity_{scenario}.csv",
             Sampling::Interpolate,
             Some("bearing_deg"),
             Missing::Error,
-        ),
+        )),
     };
     plan.refugium = Some(RefugiumPlan {
         source: RefugiumSource::Polygons(template(

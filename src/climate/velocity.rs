@@ -145,7 +145,8 @@ fn solve_plane(m: &[[f64; 3]; 3], rhs: &[f64; 3]) -> Option<[f64; 2]> {
     let det = det3(m);
     // Scale: the weight total times the spread of offsets squared, twice.
     let scale = m[0][0] * (m[1][1] + m[2][2]).powi(2);
-    if !(det.abs() > 1e-9 * scale) {
+    // Also catches NaN: a NaN determinant fails the comparison.
+    if det.abs().partial_cmp(&(1e-9 * scale)) != Some(std::cmp::Ordering::Greater) {
         return None;
     }
     let with = |col: usize| {
@@ -169,7 +170,7 @@ fn line_slope(m: &[[f64; 3]; 3], rhs: &[f64; 3]) -> [f64; 2] {
     let sxv = rhs[1] / w - mx * mv;
     let syv = rhs[2] / w - my * mv;
     let len2 = sxx + syy;
-    if !(len2 > 0.0) {
+    if len2.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
         return [0.0, 0.0];
     }
     // Unit direction of the line: the principal axis of the offsets (the larger variance).

@@ -7,6 +7,9 @@ use gdal::DriverManager;
 use geo::{LineString, MultiPolygon, Polygon};
 use std::path::Path;
 
+/// A polygon with text properties: `((key, value)…, ring of (lon, lat))`.
+pub(crate) type PropertyPolygon = (Vec<(String, String)>, Vec<(f64, f64)>);
+
 /// Distinguishes temporary folders of concurrent generations within one process.
 static COUNTER: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
 
@@ -66,10 +69,7 @@ pub(crate) fn geotiff(
 }
 
 /// A GeoPackage layer `name` in EPSG:4326 of polygons with text properties `(key, value)`.
-pub(crate) fn geopackage(
-    name: &str,
-    features: &[(Vec<(String, String)>, Vec<(f64, f64)>)],
-) -> std::io::Result<Vec<u8>> {
+pub(crate) fn geopackage(name: &str, features: &[PropertyPolygon]) -> std::io::Result<Vec<u8>> {
     crate::grid::crs::quiet_gdal();
     via_temp("layer.gpkg", |path| {
         // A fixed last-change date keeps the file the same on every run.

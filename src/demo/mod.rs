@@ -376,7 +376,7 @@ pub fn generate() -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
     ]);
     let (ilon, ilat, r) = ISLANDS[0];
     let ring = circle(ilon, ilat, r + 0.15, 48);
-    let protected: Vec<(Vec<(String, String)>, Vec<(f64, f64)>)> = [
+    let protected: Vec<binary::PropertyPolygon> = [
         ("Northern Reef Reserve (invented)", &inshore),
         ("Tarn Isle Sanctuary (invented)", &ring),
     ]
@@ -477,7 +477,7 @@ pub fn generate() -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
         .into_iter()
         .map(|(p, t)| (p, t.into_bytes()))
         .collect();
-    out.extend(binary_files(&data, &protected)?);
+    out.extend(binary_files(data, &protected)?);
     Ok(out)
 }
 
@@ -490,7 +490,7 @@ const RASTER_SPECIES: &str = "harbour-seagrass";
 /// species' habitat as GeoTIFFs (land as nodata), the protected areas as a GeoPackage.
 fn binary_files(
     data: &Path,
-    protected: &[(Vec<(String, String)>, Vec<(f64, f64)>)],
+    protected: &[binary::PropertyPolygon],
 ) -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
     use netcdf3::{AttrValue, Data, Var};
     let mut out = Vec::new();

@@ -36,7 +36,7 @@ const NC_SHORT: u32 = 3;
 const NC_DOUBLE: u32 = 6;
 
 fn pad4(out: &mut Vec<u8>) {
-    while out.len() % 4 != 0 {
+    while !out.len().is_multiple_of(4) {
         out.push(0);
     }
 }

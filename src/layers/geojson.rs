@@ -96,7 +96,7 @@ fn crs_member(members: Option<&JsonObject>) -> Option<String> {
     match upper.strip_prefix("URN:OGC:DEF:CRS:") {
         Some(rest) => {
             let mut parts = rest.split(':').filter(|p| !p.is_empty());
-            match (parts.next(), parts.last()) {
+            match (parts.next(), parts.next_back()) {
                 (Some(auth), Some(code)) => Some(format!("{auth}:{code}")),
                 _ => Some(name),
             }

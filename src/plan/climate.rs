@@ -202,9 +202,9 @@ pub enum VelocitySource {
     /// Given per scenario as layers (keys `speed` and `bearing`; paths may use `{scenario}`).
     Supplied {
         /// Speed of the isotherms. Units: km/yr.
-        speed: LayerTemplate,
+        speed: Box<LayerTemplate>,
         /// Direction they move, degrees clockwise from true north.
-        bearing: LayerTemplate,
+        bearing: Box<LayerTemplate>,
     },
 }
 
@@ -547,7 +547,10 @@ pub(crate) fn validate(
                         (Some(mut speed), Some(mut bearing)) => {
                             speed.valid_range.get_or_insert((0.0, f64::INFINITY));
                             bearing.valid_range.get_or_insert((0.0, 360.0));
-                            VelocitySource::Supplied { speed, bearing }
+                            VelocitySource::Supplied {
+                                speed: Box::new(speed),
+                                bearing: Box::new(bearing),
+                            }
                         }
                         _ => VelocitySource::FromTemperature {
                             min_gradient_c_per_km: 0.0005,
