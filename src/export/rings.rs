@@ -1,7 +1,7 @@
 //! Lon/lat rings made ready for RFC 7946: six decimals, no repeated points, exterior
 //! counter-clockwise and holes clockwise, split at the antimeridian.
 
-use geo::{BooleanOps, Coord, LineString, MultiPolygon, Polygon, Rect};
+use geo::{BooleanOps, LineString, MultiPolygon, Polygon, Rect};
 use std::fmt::Write;
 
 /// A cleaned ring: closed, `[lon, lat]` rounded to 6 decimals.
@@ -81,26 +81,9 @@ fn crosses_antimeridian(mp: &MultiPolygon<f64>) -> bool {
     })
 }
 
-/// Makes a ring's longitudes continuous (adds ±360° where consecutive points jump by more
-/// than 180°), so the shape is whole again on an extended longitude axis.
+/// Makes a ring's longitudes continuous (see [`crate::grid::build::continuous_longitudes`]).
 fn unwrap_ring(r: &LineString<f64>) -> LineString<f64> {
-    let mut out: Vec<Coord<f64>> = Vec::with_capacity(r.0.len());
-    let mut shift = 0.0;
-    for (i, c) in r.0.iter().enumerate() {
-        if i > 0 {
-            let d = c.x - r.0[i - 1].x;
-            if d > 180.0 {
-                shift -= 360.0;
-            } else if d < -180.0 {
-                shift += 360.0;
-            }
-        }
-        out.push(Coord {
-            x: c.x + shift,
-            y: c.y,
-        });
-    }
-    LineString(out)
+    LineString(crate::grid::build::continuous_longitudes(&r.0))
 }
 
 /// RFC 7946 §3.1.9: a shape crossing the antimeridian is cut into parts on either side.

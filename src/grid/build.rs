@@ -131,10 +131,10 @@ pub fn region_bounds_lonlat(region: &MultiPolygon<f64>) -> Result<Rect<f64>, Gri
     Ok(Rect::new(lo, hi))
 }
 
-/// A ring's longitudes made continuous (±360° where consecutive points jump by more than
-/// 180°), then shifted by a whole turn to overlap the box `x0..x1` most — so land given as
-/// RFC 7946 pieces either side of 180° meets a region box that runs past 180°.
-fn ring_near(ring: &[Coord<f64>], x0: f64, x1: f64) -> Vec<Coord<f64>> {
+/// A ring's longitudes made continuous: ±360° added where consecutive points jump by more
+/// than 180° (no real edge of a region or cell spans half the globe), so a shape across the
+/// antimeridian is whole on an extended longitude axis.
+pub(crate) fn continuous_longitudes(ring: &[Coord<f64>]) -> Vec<Coord<f64>> {
     let mut out: Vec<Coord<f64>> = Vec::with_capacity(ring.len());
     let mut shift = 0.0;
     for (i, c) in ring.iter().enumerate() {
@@ -151,6 +151,14 @@ fn ring_near(ring: &[Coord<f64>], x0: f64, x1: f64) -> Vec<Coord<f64>> {
             y: c.y,
         });
     }
+    out
+}
+
+/// A ring made continuous ([`continuous_longitudes`]), then shifted by a whole turn to overlap
+/// the box `x0..x1` most — so land given as RFC 7946 pieces either side of 180° meets a region
+/// box that runs past 180°.
+fn ring_near(ring: &[Coord<f64>], x0: f64, x1: f64) -> Vec<Coord<f64>> {
+    let mut out = continuous_longitudes(ring);
     let (lo, hi) = out
         .iter()
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), c| {
