@@ -865,7 +865,7 @@ objective = "min-cost"
 robustness = "every-scenario"
 
 [solver]
-time_limit_s = 120
+time_limit_s = 120        # for all the solves of one command together (main solve and stress test)
 gap = 0.005
 "#,
     );
