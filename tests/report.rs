@@ -433,10 +433,11 @@ fn chromium_renders_the_report() {
     let (ok, dom, err) = chromium(&tmp.path().join("p1"), &["--dump-dom".into()], &page);
     assert!(ok, "chromium --dump-dom failed:\n{err}");
     assert!(console_lines(&err).is_empty(), "console errors:\n{err}");
-    // Hand: one network map, two feature maps, two coverage charts (one per scenario) and
-    // one sweep chart = 6 SVG elements; the DOM holds all four reserves.
-    assert_eq!(dom.matches("<svg").count(), 6, "{dom}");
-    assert_eq!(dom.matches("class=\"reserve\"").count(), 4);
+    // Hand: one network map, one budget panel (the sweep's single budget), two feature maps,
+    // two coverage charts (one per scenario) and one sweep chart = 7 SVG elements; the DOM
+    // holds all four reserves in the network map and again in the budget panel.
+    assert_eq!(dom.matches("<svg").count(), 7, "{dom}");
+    assert_eq!(dom.matches("class=\"reserve\"").count(), 8);
 
     let (ok, _, err) = chromium(
         &tmp.path().join("p2"),
