@@ -5,19 +5,8 @@
 mod common;
 
 use std::path::Path;
-use std::process::{Command, Output};
 
-fn driftplan(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_driftplan"))
-        .args(args)
-        .arg("--quiet")
-        .output()
-        .unwrap()
-}
-
-fn os(s: &str) -> &std::ffi::OsStr {
-    std::ffi::OsStr::new(s)
-}
+use common::{os, run_quiet as driftplan};
 
 /// Sets the `amber-wrasse` column (the first species of the demo) to 0 in the given demo
 /// habitat files: the species has no habitat there.

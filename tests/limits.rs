@@ -8,17 +8,7 @@ mod common;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-fn driftplan(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_driftplan"))
-        .args(args)
-        .arg("--quiet")
-        .output()
-        .unwrap()
-}
-
-fn os(s: &str) -> &std::ffi::OsStr {
-    std::ffi::OsStr::new(s)
-}
+use common::{os, run_quiet as driftplan};
 
 fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()

@@ -46,3 +46,17 @@ pub fn plan_with_gap(dir: &Path, budget: &str, optimise: &str, gap: f64) -> Path
     std::fs::write(&path, kept).unwrap();
     path
 }
+
+/// Runs the driftplan binary quietly with `args` and returns its output.
+pub fn run_quiet(args: &[&std::ffi::OsStr]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(args)
+        .arg("--quiet")
+        .output()
+        .unwrap()
+}
+
+/// `s` as an `OsStr`, for argument lists.
+pub fn os(s: &str) -> &std::ffi::OsStr {
+    std::ffi::OsStr::new(s)
+}
