@@ -221,6 +221,9 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
             temperature.push(series);
         }
     }
+    // One broken file read for many layers (a CSV with a column per species) is one problem.
+    let mut seen = std::collections::BTreeSet::new();
+    errors.retain(|e| seen.insert(e.to_string()));
     if !errors.is_empty() {
         return Err(if errors.len() == 1 {
             RunError::Layer(errors.remove(0))

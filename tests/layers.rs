@@ -667,3 +667,23 @@ fn a_lattice_across_the_antimeridian_is_one_lattice() {
         );
     }
 }
+
+#[test]
+fn a_short_csv_row_is_named_in_plain_words() {
+    // A row with a value missing: the message says how many values the row and the header hold.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("short.csv");
+    std::fs::write(&path, "lon,lat,v\n4.0,49.5,1\n4.5,49.5\n").unwrap();
+    let e = sample(
+        "v",
+        &spec(path, Sampling::Interpolate, Some("v"), None),
+        &grid_laea(),
+        &SourceCache::new(),
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("line 3") && e.contains("the row has 2 values but the header has 3 columns"),
+        "{e}"
+    );
+}

@@ -63,6 +63,22 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
         let line = e.position().map_or(0, |p| p.line());
         match e.into_kind() {
             ::csv::ErrorKind::Io(source) => io(source),
+            ::csv::ErrorKind::UnequalLengths {
+                expected_len, len, ..
+            } => LayerError::Csv {
+                path: path.to_path_buf(),
+                line,
+                column: "?".into(),
+                message: format!(
+                    "the row has {len} values but the header has {expected_len} columns (expected one value per header column on every line)"
+                ),
+            },
+            ::csv::ErrorKind::Utf8 { .. } => LayerError::Csv {
+                path: path.to_path_buf(),
+                line,
+                column: "?".into(),
+                message: "the text is not UTF-8 (expected a UTF-8 CSV file)".into(),
+            },
             kind => LayerError::Csv {
                 path: path.to_path_buf(),
                 line,
