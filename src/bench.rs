@@ -297,6 +297,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         };
         Ok((
             p,

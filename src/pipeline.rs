@@ -435,6 +435,7 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
         }),
         scenario_best: None,
         keep_objective: None,
+        alternative: None,
         min_reserve: plan.rules.min_reserve_km2.map(|m| MinReserve {
             min_area_km2: m,
             neighbours: inputs

@@ -56,6 +56,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         scenario_best: None,
         min_reserve: None,
         keep_objective: None,
+        alternative: None,
     }
 }
 

@@ -57,6 +57,7 @@ fn instance(seed: u64) -> Problem {
         scenario_best: None,
         min_reserve: None,
         keep_objective: None,
+        alternative: None,
     }
 }
 
@@ -248,6 +249,7 @@ fn tiny() -> Problem {
         scenario_best: None,
         min_reserve: None,
         keep_objective: None,
+        alternative: None,
     }
 }
 

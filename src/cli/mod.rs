@@ -18,6 +18,9 @@ mod compare;
 mod demo;
 mod features;
 mod grid;
+mod irreplaceability;
+mod portfolio;
+mod rank;
 mod solve;
 mod sweep;
 
@@ -88,6 +91,28 @@ enum Command {
     /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
     /// for that benefit.
     Sweep(sweep::Args),
+    /// Several near-optimal networks, each within a share of the optimum and as different from
+    /// the others as that share allows.
+    ///
+    /// Writes portfolio.csv (each member's objective, cost, area and difference),
+    /// networks/member-<k>.geojson, selection-share.geojson (share of members choosing each
+    /// cell), compare.csv and report.html. Member 1 is the optimum; each next member maximises its
+    /// total Hamming distance to the earlier ones and differs from each in at least
+    /// `--min-difference` cells.
+    Portfolio(portfolio::Args),
+    /// A priority rank for every cell from nested solves over growing budgets.
+    ///
+    /// Writes rank.csv (cell, rank, budget share of its step), rank-curve.csv (one row per step:
+    /// budget, cost, targets reached, cells added, status, gap), rank.geojson and report.html.
+    /// Each step is the best network at its budget that contains the previous step's network, so
+    /// the cells ranked 1 are inside those ranked 1–2, and so on; 0 marks plan-required cells.
+    Rank(rank::Args),
+    /// Replacement cost of each reserve (or, with --cells, each chosen cell) of the optimum.
+    ///
+    /// Writes irreplaceability.csv (per unit: cells forbidden, objective without it,
+    /// replacement cost with the interval it lies in, status, gap), network.geojson and
+    /// report.html. A unit without which no network meets every rule is irreplaceable.
+    Irreplaceability(irreplaceability::Args),
 }
 
 /// Runs one command.
@@ -103,6 +128,9 @@ pub fn run(args: Args) -> Result<()> {
         Command::Assess(a) => assess::run(a, &progress),
         Command::Compare(a) => compare::run(a, &progress),
         Command::Sweep(a) => sweep::run(a, &progress),
+        Command::Portfolio(a) => portfolio::run(a, &progress),
+        Command::Rank(a) => rank::run(a, &progress),
+        Command::Irreplaceability(a) => irreplaceability::run(a, &progress),
     }
 }
 

@@ -70,11 +70,13 @@ pub struct Evaluation {
     /// Every required cell chosen and no excluded cell chosen.
     pub status_respected: bool,
     /// All hard rules hold: cell status, budget, max gap, minimum size, for min-cost every
-    /// target, and a kept objective ([`Problem::keep_objective`]).
+    /// target, a kept objective ([`Problem::keep_objective`]) and a portfolio member's
+    /// least difference from earlier networks ([`Problem::alternative`]).
     pub feasible: bool,
     /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
     /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown);
-    /// the cost alone when the problem keeps an objective ([`Problem::keep_objective`]).
+    /// the cost alone when the problem keeps an objective ([`Problem::keep_objective`]), or the
+    /// overlap with earlier networks for a portfolio member ([`Problem::alternative`]).
     pub objective: f64,
 }
 
@@ -201,11 +203,15 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         && gap.as_ref().is_none_or(|g| g.reached)
         && lone_cells.is_empty()
         && (problem.objective == Objective::MaxBenefit || all_reached)
-        && keeps;
-    let objective = if problem.keep_objective.is_some() {
-        cost
-    } else {
-        first
+        && keeps
+        && problem
+            .alternative
+            .as_ref()
+            .is_none_or(|a| a.distances(selected).iter().all(|&d| d >= a.min_difference));
+    let objective = match (&problem.keep_objective, &problem.alternative) {
+        (Some(_), Some(a)) => a.overlap(selected),
+        (Some(_), None) => cost,
+        (None, _) => first,
     };
     Evaluation {
         cost,
@@ -266,6 +272,7 @@ mod tests {
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         }
     }
 

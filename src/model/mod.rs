@@ -6,6 +6,7 @@
 //! The formulations (minimum set, maximum coverage, robustness rules, edge penalty, max gap) are
 //! documented in [`robust`], [`compact`] and [`spacing`].
 
+pub mod alternative;
 pub mod compact;
 pub mod evaluate;
 pub mod min_size;
@@ -13,6 +14,7 @@ pub mod robust;
 pub mod spacing;
 mod validate;
 
+pub use alternative::Alternative;
 pub use evaluate::{evaluate, Evaluation, ScenarioResult};
 pub use min_size::MinReserve;
 pub use spacing::Spacing;
@@ -143,6 +145,10 @@ pub struct Problem {
     /// the solve is then that cost. The budget sweep uses it so that a budget too small for
     /// every target does not spend cost that buys no benefit. Exact solvers only.
     pub keep_objective: Option<f64>,
+    /// Portfolio member ([`alternative`]): with a kept objective, the second stage seeks the
+    /// network most different from earlier ones (each by at least a stated number of cells)
+    /// instead of the least cost. Exact solvers only.
+    pub alternative: Option<Alternative>,
 }
 
 /// Slack below a kept objective `v` (module [`Problem::keep_objective`]): the first stage's

@@ -200,6 +200,7 @@ mod tests {
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         }
     }
 

@@ -192,8 +192,26 @@ impl Problem {
                 "scenarios",
             )?;
         }
+        if let Some(alt) = &self.alternative {
+            if self.keep_objective.is_none() {
+                return Err(ModelError::Combination(
+                    "a portfolio member (alternative) needs a kept objective: the limit the \
+                     plan's objective must stay within"
+                        .into(),
+                ));
+            }
+            if alt.min_difference == 0 {
+                return Err(ModelError::Combination(
+                    "a portfolio member must differ from earlier ones in at least 1 cell".into(),
+                ));
+            }
+            for s in &alt.avoid {
+                check_len("alternative.avoid", s.len(), self.n_cells(), "cells")?;
+            }
+        }
         if let Some(v) = self.keep_objective {
-            if self.objective != Objective::MaxBenefit || !v.is_finite() {
+            let allowed = self.objective == Objective::MaxBenefit || self.alternative.is_some();
+            if !allowed || !v.is_finite() {
                 return Err(ModelError::Combination(format!(
                     "a kept objective ({v}) is the second stage of a max-benefit problem: it \
                      needs objective `max-benefit` and a finite value (min-cost already \
@@ -269,6 +287,7 @@ mod tests {
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         }
     }
 

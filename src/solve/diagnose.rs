@@ -407,6 +407,7 @@ mod tests {
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         }
     }
 

@@ -355,6 +355,7 @@ mod tests {
             scenario_best: None,
             min_reserve: None,
             keep_objective: None,
+            alternative: None,
         };
         let s = Greedy.solve(&p, &SolveOptions::default()).unwrap();
         assert_eq!(s.selected, vec![false, false, true]);

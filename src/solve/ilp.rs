@@ -243,11 +243,33 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
             } else {
                 constraints.push(constraint::geq(objective, crate::model::keep_floor(v)));
             }
-            let mut cost = Expression::with_capacity(n);
+            // The second stage's objective: the least cost, or for a portfolio member the
+            // least overlap with earlier networks (model::alternative), each of which is cut
+            // off by a no-good row Σ_{i∈S}(1 − xᵢ) + Σ_{i∉S} xᵢ ≥ d.
+            let weights = match &problem.alternative {
+                None => problem.cost.clone(),
+                Some(alt) => {
+                    for s in &alt.avoid {
+                        let mut e = Expression::with_capacity(n);
+                        let mut held = 0.0;
+                        for (i, &xi) in x.iter().enumerate() {
+                            if s[i] {
+                                e.add_mul(-1.0, xi);
+                                held += 1.0;
+                            } else {
+                                e.add_mul(1.0, xi);
+                            }
+                        }
+                        constraints.push(constraint::geq(e, alt.min_difference as f64 - held));
+                    }
+                    alt.weights(n)
+                }
+            };
+            let mut second = Expression::with_capacity(n);
             for (i, &xi) in x.iter().enumerate() {
-                cost.add_mul(problem.cost[i], xi);
+                second.add_mul(weights[i], xi);
             }
-            (cost, true)
+            (second, true)
         }
     };
     if let Some(limit) = problem.budget.max_cost {

@@ -1,11 +1,19 @@
 //! Studies: the pipeline's model and solve stages run many times over — one solve per
-//! scenario (the stress test), one per budget (the sweep) — and what the runs share (how often
-//! each cell is chosen). They sit after `solve` and before `assess`/`export` in the pipeline.
+//! scenario (the stress test), one per budget (the sweep), nested budgets (the priority
+//! ranking), near-optimal alternatives (portfolios), one re-solve per forbidden place
+//! (replacement cost) — and what the runs share (how often each cell is chosen). They sit after
+//! `solve` and before `assess`/`export` in the pipeline.
 
 pub mod frequency;
+pub mod portfolio;
+pub mod rank;
+pub mod replacement;
 pub mod stress;
 pub mod sweep;
 
 pub use frequency::{selection_frequency, SelectionFrequency};
+pub use portfolio::{portfolio, Portfolio};
+pub use rank::{rank, Ranking};
+pub use replacement::{replacement_costs, Replacement};
 pub use stress::{single_scenario_problem, stress_test, StressMatrix, StressRow};
 pub use sweep::{parse_budgets, sweep, sweep_of, Sweep, SweepBudget, SweepRun};

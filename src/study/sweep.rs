@@ -221,108 +221,122 @@ pub fn sweep_of(
     let runs: Vec<Result<SweepRun, SolveError>> = shares
         .par_iter()
         .map(|&share| {
-            let mut p = problem.clone();
-            p.objective = Objective::MaxBenefit;
-            p.scenario_best = None;
-            match of {
-                SweepBudget::Area(total) => p.budget.max_area_km2 = Some(share * total),
-                SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
-            }
-            let first = Highs::default().solve(&p, &one_thread)?;
-            let e = evaluate(&p, &first.selected);
-            let mut q = p.clone();
-            q.objective = Objective::MinCost;
-            q.robustness = Robustness::EveryScenario;
-            // Whether the budget buys every target. The benefit stage shows it when its network
-            // meets them all; under worst-case and least-regret a network of the best benefit
-            // may miss targets of the easier scenarios although the budget buys them, so the
-            // least-cost every-target solve is tried and an infeasible one means no.
-            let absent = e.absent.iter().filter(|a| **a).count();
-            let every_target = if e.targets_reached + absent == e.reached.len() {
-                Some(Highs::default().solve(&q, &one_thread)?)
-            } else if matches!(
-                p.robustness,
-                Robustness::WorstCase | Robustness::LeastRegret
-            ) {
-                match Highs::default().solve(&q, &one_thread) {
-                    Ok(s) => Some(s),
-                    Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => None,
-                    Err(other) => return Err(other),
-                }
-            } else {
-                None
-            };
-            let (solution, e, cost_gap) = match every_target {
-                Some(cheap) => {
-                    // The least-cost network holding every target under the same budget and
-                    // rules; every target reached is the most benefit there is: proven optimal.
-                    let e = evaluate(&p, &cheap.selected);
-                    let cost_gap = cheap.gap;
-                    let solution = crate::solve::Solution {
-                        objective: e.objective,
-                        bound: e.objective,
-                        gap: 0.0,
-                        status: crate::solve::SolveStatus::Optimal,
-                        seconds: first.seconds + cheap.seconds,
-                        scenarios: e.scenarios.clone(),
-                        ..cheap
-                    };
-                    (solution, e, cost_gap)
-                }
-                None => {
-                    // Lexicographic: the best benefit first, then the least cost at that
-                    // benefit, so cost buys benefit and is not spent for nothing.
-                    let q = Problem {
-                        keep_objective: Some(e.objective),
-                        ..p.clone()
-                    };
-                    // The benefit stage's network meets the kept row, so the cost stage cannot be
-                    // infeasible; if the solver finds no network in its time (it gets no warm
-                    // start: greedy knows no kept row), the benefit stage's network stands.
-                    let cheap = match Highs::default().solve(&q, &one_thread) {
-                        Ok(c) => c,
-                        Err(SolveError::Solver(_)) => crate::solve::Solution {
-                            gap: f64::NAN,
-                            ..first.clone()
-                        },
-                        Err(other) => return Err(other),
-                    };
-                    let kept = evaluate(&p, &cheap.selected);
-                    // The benefit stage's status, bound and gap stand: the second stage only
-                    // chooses among networks with (within slack) the same benefit.
-                    let solution = crate::solve::Solution {
-                        objective: kept.objective,
-                        scenarios: kept.scenarios.clone(),
-                        selected: cheap.selected,
-                        seconds: first.seconds + cheap.seconds,
-                        ..first
-                    };
-                    (solution, kept, cheap.gap)
-                }
-            };
+            let run = solve_at_budget(problem, share, of, &one_thread);
             on_solved();
-            Ok(SweepRun {
-                share,
-                budget_km2: match of {
-                    SweepBudget::Area(total) => share * total,
-                    SweepBudget::Cost(_) => f64::NAN,
-                },
-                budget_cost: match of {
-                    SweepBudget::Cost(total) => share * total,
-                    SweepBudget::Area(_) => f64::NAN,
-                },
-                cost: e.cost,
-                area_km2: e.area_km2,
-                targets_reached: e.targets_reached,
-                reached: e.reached,
-                cost_gap,
-                solution,
-            })
+            run
         })
         .collect();
     Ok(Sweep {
         runs: runs.into_iter().collect::<Result<_, _>>()?,
         features: problem.features.iter().map(|f| f.name.clone()).collect(),
+    })
+}
+
+/// One budget's solve (module doc): the best benefit of the plan's rule under `share` of the
+/// budget measure, then the least cost at that benefit — or, when the budget buys every
+/// target, the least-cost network holding them all. `problem`'s cell status is kept, so a
+/// nested study (the priority ranking) can require an earlier network's cells.
+pub fn solve_at_budget(
+    problem: &Problem,
+    share: f64,
+    of: SweepBudget,
+    options: &SolveOptions,
+) -> Result<SweepRun, SolveError> {
+    let mut p = problem.clone();
+    p.objective = Objective::MaxBenefit;
+    p.scenario_best = None;
+    match of {
+        SweepBudget::Area(total) => p.budget.max_area_km2 = Some(share * total),
+        SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
+    }
+    let first = Highs::default().solve(&p, options)?;
+    let e = evaluate(&p, &first.selected);
+    let mut q = p.clone();
+    q.objective = Objective::MinCost;
+    q.robustness = Robustness::EveryScenario;
+    // Whether the budget buys every target. The benefit stage shows it when its network
+    // meets them all; under worst-case and least-regret a network of the best benefit
+    // may miss targets of the easier scenarios although the budget buys them, so the
+    // least-cost every-target solve is tried and an infeasible one means no.
+    let absent = e.absent.iter().filter(|a| **a).count();
+    let every_target = if e.targets_reached + absent == e.reached.len() {
+        Some(Highs::default().solve(&q, options)?)
+    } else if matches!(
+        p.robustness,
+        Robustness::WorstCase | Robustness::LeastRegret
+    ) {
+        match Highs::default().solve(&q, options) {
+            Ok(s) => Some(s),
+            Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => None,
+            Err(other) => return Err(other),
+        }
+    } else {
+        None
+    };
+    let (solution, e, cost_gap) = match every_target {
+        Some(cheap) => {
+            // The least-cost network holding every target under the same budget and
+            // rules; every target reached is the most benefit there is: proven optimal.
+            let e = evaluate(&p, &cheap.selected);
+            let cost_gap = cheap.gap;
+            let solution = crate::solve::Solution {
+                objective: e.objective,
+                bound: e.objective,
+                gap: 0.0,
+                status: crate::solve::SolveStatus::Optimal,
+                seconds: first.seconds + cheap.seconds,
+                scenarios: e.scenarios.clone(),
+                ..cheap
+            };
+            (solution, e, cost_gap)
+        }
+        None => {
+            // Lexicographic: the best benefit first, then the least cost at that
+            // benefit, so cost buys benefit and is not spent for nothing.
+            let q = Problem {
+                keep_objective: Some(e.objective),
+                ..p.clone()
+            };
+            // The benefit stage's network meets the kept row, so the cost stage cannot be
+            // infeasible; if the solver finds no network in its time (it gets no warm
+            // start: greedy knows no kept row), the benefit stage's network stands.
+            let cheap = match Highs::default().solve(&q, options) {
+                Ok(c) => c,
+                Err(SolveError::Solver(_)) => crate::solve::Solution {
+                    gap: f64::NAN,
+                    ..first.clone()
+                },
+                Err(other) => return Err(other),
+            };
+            let kept = evaluate(&p, &cheap.selected);
+            // The benefit stage's status, bound and gap stand: the second stage only
+            // chooses among networks with (within slack) the same benefit.
+            let solution = crate::solve::Solution {
+                objective: kept.objective,
+                scenarios: kept.scenarios.clone(),
+                selected: cheap.selected,
+                seconds: first.seconds + cheap.seconds,
+                ..first
+            };
+            (solution, kept, cheap.gap)
+        }
+    };
+    Ok(SweepRun {
+        share,
+        budget_km2: match of {
+            SweepBudget::Area(total) => share * total,
+            SweepBudget::Cost(_) => f64::NAN,
+        },
+        budget_cost: match of {
+            SweepBudget::Cost(total) => share * total,
+            SweepBudget::Area(_) => f64::NAN,
+        },
+        cost: e.cost,
+        area_km2: e.area_km2,
+        targets_reached: e.targets_reached,
+        reached: e.reached,
+        cost_gap,
+        solution,
     })
 }
 

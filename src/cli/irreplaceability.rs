@@ -1,0 +1,161 @@
+//! `driftplan irreplaceability`: replacement cost of each reserve (or cell) of the optimum.
+
+use super::{load_with, solve_options, Progress, SolverArgs};
+use anyhow::Result;
+use driftplan::solve::time;
+use driftplan::{export, pipeline};
+use std::path::PathBuf;
+
+/// Arguments of `driftplan irreplaceability`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct Args {
+    /// The plan file (TOML).
+    plan: PathBuf,
+    /// Re-solve once per chosen cell instead of once per reserve (many more solves).
+    #[arg(long)]
+    cells: bool,
+    /// Seconds for each re-solve (default: an equal part of the command's time limit).
+    #[arg(long, value_name = "SECONDS")]
+    per_solve_limit: Option<f64>,
+    /// Output folder.
+    #[arg(long)]
+    out: PathBuf,
+    #[command(flatten)]
+    solver: SolverArgs,
+}
+
+pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
+    let plan = load_with(&a.plan, &a.solver)?;
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let problem = pipeline::problem(&plan, &inputs);
+    let options = solve_options(&plan, &a.solver)?;
+    let clock = time::TimeBudget::start(plan.solver.time_limit_s);
+    progress.say("irreplaceability: solving the plan");
+    let base_problem = driftplan::solve::with_scenario_best(
+        &problem,
+        &driftplan::solve::ilp::Highs::default(),
+        &clock.options(&options, 0.2, 1),
+    )?;
+    let base = pipeline::optimise(&base_problem, &clock.options(&options, 0.2, 1))?;
+    let assessment = pipeline::assess_network(&inputs, &base.selected);
+    let units: Vec<(String, Vec<u32>)> = if a.cells {
+        (0..base.selected.len() as u32)
+            .filter(|&c| base.selected[c as usize])
+            .map(|c| (format!("cell {c}"), vec![c]))
+            .collect()
+    } else {
+        assessment
+            .reserves
+            .iter()
+            .enumerate()
+            .map(|(k, r)| (format!("reserve {}", k + 1), r.cells.clone()))
+            .collect()
+    };
+    let rounds = time::parallel_rounds(units.len(), time::workers());
+    let per = match a.per_solve_limit {
+        Some(t) => {
+            anyhow::ensure!(
+                t.is_finite() && t > 0.0,
+                "--per-solve-limit must be a positive number of seconds, got {t}"
+            );
+            Some(t)
+        }
+        None => clock.options(&options, 1.0, rounds).time_limit_s,
+    };
+    progress.say(&format!(
+        "irreplaceability: {} re-solve{} with each {} forbidden{}",
+        units.len(),
+        if units.len() == 1 { "" } else { "s" },
+        if a.cells { "cell" } else { "reserve" },
+        per.map(|t| format!(" (at most {t:.0} s each)"))
+            .unwrap_or_default()
+    ));
+    let bar = progress.bar(units.len() as u64, "re-solves");
+    let rows = driftplan::study::replacement_costs(
+        &base_problem,
+        &base,
+        &units,
+        &driftplan::solve::SolveOptions {
+            time_limit_s: per,
+            ..options.clone()
+        },
+        &|| bar.inc(1),
+    )?;
+    bar.finish_and_clear();
+    let minimise = driftplan::model::robust::is_minimisation(&base_problem);
+    let best = driftplan::study::replacement::best_base(minimise, &base, &rows);
+    // Per-cell map value: the replacement cost of the unit holding the cell (NaN outside).
+    let mut map = vec![f64::NAN; base.selected.len()];
+    for (r, (_, cells)) in rows.iter().zip(&units) {
+        for &c in cells {
+            map[c as usize] = if r.irreplaceable() { f64::MAX } else { r.cost };
+        }
+    }
+    let finite_max = map
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite() && *v < f64::MAX)
+        .fold(0.0, f64::max);
+    let shown: Vec<f64> = map
+        .iter()
+        .map(|&v| if v == f64::MAX { finite_max } else { v })
+        .collect();
+    let files = vec![
+        (
+            "irreplaceability.csv",
+            driftplan::study::replacement::replacement_csv(&best, &rows),
+        ),
+        (
+            "network.geojson",
+            export::geojson::network_geojson(&inputs.grid, &assessment)?,
+        ),
+        (
+            "report.html",
+            pipeline::report_html(
+                &plan,
+                &inputs,
+                &base.selected,
+                &assessment,
+                pipeline::ReportExtras {
+                    solution: Some(&base),
+                    facts: vec![(
+                        "irreplaceability".into(),
+                        format!(
+                            "replacement cost per {}: how much the objective worsens when it is forbidden; irreplaceable units (no network meets every rule without them) are drawn at the top of the scale",
+                            if a.cells { "cell" } else { "reserve" }
+                        ),
+                    )],
+                    maps: vec![("replacement cost".into(), shown)],
+                    ..Default::default()
+                },
+            )?,
+        ),
+    ];
+    export::write_outputs(&a.out, &files)?;
+    println!(
+        "{:<14} {:>6} {:>14}  status",
+        "unit", "cells", "replacement"
+    );
+    for r in &rows {
+        println!(
+            "{:<14} {:>6} {:>14}  {}",
+            r.label,
+            r.forbidden.len(),
+            if r.irreplaceable() {
+                "irreplaceable".to_string()
+            } else {
+                format!("{:.3}", r.cost + 0.0)
+            },
+            driftplan::study::replacement::status_word(r)
+        );
+    }
+    if best.objective != base.objective {
+        println!(
+            "note: a re-solve found a better network of the whole plan (objective {:.3} against {:.3}); replacement costs are measured from it",
+            best.objective, base.objective
+        );
+    }
+    println!("outputs {}", a.out.display());
+    println!("{}", export::CAUTION);
+    Ok(())
+}
