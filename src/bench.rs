@@ -298,6 +298,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             min_reserve: None,
             keep_objective: None,
             alternative: None,
+            zoning: None,
         };
         Ok((
             p,

@@ -74,6 +74,10 @@ pub struct Inputs {
     pub cost: Vec<f64>,
     /// Free / required / excluded per cell.
     pub status: Vec<CellStatus>,
+    /// Per plan zone: cells that must take it (empty without zones).
+    pub zone_required: Vec<Vec<bool>>,
+    /// Per plan zone: cells that may not take it (empty without zones).
+    pub zone_excluded: Vec<Vec<bool>>,
     /// All features with their targets.
     pub features: FeatureTable,
     /// Range-edge shifts per species and scenario (empty without a `[climate]` section).
@@ -199,8 +203,33 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
             },
         }
     };
-    let required = share_of(&plan.required, "required");
+    let mut required = share_of(&plan.required, "required");
     let excluded = share_of(&plan.excluded, "excluded");
+    // Per zone: cells that must take it (mostly inside its `required` polygons) and cells that
+    // may not (touching its `excluded` ones), with the same shares as the plan's own rules.
+    let mut zone_required = Vec::new();
+    let mut zone_excluded = Vec::new();
+    for z in &plan.zones {
+        let rule = |t: &Option<crate::plan::LayerTemplate>, min_share: f64| {
+            t.as_ref().map(|layer| crate::plan::AreaRule {
+                layer: layer.clone(),
+                min_share,
+            })
+        };
+        let r = share_of(
+            &rule(&z.required, 0.5),
+            &format!("zone_{}_required", z.name),
+        );
+        let x = share_of(
+            &rule(&z.excluded, 0.01),
+            &format!("zone_{}_excluded", z.name),
+        );
+        for (all, own) in required.iter_mut().zip(&r) {
+            *all |= *own;
+        }
+        zone_required.push(r);
+        zone_excluded.push(x);
+    }
 
     // temperature[scenario][year][cell], °C.
     let mut temperature: Vec<Vec<Vec<f64>>> = Vec::new();
@@ -302,6 +331,8 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         layers,
         cost,
         status,
+        zone_required,
+        zone_excluded,
         features,
         edge_shifts,
         sampling: cache.sampling_reports(),
@@ -436,6 +467,7 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
         scenario_best: None,
         keep_objective: None,
         alternative: None,
+        zoning: zoning(plan, inputs),
         min_reserve: plan.rules.min_reserve_km2.map(|m| MinReserve {
             min_area_km2: m,
             neighbours: inputs
@@ -446,6 +478,59 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
                 .collect(),
         }),
     }
+}
+
+/// The plan's zones as the model states them (`None` without `[[zones]]`): each zone's cost
+/// share; its credit for each feature by the feature's species and kind; which cells may take
+/// it (not excluded from it, and not required by another zone — a cell required by two zones
+/// takes the first); and per targeted feature the amount its zone target asks for.
+pub fn zoning(plan: &Plan, inputs: &Inputs) -> Option<crate::model::Zoning> {
+    if plan.zones.is_empty() {
+        return None;
+    }
+    let feats = &inputs.features.features;
+    let n = inputs.grid.len();
+    let first_required: Vec<Option<usize>> = (0..n)
+        .map(|i| inputs.zone_required.iter().position(|r| r[i]))
+        .collect();
+    let mut targets = Vec::new();
+    for (z, zone) in plan.zones.iter().enumerate() {
+        if let Some(share) = zone.target {
+            for (k, f) in feats.iter().enumerate() {
+                if f.target.amount(f.total) > 0.0 && share > 0.0 {
+                    targets.push(crate::model::ZoneTarget {
+                        zone: z,
+                        feature: k,
+                        amount: share * f.total,
+                    });
+                }
+            }
+        }
+    }
+    Some(crate::model::Zoning {
+        names: plan.zones.iter().map(|z| z.name.clone()).collect(),
+        cost_share: plan.zones.iter().map(|z| z.cost_share).collect(),
+        credit: plan
+            .zones
+            .iter()
+            .map(|z| {
+                feats
+                    .iter()
+                    .map(|f| z.credit_for(f.kind.as_str(), f.species.as_deref()))
+                    .collect()
+            })
+            .collect(),
+        allowed: (0..plan.zones.len())
+            .map(|z| {
+                (0..n)
+                    .map(|i| {
+                        !inputs.zone_excluded[z][i] && first_required[i].is_none_or(|r| r == z)
+                    })
+                    .collect()
+            })
+            .collect(),
+        targets,
+    })
 }
 
 /// Edge-penalty data from the grid: each neighbouring pair once, and each cell's edge that
@@ -490,6 +575,28 @@ pub fn solve_options(plan: &Plan) -> SolveOptions {
 /// Solves the problem exactly with HiGHS.
 pub fn optimise(problem: &Problem, options: &SolveOptions) -> Result<Solution, RunError> {
     Ok(crate::solve::ilp::Highs::default().solve(problem, options)?)
+}
+
+/// Assesses a solved network: as [`assess_network`], re-scored for its zones when the problem
+/// has them (`assess::zones`), with each zone's share of the network and of each reserve.
+pub fn assess_solution(
+    inputs: &Inputs,
+    problem: &Problem,
+    solution: &Solution,
+) -> (Assessment, Option<Vec<crate::assess::zones::ZoneShare>>) {
+    let mut a = assess_network(inputs, &solution.selected);
+    let shares = match (&problem.zoning, &solution.zones) {
+        (Some(z), Some(asg)) => Some(crate::assess::zones::apply_zones(
+            &mut a,
+            &inputs.grid,
+            &inputs.features,
+            &inputs.cost,
+            z,
+            asg,
+        )),
+        _ => None,
+    };
+    (a, shares)
 }
 
 /// Assesses a network under the plan's features.
@@ -732,6 +839,8 @@ mod tests {
         let inputs = Inputs {
             cost: vec![1.0; 3],
             status: vec![CellStatus::Free; 3],
+            zone_required: vec![],
+            zone_excluded: vec![],
             layers: vec![],
             features,
             edge_shifts: vec![],

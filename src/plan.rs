@@ -15,6 +15,7 @@ use std::path::{Path, PathBuf};
 
 pub mod climate;
 pub mod terms;
+pub mod zones;
 
 /// One problem found in a plan: where (`key`) and what was expected.
 #[derive(Debug, Clone, PartialEq)]
@@ -278,6 +279,8 @@ pub struct Plan {
     pub rules: SpatialRules,
     /// Solver controls.
     pub solver: SolverPlan,
+    /// Management zones, strictest first (empty: one kind of protection).
+    pub zones: Vec<zones::ZonePlan>,
     /// Derived climate-adaptation features (`[climate]`), if asked for.
     pub climate: Option<climate::ClimatePlan>,
 }
@@ -304,6 +307,8 @@ struct RawPlan {
     optimise: Option<RawOptimise>,
     solver: Option<RawSolver>,
     climate: Option<climate::RawClimate>,
+    #[serde(default)]
+    zones: Vec<zones::RawZone>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -739,6 +744,7 @@ impl Plan {
                 "optimise",
                 "solver",
                 "climate",
+                "zones",
             ],
         );
         let name = raw.name.clone().unwrap_or_else(|| {
@@ -1155,6 +1161,8 @@ impl Plan {
             )
         });
 
+        let zones = zones::check(&mut ck, &raw.zones, &species_names);
+
         if !ck.issues.is_empty() {
             return Err(fail(ck.issues));
         }
@@ -1180,6 +1188,7 @@ impl Plan {
             rules,
             solver,
             climate,
+            zones,
         })
     }
 

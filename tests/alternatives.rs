@@ -57,6 +57,7 @@ fn instance(seed: u64) -> Problem {
         min_reserve: None,
         keep_objective: None,
         alternative: None,
+        zoning: None,
     }
 }
 

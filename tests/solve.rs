@@ -57,6 +57,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         min_reserve: None,
         keep_objective: None,
         alternative: None,
+        zoning: None,
     }
 }
 

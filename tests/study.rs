@@ -58,6 +58,7 @@ fn instance(seed: u64) -> Problem {
         min_reserve: None,
         keep_objective: None,
         alternative: None,
+        zoning: None,
     }
 }
 
@@ -250,6 +251,7 @@ fn tiny() -> Problem {
         min_reserve: None,
         keep_objective: None,
         alternative: None,
+        zoning: None,
     }
 }
 

@@ -6,6 +6,7 @@ mod edge;
 pub mod network_input;
 mod reserves;
 pub mod shape;
+pub mod zones;
 
 pub use coverage::coverage;
 pub use edge::{boundary_edge_km, exposed_edge_km};

@@ -174,6 +174,7 @@ mod tests {
                 absent: 0,
             }],
             scenario_best: None,
+            zones: None,
         };
         let a = Assessment {
             coverage: vec![],

@@ -40,6 +40,26 @@ pub fn exposed_edge_km(penalty: &EdgePenalty, selected: &[bool]) -> f64 {
     alone - 2.0 * shared
 }
 
+/// Exposed edge of a zoned network ([`super::zones`]): Σᵢ Bᵢ·[cell i chosen] + Σ_{i<j} lᵢⱼ·[zᵢ ≠ zⱼ],
+/// with `assignment` 0 outside the network: a shared edge counts once where the network meets
+/// open sea or where two zones meet. Units: km.
+pub fn exposed_edge_zoned_km(penalty: &EdgePenalty, assignment: &[u8]) -> f64 {
+    let own = own_edge_km(penalty);
+    let alone: f64 = own
+        .iter()
+        .zip(assignment)
+        .filter(|(_, v)| **v > 0)
+        .map(|(b, _)| *b)
+        .sum();
+    let cut: f64 = penalty
+        .pairs
+        .iter()
+        .filter(|(i, j, _)| assignment[*i as usize] != assignment[*j as usize])
+        .map(|(_, _, l)| *l)
+        .sum();
+    alone + cut
+}
+
 /// Bᵢ = Pᵢ − Σⱼ lᵢⱼ: the part of each cell's counted edge that no neighbour shares (coast or
 /// region boundary when the plan counts it, else 0). Units: km.
 pub fn own_edge_km(penalty: &EdgePenalty) -> Vec<f64> {

@@ -69,6 +69,8 @@ pub struct Evaluation {
     pub within_budget: bool,
     /// Every required cell chosen and no excluded cell chosen.
     pub status_respected: bool,
+    /// Per zone target ([`super::Zoning::targets`]), whether it is reached (empty without zones).
+    pub zone_targets_reached: Vec<bool>,
     /// All hard rules hold: cell status, budget, max gap, minimum size, for min-cost every
     /// target, a kept objective ([`Problem::keep_objective`]) and a portfolio member's
     /// least difference from earlier networks ([`Problem::alternative`]).
@@ -83,8 +85,32 @@ pub struct Evaluation {
 /// Recompute everything about the network `selected` (one flag per cell).
 ///
 /// Panics if `selected.len() != problem.n_cells()` (a caller bug, not user input).
+///
+/// On a zoned problem ([`Problem::zoning`]) every chosen cell is scored in the first zone; use
+/// [`evaluate_zoned`] to score an assignment of zones.
 pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
+    match &problem.zoning {
+        None => evaluate_with(problem, selected, None),
+        Some(_) => evaluate_with(problem, selected, Some(&super::zones::first_zone(selected))),
+    }
+}
+
+/// Recompute everything about a zoned network: `assignment` holds per cell 0 (outside) or
+/// 1 + its zone index ([`super::zones`]). On a problem without zones, any non-zero value means
+/// "chosen".
+///
+/// Panics if `assignment.len() != problem.n_cells()` (a caller bug, not user input).
+pub fn evaluate_zoned(problem: &Problem, assignment: &[u8]) -> Evaluation {
+    let selected: Vec<bool> = assignment.iter().map(|&v| v > 0).collect();
+    match &problem.zoning {
+        None => evaluate_with(problem, &selected, None),
+        Some(_) => evaluate_with(problem, &selected, Some(assignment)),
+    }
+}
+
+fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>) -> Evaluation {
     assert_eq!(selected.len(), problem.n_cells(), "one flag per cell");
+    let zoned = problem.zoning.as_ref().zip(assignment);
     let sum_selected = |v: &[f64]| -> f64 {
         v.iter()
             .zip(selected)
@@ -92,19 +118,54 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
             .map(|(x, _)| *x)
             .sum()
     };
-    let cost = sum_selected(&problem.cost);
+    let cost = match zoned {
+        None => sum_selected(&problem.cost),
+        Some((z, a)) => problem
+            .cost
+            .iter()
+            .zip(a)
+            .map(|(&c, &v)| z.cell_cost(c, v))
+            .sum(),
+    };
     let area_km2 = sum_selected(&problem.area_km2);
     let protected: Vec<f64> = problem
         .features
         .iter()
-        .map(|f| {
-            f.amounts
+        .enumerate()
+        .map(|(k, f)| match zoned {
+            None => f
+                .amounts
                 .iter()
                 .filter(|(c, _)| selected[*c as usize])
                 .map(|(_, a)| *a)
-                .sum()
+                .sum(),
+            Some((z, asg)) => f
+                .amounts
+                .iter()
+                .map(|&(c, a)| z.cell_credit(k, asg[c as usize]) * a)
+                .sum(),
         })
         .collect();
+    // Zone targets: each feature's own amount in cells of the zone.
+    let zone_targets_reached: Vec<bool> = zoned.map_or_else(Vec::new, |(z, asg)| {
+        z.targets
+            .iter()
+            .map(|t| {
+                let held: f64 = problem.features[t.feature]
+                    .amounts
+                    .iter()
+                    .filter(|(c, _)| asg[*c as usize] as usize == t.zone + 1)
+                    .map(|(_, a)| a)
+                    .sum();
+                at_least(held, t.amount)
+            })
+            .collect()
+    });
+    let zones_allowed = zoned.is_none_or(|(z, asg)| {
+        asg.iter().enumerate().all(|(i, &v)| {
+            super::zones::Zoning::zone_of(v).is_none_or(|zi| zi < z.len() && z.allowed[zi][i])
+        })
+    });
     let absent: Vec<bool> = problem
         .features
         .iter()
@@ -152,10 +213,10 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
             }
         })
         .collect();
-    let exposed = problem
-        .edge_penalty
-        .as_ref()
-        .map_or(0.0, |p| exposed_edge_km(p, selected));
+    let exposed = problem.edge_penalty.as_ref().map_or(0.0, |p| match zoned {
+        None => exposed_edge_km(p, selected),
+        Some((_, asg)) => super::compact::exposed_edge_zoned_km(p, asg),
+    });
     let penalty = problem.edge_penalty.as_ref().map_or(0.0, |p| p.weight) * exposed;
     let gap = problem
         .spacing
@@ -204,6 +265,8 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         && lone_cells.is_empty()
         && (problem.objective == Objective::MaxBenefit || all_reached)
         && keeps
+        && zones_allowed
+        && zone_targets_reached.iter().all(|r| *r)
         && problem
             .alternative
             .as_ref()
@@ -226,6 +289,7 @@ pub fn evaluate(problem: &Problem, selected: &[bool]) -> Evaluation {
         lone_cells,
         within_budget,
         status_respected,
+        zone_targets_reached,
         feasible,
         objective,
     }
@@ -273,6 +337,7 @@ mod tests {
             min_reserve: None,
             keep_objective: None,
             alternative: None,
+            zoning: None,
         }
     }
 

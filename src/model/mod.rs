@@ -13,12 +13,14 @@ pub mod min_size;
 pub mod robust;
 pub mod spacing;
 mod validate;
+pub mod zones;
 
 pub use alternative::Alternative;
-pub use evaluate::{evaluate, Evaluation, ScenarioResult};
+pub use evaluate::{evaluate, evaluate_zoned, Evaluation, ScenarioResult};
 pub use min_size::MinReserve;
 pub use spacing::Spacing;
 pub use validate::ModelError;
+pub use zones::{ZoneTarget, Zoning};
 
 /// Whether a cell may, must or must not be chosen.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -149,6 +151,9 @@ pub struct Problem {
     /// network most different from earlier ones (each by at least a stated number of cells)
     /// instead of the least cost. Exact solvers only.
     pub alternative: Option<Alternative>,
+    /// Management zones ([`zones`]): each chosen cell takes one zone with its own cost and
+    /// feature credit. Exact solvers only.
+    pub zoning: Option<Zoning>,
 }
 
 /// Slack below a kept objective `v` (module [`Problem::keep_objective`]): the first stage's

@@ -192,6 +192,49 @@ impl Problem {
                 "scenarios",
             )?;
         }
+        if let Some(z) = &self.zoning {
+            if z.is_empty() || z.len() > 250 {
+                return Err(ModelError::Combination(format!(
+                    "zones: expected 1 to 250 zones, found {}",
+                    z.len()
+                )));
+            }
+            check_len("zoning.cost_share", z.cost_share.len(), z.len(), "zones")?;
+            check_len("zoning.credit", z.credit.len(), z.len(), "zones")?;
+            check_len("zoning.allowed", z.allowed.len(), z.len(), "zones")?;
+            for (k, name) in z.names.iter().enumerate() {
+                check_len(
+                    "zoning.credit[zone]",
+                    z.credit[k].len(),
+                    self.features.len(),
+                    "features",
+                )?;
+                check_len(
+                    "zoning.allowed[zone]",
+                    z.allowed[k].len(),
+                    self.n_cells(),
+                    "cells",
+                )?;
+                let bad_share = !(z.cost_share[k].is_finite() && z.cost_share[k] >= 0.0);
+                let bad_credit = z.credit[k].iter().any(|c| !(c.is_finite() && *c >= 0.0));
+                if bad_share || bad_credit {
+                    return Err(ModelError::Combination(format!(
+                        "zone `{name}`: cost shares and credits must be finite and ≥ 0"
+                    )));
+                }
+            }
+            for t in &z.targets {
+                if t.zone >= z.len() || t.feature >= self.features.len() || !t.amount.is_finite() {
+                    return Err(ModelError::Combination(format!(
+                        "a zone target names zone {} and feature {} (there are {} zones and {} features) or is not finite",
+                        t.zone,
+                        t.feature,
+                        z.len(),
+                        self.features.len()
+                    )));
+                }
+            }
+        }
         if let Some(alt) = &self.alternative {
             if self.keep_objective.is_none() {
                 return Err(ModelError::Combination(
@@ -288,6 +331,7 @@ mod tests {
             min_reserve: None,
             keep_objective: None,
             alternative: None,
+            zoning: None,
         }
     }
 

@@ -408,6 +408,7 @@ mod tests {
             min_reserve: None,
             keep_objective: None,
             alternative: None,
+            zoning: None,
         }
     }
 

@@ -356,6 +356,7 @@ mod tests {
             min_reserve: None,
             keep_objective: None,
             alternative: None,
+            zoning: None,
         };
         let s = Greedy.solve(&p, &SolveOptions::default()).unwrap();
         assert_eq!(s.selected, vec![false, false, true]);

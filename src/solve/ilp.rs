@@ -50,6 +50,8 @@ use super::{
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Col {
     X(usize),
+    /// Cell `.1` in zone `.0` (model::zones).
+    W(usize, usize),
     Y(usize),
     Z(usize),
     U(usize),
@@ -96,20 +98,91 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
     let mut objective = Expression::with_capacity(n);
     let mut constraints = Vec::new();
 
+    // Zones (model::zones): wᵢ_z per cell and zone with Σ_z wᵢ_z = xᵢ; cells a zone may not
+    // take, and cells outside every network, have wᵢ_z fixed at 0.
+    let w: Vec<Vec<Variable>> = match &problem.zoning {
+        None => Vec::new(),
+        Some(zoning) => (0..zoning.len())
+            .map(|z| {
+                (0..n)
+                    .map(|i| {
+                        let open =
+                            zoning.allowed[z][i] && problem.status[i] != CellStatus::Excluded;
+                        let def = if open {
+                            variable().binary()
+                        } else {
+                            variable().integer().min(0.0).max(0.0)
+                        };
+                        add(&mut vars, def, Col::W(z, i))
+                    })
+                    .collect()
+            })
+            .collect(),
+    };
+    if !w.is_empty() {
+        for (i, &xi) in x.iter().enumerate() {
+            let mut e = Expression::from(xi);
+            for wz in &w {
+                e.add_mul(-1.0, wz[i]);
+            }
+            constraints.push(constraint::eq(e, 0.0));
+        }
+    }
+    // What a network holds of feature k toward its target, and what it costs: per cell, or per
+    // cell and zone with the zone's credit and cost share.
     let amount_expr = |k: usize| -> Expression {
         let f = &problem.features[k];
         let mut e = Expression::with_capacity(f.amounts.len());
-        for &(c, a) in &f.amounts {
-            e.add_mul(a, x[c as usize]);
+        match &problem.zoning {
+            None => {
+                for &(c, a) in &f.amounts {
+                    e.add_mul(a, x[c as usize]);
+                }
+            }
+            Some(zoning) => {
+                for (z, wz) in w.iter().enumerate() {
+                    let r = zoning.credit[z][k];
+                    if r > 0.0 {
+                        for &(c, a) in &f.amounts {
+                            e.add_mul(r * a, wz[c as usize]);
+                        }
+                    }
+                }
+            }
         }
         e
     };
+    let cost_expr = |weights: &[f64]| -> Expression {
+        let mut e = Expression::with_capacity(n);
+        match &problem.zoning {
+            None => {
+                for (i, &xi) in x.iter().enumerate() {
+                    e.add_mul(weights[i], xi);
+                }
+            }
+            Some(zoning) => {
+                for (z, wz) in w.iter().enumerate() {
+                    for (i, &wi) in wz.iter().enumerate() {
+                        e.add_mul(zoning.cost_share[z] * weights[i], wi);
+                    }
+                }
+            }
+        }
+        e
+    };
+    if let Some(zoning) = &problem.zoning {
+        for t in &zoning.targets {
+            let mut e = Expression::with_capacity(problem.features[t.feature].amounts.len());
+            for &(c, a) in &problem.features[t.feature].amounts {
+                e.add_mul(a, w[t.zone][c as usize]);
+            }
+            constraints.push(constraint::geq(e, t.amount));
+        }
+    }
 
     match problem.objective {
         Objective::MinCost => {
-            for (i, &xi) in x.iter().enumerate() {
-                objective.add_mul(problem.cost[i], xi);
-            }
+            objective += cost_expr(&problem.cost);
             for (k, f) in problem.features.iter().enumerate() {
                 if f.target > 0.0 {
                     constraints.push(constraint::geq(amount_expr(k), f.target));
@@ -189,11 +262,21 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
             if l <= 0.0 {
                 continue;
             }
-            let (xi, xj) = (x[i as usize], x[j as usize]);
             let e = add(&mut vars, variable().min(0.0).max(1.0), Col::Z(q));
             objective.add_mul(sign * pen.weight * l, e);
-            constraints.push(constraint::leq(xi - xj - e, 0.0));
-            constraints.push(constraint::leq(xj - xi - e, 0.0));
+            // eᵢⱼ ≥ |xᵢ − xⱼ|; with zones, eᵢⱼ ≥ |wᵢ_z − wⱼ_z| for every zone, so an edge where
+            // two zones meet counts too (model::zones).
+            let sides: Vec<(Variable, Variable)> = if w.is_empty() {
+                vec![(x[i as usize], x[j as usize])]
+            } else {
+                w.iter()
+                    .map(|wz| (wz[i as usize], wz[j as usize]))
+                    .collect()
+            };
+            for (a, b) in sides {
+                constraints.push(constraint::leq(a - b - e, 0.0));
+                constraints.push(constraint::leq(b - a - e, 0.0));
+            }
         }
     }
 
@@ -265,19 +348,20 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
                     alt.weights(n)
                 }
             };
-            let mut second = Expression::with_capacity(n);
-            for (i, &xi) in x.iter().enumerate() {
-                second.add_mul(weights[i], xi);
-            }
+            let second = if problem.alternative.is_some() {
+                let mut e = Expression::with_capacity(n);
+                for (i, &xi) in x.iter().enumerate() {
+                    e.add_mul(weights[i], xi);
+                }
+                e
+            } else {
+                cost_expr(&weights)
+            };
             (second, true)
         }
     };
     if let Some(limit) = problem.budget.max_cost {
-        let mut e = Expression::with_capacity(n);
-        for (i, &xi) in x.iter().enumerate() {
-            e.add_mul(problem.cost[i], xi);
-        }
-        constraints.push(constraint::leq(e, limit));
+        constraints.push(constraint::leq(cost_expr(&problem.cost), limit));
     }
     if let Some(limit) = problem.budget.max_area_km2 {
         let mut e = Expression::with_capacity(n);
@@ -318,6 +402,8 @@ impl Formulation {
             .iter()
             .map(|c| match *c {
                 Col::X(i) => xv(i),
+                // Warm starts are for unzoned problems only (greedy assigns no zones).
+                Col::W(z, i) => f64::from(u8::from(z == 0 && selected[i])),
                 Col::Y(k) => e.protected[k].min(problem.features[k].benefit_cap().unwrap_or(0.0)),
                 Col::Z(q) => {
                     let (i, j, _) = problem
@@ -471,11 +557,12 @@ impl Solver for Highs {
             }
         }
         // Greedy knows no kept objective, so its network could break that row.
-        let warm = if self.warm_start && problem.keep_objective.is_none() {
-            greedy_network(&problem).ok()
-        } else {
-            None
-        };
+        let warm =
+            if self.warm_start && problem.keep_objective.is_none() && problem.zoning.is_none() {
+                greedy_network(&problem).ok()
+            } else {
+                None
+            };
         let form = formulate(&problem)?;
         let start = warm.as_ref().map(|w| form.start_values(&problem, w));
         let n_cols = form.n_cols();
@@ -576,12 +663,16 @@ impl Solver for Highs {
                 _ => None,
             })
             .collect();
+        let assignment = problem
+            .zoning
+            .as_ref()
+            .map(|z| zone_assignment(&cols, values, z.len()));
         let objective = solved.objective_value();
         let bound = solved
             .double_info_value(c"mip_dual_bound")
             .map_err(|e| SolveError::Solver(format!("HiGHS has no dual bound: {e:?}")))?;
         let gap = solved.mip_gap();
-        Ok(make_solution(
+        let solution = make_solution(
             &problem,
             selected,
             status,
@@ -590,8 +681,26 @@ impl Solver for Highs {
             gap,
             started,
             self.name(),
-        ))
+        );
+        Ok(match assignment {
+            None => solution,
+            Some(a) => super::with_zones(&problem, solution, a),
+        })
     }
+}
+
+/// The zone of each cell from the solved columns: 0 outside the network, 1 + z in zone z.
+fn zone_assignment(cols: &[Col], values: &[f64], n_zones: usize) -> Vec<u8> {
+    let n = cols.iter().filter(|c| matches!(c, Col::X(_))).count();
+    let mut out = vec![0u8; n];
+    for (c, v) in cols.iter().zip(values) {
+        if let Col::W(z, i) = *c {
+            if *v > 0.5 && z < n_zones {
+                out[i] = z as u8 + 1;
+            }
+        }
+    }
+    out
 }
 
 /// CBC through good_lp's coin_cbc backend: a second, independent MILP solver used to check

@@ -125,6 +125,8 @@ pub struct Solution {
     pub scenarios: Vec<ScenarioResult>,
     /// Bₛ* used for regret (least-regret problems; otherwise whatever the problem carried).
     pub scenario_best: Option<Vec<f64>>,
+    /// Zone of each cell for a zoned problem (`model::zones`: 0 outside, 1 + zone index).
+    pub zones: Option<Vec<u8>>,
 }
 
 /// One feature that cannot reach its target.
@@ -197,12 +199,28 @@ pub fn with_scenario_best(
 /// Heuristics search on the first objective only; a kept objective (lexicographic second
 /// stage, [`Problem::keep_objective`]) needs an exact solver.
 pub(crate) fn exact_only(problem: &Problem, solver: &str) -> Result<(), SolveError> {
+    if problem.zoning.is_some() {
+        return Err(SolveError::Model(ModelError::Combination(format!(
+            "`{solver}` does not assign zones; use the exact solver (HiGHS) or brute force"
+        ))));
+    }
     match problem.keep_objective {
         None => Ok(()),
         Some(_) => Err(SolveError::Model(ModelError::Combination(format!(
             "`{solver}` cannot hold a kept objective while minimising cost; use the exact \
              solver (HiGHS) or brute force"
         )))),
+    }
+}
+
+/// `solution` with its zone assignment (`model::zones`) and the per-scenario report of that
+/// assignment (`model::evaluate_zoned`).
+pub(crate) fn with_zones(problem: &Problem, solution: Solution, assignment: Vec<u8>) -> Solution {
+    let scenarios = crate::model::evaluate_zoned(problem, &assignment).scenarios;
+    Solution {
+        scenarios,
+        zones: Some(assignment),
+        ..solution
     }
 }
 
@@ -244,6 +262,7 @@ pub(crate) fn make_solution(
         solver: solver.to_string(),
         scenarios,
         scenario_best,
+        zones: None,
     }
 }
 
@@ -274,6 +293,7 @@ mod tests {
             solver: "highs".into(),
             scenarios: vec![],
             scenario_best: None,
+            zones: None,
         }
     }
 

@@ -17,3 +17,20 @@ pub use rank::{rank, Ranking};
 pub use replacement::{replacement_costs, Replacement};
 pub use stress::{single_scenario_problem, stress_test, StressMatrix, StressRow};
 pub use sweep::{parse_budgets, sweep, sweep_of, Sweep, SweepBudget, SweepRun};
+
+/// Studies score their networks with `model::evaluate`, which knows no zone assignment, so a
+/// zoned problem is refused with a clear word rather than scored as if unzoned.
+pub(crate) fn unzoned(
+    problem: &crate::model::Problem,
+    study: &str,
+) -> Result<(), crate::solve::SolveError> {
+    match problem.zoning {
+        None => Ok(()),
+        Some(_) => Err(crate::solve::SolveError::Model(
+            crate::model::ModelError::Combination(format!(
+                "{study} does not handle `[[zones]]` yet: `solve` assigns zones; remove the zones \
+             from the plan to run {study}"
+            )),
+        )),
+    }
+}

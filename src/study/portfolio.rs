@@ -101,6 +101,7 @@ pub fn portfolio(
     options: &SolveOptions,
     on_member: &dyn Fn(usize),
 ) -> Result<Portfolio, SolveError> {
+    super::unzoned(problem, "a portfolio")?;
     problem.validate()?;
     if !(within.is_finite() && within >= 0.0) {
         return Err(SolveError::Model(crate::model::ModelError::Combination(

@@ -81,6 +81,7 @@ pub fn rank(
     options: &SolveOptions,
     on_step: &dyn Fn(usize),
 ) -> Result<Ranking, SolveError> {
+    super::unzoned(problem, "the priority ranking")?;
     problem.validate()?;
     let started = std::time::Instant::now();
     let n = problem.n_cells();

@@ -57,6 +57,7 @@ pub fn replacement_costs(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Vec<Replacement>, SolveError> {
+    super::unzoned(problem, "replacement cost")?;
     problem.validate()?;
     let minimise = is_minimisation(problem);
     let one_thread = SolveOptions {
@@ -233,6 +234,7 @@ mod tests {
             solver: "highs".into(),
             scenarios: vec![],
             scenario_best: None,
+            zones: None,
         }
     }
 

@@ -70,6 +70,7 @@ pub fn stress_test(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<StressMatrix, SolveError> {
+    super::unzoned(problem, "the stress test")?;
     problem.validate()?;
     let one_thread = SolveOptions {
         threads: Some(1),

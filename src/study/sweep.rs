@@ -192,6 +192,7 @@ pub fn sweep_of(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Sweep, SolveError> {
+    super::unzoned(problem, "the budget sweep")?;
     problem.validate()?;
     // Required cells are in every network: a budget below their use cannot be solved, and
     // the planner needs to hear which budget and where to start instead.

@@ -1,0 +1,223 @@
+//! Management zones: the integer program against exhaustive enumeration of every zone
+//! assignment (solve::brute scores each with model::evaluate_zoned, which shares no
+//! formulation with the integer program), plus a case worked by hand.
+
+use driftplan::model::{
+    evaluate_zoned, Budget, CellStatus, EdgePenalty, ModelFeature, Objective, Problem, Robustness,
+    Scenario, ZoneTarget, Zoning,
+};
+use driftplan::solve::brute::BruteForce;
+use driftplan::solve::ilp::Highs;
+use driftplan::solve::{SolveOptions, Solver};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+
+/// A 2 × 4 grid of unit cells (cell = row·4 + col), rook pairs of 1 km, 4 km of edge each alone.
+fn unit_penalty(weight: f64) -> EdgePenalty {
+    let mut pairs = Vec::new();
+    for r in 0..2u32 {
+        for c in 0..4u32 {
+            let i = r * 4 + c;
+            if c < 3 {
+                pairs.push((i, i + 1, 1.0));
+            }
+            if r == 0 {
+                pairs.push((i, i + 4, 1.0));
+            }
+        }
+    }
+    EdgePenalty {
+        weight,
+        pairs,
+        exposed_if_alone_km: vec![4.0; 8],
+    }
+}
+
+fn instance(seed: u64, objective: Objective) -> Problem {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let n = 8;
+    let features: Vec<ModelFeature> = (0..3)
+        .map(|k| {
+            let mut amounts: Vec<(u32, f64)> = Vec::new();
+            for c in 0..n as u32 {
+                if rng.gen_bool(0.6) {
+                    amounts.push((c, rng.gen_range(1..=5) as f64));
+                }
+            }
+            let total: f64 = amounts.iter().map(|a| a.1).sum();
+            ModelFeature {
+                name: format!("f{k}"),
+                scenario: None,
+                amounts,
+                target: (0.35 * total).max(1.0),
+                weight: 1.0,
+            }
+        })
+        .collect();
+    let mut allowed = vec![vec![true; n], vec![true; n]];
+    allowed[1][rng.gen_range(0..n)] = false; // one cell may not be partial-use
+    let mut status = vec![CellStatus::Free; n];
+    status[rng.gen_range(0..n)] = CellStatus::Required;
+    let first = &features[0];
+    let zoning = Zoning {
+        names: vec!["no-take".into(), "partial-use".into()],
+        cost_share: vec![1.0, 0.4],
+        credit: vec![vec![1.0; 3], vec![0.5, 0.3, 0.6]],
+        allowed,
+        // At least 20 % of f0 in no-take.
+        targets: vec![ZoneTarget {
+            zone: 0,
+            feature: 0,
+            amount: 0.2 * first.amounts.iter().map(|a| a.1).sum::<f64>(),
+        }],
+    };
+    Problem {
+        cost: (0..n).map(|_| rng.gen_range(1..=9) as f64).collect(),
+        area_km2: vec![1.0; n],
+        status,
+        scenarios: vec![Scenario {
+            name: "s".into(),
+            weight: 1.0,
+        }],
+        features,
+        objective,
+        robustness: Robustness::EveryScenario,
+        budget: Budget {
+            max_cost: (objective == Objective::MaxBenefit).then_some(12.0),
+            max_area_km2: None,
+        },
+        edge_penalty: Some(unit_penalty(0.5)),
+        spacing: None,
+        scenario_best: None,
+        min_reserve: None,
+        keep_objective: None,
+        alternative: None,
+        zoning: Some(zoning),
+    }
+}
+
+fn opts() -> SolveOptions {
+    SolveOptions {
+        threads: Some(1),
+        ..SolveOptions::default()
+    }
+}
+
+#[test]
+fn zoned_optimum_equals_enumeration_of_every_assignment() {
+    let mut solved = 0;
+    let mut used_partial = 0;
+    for objective in [Objective::MinCost, Objective::MaxBenefit] {
+        for seed in 0..6 {
+            let p = instance(seed, objective);
+            let brute = BruteForce.solve(&p, &opts());
+            let highs = Highs::default().solve(&p, &opts());
+            match (brute, highs) {
+                (Ok(b), Ok(h)) => {
+                    let zones = h.zones.clone().expect("a zoned solve returns zones");
+                    let e = evaluate_zoned(&p, &zones);
+                    assert!(e.feasible, "{objective:?} seed {seed}");
+                    assert!(
+                        (e.objective - b.objective).abs() < 1e-6,
+                        "{objective:?} seed {seed}: HiGHS {} vs enumeration {}",
+                        e.objective,
+                        b.objective
+                    );
+                    assert!((h.objective - b.objective).abs() < 1e-6);
+                    solved += 1;
+                    used_partial += usize::from(zones.contains(&2));
+                    // Selected flags agree with the zones.
+                    for (s, z) in h.selected.iter().zip(&zones) {
+                        assert_eq!(*s, *z > 0);
+                    }
+                }
+                (Err(_), Err(_)) => {}
+                (b, h) => panic!(
+                    "{objective:?} seed {seed}: enumeration {:?} vs HiGHS {:?}",
+                    b.map(|s| s.objective),
+                    h.map(|s| s.objective)
+                ),
+            }
+        }
+    }
+    // The instances exercise the zones: most solve, and partial use is chosen in some.
+    assert!(
+        solved >= 8 && used_partial >= 2,
+        "{solved} solved, {used_partial} with partial use"
+    );
+}
+
+#[test]
+fn partial_use_is_chosen_where_its_credit_suffices_by_hand() {
+    // Two cells, one feature of 10 in each, target 10, cost 10 each; partial use pays 40 % and
+    // counts half. Hand: both cells partial-use hold 5 + 5 = 10 for 4 + 4 = 8, cheaper than one
+    // no-take cell (10); a no-take zone target of 5 rules that out, and one no-take cell alone
+    // (10, holding 10) is then cheapest: no-take + partial use costs 14, two no-take cells 20.
+    let mut p = Problem {
+        cost: vec![10.0, 10.0],
+        area_km2: vec![1.0, 1.0],
+        status: vec![CellStatus::Free; 2],
+        scenarios: vec![Scenario {
+            name: "s".into(),
+            weight: 1.0,
+        }],
+        features: vec![ModelFeature {
+            name: "f".into(),
+            scenario: None,
+            amounts: vec![(0, 10.0), (1, 10.0)],
+            target: 10.0,
+            weight: 1.0,
+        }],
+        objective: Objective::MinCost,
+        robustness: Robustness::EveryScenario,
+        budget: Budget::default(),
+        edge_penalty: None,
+        spacing: None,
+        scenario_best: None,
+        min_reserve: None,
+        keep_objective: None,
+        alternative: None,
+        zoning: Some(Zoning {
+            names: vec!["no-take".into(), "partial-use".into()],
+            cost_share: vec![1.0, 0.4],
+            credit: vec![vec![1.0], vec![0.5]],
+            allowed: vec![vec![true; 2], vec![true; 2]],
+            targets: vec![],
+        }),
+    };
+    let s = Highs::default().solve(&p, &opts()).unwrap();
+    assert!((s.objective - 8.0).abs() < 1e-6);
+    assert_eq!(s.zones.as_deref(), Some(&[2u8, 2][..]));
+    p.zoning.as_mut().unwrap().targets.push(ZoneTarget {
+        zone: 0,
+        feature: 0,
+        amount: 5.0,
+    });
+    let s = Highs::default().solve(&p, &opts()).unwrap();
+    assert!((s.objective - 10.0).abs() < 1e-6);
+    let mut z = s.zones.unwrap();
+    z.sort();
+    assert_eq!(z, vec![0, 1]);
+}
+
+#[test]
+fn a_boundary_between_zones_is_edge_too() {
+    // Hand, on the 2 × 4 unit grid: cells 0 and 1 chosen in different zones expose 4 + 4 − 1
+    // (their shared edge counts once, where the zones meet) = 7 km, against 6 km in one zone.
+    let pen = unit_penalty(1.0);
+    let mut a = vec![0u8; 8];
+    a[0] = 1;
+    a[1] = 2;
+    assert_eq!(
+        driftplan::model::compact::exposed_edge_zoned_km(&pen, &a),
+        7.0
+    );
+    a[1] = 1;
+    assert_eq!(
+        driftplan::model::compact::exposed_edge_zoned_km(&pen, &a),
+        6.0
+    );
+    // One zone: the same as the unzoned cut form (Beyer et al. 2016 in model::compact).
+    let sel: Vec<bool> = a.iter().map(|v| *v > 0).collect();
+    assert_eq!(driftplan::model::compact::exposed_edge_km(&pen, &sel), 6.0);
+}
