@@ -260,9 +260,9 @@ fn ranking_is_nested_and_each_step_is_the_best_containing_the_last() {
             }
             previous = sel.clone();
         }
-        for i in 0..N {
-            if !previous[i] {
-                assert_eq!(r.rank[i], None);
+        for (chosen, rank) in previous.iter().zip(&r.rank) {
+            if !chosen {
+                assert_eq!(*rank, None);
             }
         }
     }

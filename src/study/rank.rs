@@ -84,7 +84,6 @@ pub fn rank(
     super::unzoned(problem, "the priority ranking")?;
     problem.validate()?;
     let started = std::time::Instant::now();
-    let n = problem.n_cells();
     let mut rank: Vec<Option<u32>> = problem
         .status
         .iter()
@@ -95,12 +94,15 @@ pub fn rank(
     for (k, &share) in shares.iter().enumerate() {
         let run = solve_at_budget(&current, share, of, options)?;
         let mut added = 0;
-        for i in 0..n {
-            if run.solution.selected[i] && rank[i].is_none() {
-                rank[i] = Some(k as u32 + 1);
+        for (i, r) in rank.iter_mut().enumerate() {
+            if !run.solution.selected[i] {
+                continue;
+            }
+            if r.is_none() {
+                *r = Some(k as u32 + 1);
                 added += 1;
             }
-            if run.solution.selected[i] && current.status[i] == CellStatus::Free {
+            if current.status[i] == CellStatus::Free {
                 current.status[i] = CellStatus::Required;
             }
         }
