@@ -4,7 +4,7 @@
 //! recomputed here from first principles.
 
 use driftplan::model::{
-    evaluate, Budget, CellStatus, ModelFeature, Objective, Problem, Robustness, Scenario,
+    evaluate, CellStatus, ModelFeature, Objective, Problem, Robustness, Scenario,
 };
 use driftplan::solve::SolveOptions;
 use driftplan::study::{portfolio, rank, replacement_costs, SweepBudget};
@@ -36,11 +36,10 @@ fn instance(seed: u64) -> Problem {
             });
         }
     }
-    Problem {
-        cost: (0..N).map(|_| rng.gen_range(1..=9) as f64).collect(),
-        area_km2: (0..N).map(|_| rng.gen_range(5..=15) as f64).collect(),
-        status: vec![CellStatus::Free; N],
-        scenarios: ["s1", "s2"]
+    Problem::plain(
+        (0..N).map(|_| rng.gen_range(1..=9) as f64).collect(),
+        (0..N).map(|_| rng.gen_range(5..=15) as f64).collect(),
+        ["s1", "s2"]
             .iter()
             .map(|s| Scenario {
                 name: s.to_string(),
@@ -48,17 +47,9 @@ fn instance(seed: u64) -> Problem {
             })
             .collect(),
         features,
-        objective: Objective::MinCost,
-        robustness: Robustness::EveryScenario,
-        budget: Budget::default(),
-        edge_penalty: None,
-        spacing: None,
-        scenario_best: None,
-        min_reserve: None,
-        keep_objective: None,
-        alternative: None,
-        zoning: None,
-    }
+        Objective::MinCost,
+        Robustness::EveryScenario,
+    )
 }
 
 fn opts(threads: u32) -> SolveOptions {

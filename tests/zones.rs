@@ -71,28 +71,26 @@ fn instance(seed: u64, objective: Objective) -> Problem {
             amount: 0.2 * first.amounts.iter().map(|a| a.1).sum::<f64>(),
         }],
     };
+    let cost = (0..n).map(|_| rng.gen_range(1..=9) as f64).collect();
     Problem {
-        cost: (0..n).map(|_| rng.gen_range(1..=9) as f64).collect(),
-        area_km2: vec![1.0; n],
         status,
-        scenarios: vec![Scenario {
-            name: "s".into(),
-            weight: 1.0,
-        }],
-        features,
-        objective,
-        robustness: Robustness::EveryScenario,
         budget: Budget {
             max_cost: (objective == Objective::MaxBenefit).then_some(12.0),
             max_area_km2: None,
         },
         edge_penalty: Some(unit_penalty(0.5)),
-        spacing: None,
-        scenario_best: None,
-        min_reserve: None,
-        keep_objective: None,
-        alternative: None,
         zoning: Some(zoning),
+        ..Problem::plain(
+            cost,
+            vec![1.0; n],
+            vec![Scenario {
+                name: "s".into(),
+                weight: 1.0,
+            }],
+            features,
+            objective,
+            Robustness::EveryScenario,
+        )
     }
 }
 
@@ -154,29 +152,6 @@ fn partial_use_is_chosen_where_its_credit_suffices_by_hand() {
     // no-take cell (10); a no-take zone target of 5 rules that out, and one no-take cell alone
     // (10, holding 10) is then cheapest: no-take + partial use costs 14, two no-take cells 20.
     let mut p = Problem {
-        cost: vec![10.0, 10.0],
-        area_km2: vec![1.0, 1.0],
-        status: vec![CellStatus::Free; 2],
-        scenarios: vec![Scenario {
-            name: "s".into(),
-            weight: 1.0,
-        }],
-        features: vec![ModelFeature {
-            name: "f".into(),
-            scenario: None,
-            amounts: vec![(0, 10.0), (1, 10.0)],
-            target: 10.0,
-            weight: 1.0,
-        }],
-        objective: Objective::MinCost,
-        robustness: Robustness::EveryScenario,
-        budget: Budget::default(),
-        edge_penalty: None,
-        spacing: None,
-        scenario_best: None,
-        min_reserve: None,
-        keep_objective: None,
-        alternative: None,
         zoning: Some(Zoning {
             names: vec!["no-take".into(), "partial-use".into()],
             cost_share: vec![1.0, 0.4],
@@ -184,6 +159,23 @@ fn partial_use_is_chosen_where_its_credit_suffices_by_hand() {
             allowed: vec![vec![true; 2], vec![true; 2]],
             targets: vec![],
         }),
+        ..Problem::plain(
+            vec![10.0, 10.0],
+            vec![1.0, 1.0],
+            vec![Scenario {
+                name: "s".into(),
+                weight: 1.0,
+            }],
+            vec![ModelFeature {
+                name: "f".into(),
+                scenario: None,
+                amounts: vec![(0, 10.0), (1, 10.0)],
+                target: 10.0,
+                weight: 1.0,
+            }],
+            Objective::MinCost,
+            Robustness::EveryScenario,
+        )
     };
     let s = Highs::default().solve(&p, &opts()).unwrap();
     assert!((s.objective - 8.0).abs() < 1e-6);

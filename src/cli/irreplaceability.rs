@@ -25,6 +25,12 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
+    if let Some(t) = a.per_solve_limit {
+        anyhow::ensure!(
+            t.is_finite() && t > 0.0,
+            "--per-solve-limit must be a positive number of seconds, got {t}"
+        );
+    }
     let plan = load_with(&a.plan, &a.solver)?;
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
@@ -52,16 +58,9 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             .collect()
     };
     let rounds = time::parallel_rounds(units.len(), time::workers());
-    let per = match a.per_solve_limit {
-        Some(t) => {
-            anyhow::ensure!(
-                t.is_finite() && t > 0.0,
-                "--per-solve-limit must be a positive number of seconds, got {t}"
-            );
-            Some(t)
-        }
-        None => clock.options(&options, 1.0, rounds).time_limit_s,
-    };
+    let per = a
+        .per_solve_limit
+        .or_else(|| clock.options(&options, 1.0, rounds).time_limit_s);
     progress.say(&format!(
         "irreplaceability: {} re-solve{} with each {} forbidden{}",
         units.len(),

@@ -185,6 +185,36 @@ impl ModelFeature {
 }
 
 impl Problem {
+    /// A problem with only its essentials: every cell free, no budget, and none of the optional
+    /// rules (edge penalty, max gap, minimum size, kept objective, alternative, zones). Callers
+    /// set what they need with struct update syntax (`Problem { budget, ..Problem::plain(…) }`).
+    pub fn plain(
+        cost: Vec<f64>,
+        area_km2: Vec<f64>,
+        scenarios: Vec<Scenario>,
+        features: Vec<ModelFeature>,
+        objective: Objective,
+        robustness: Robustness,
+    ) -> Problem {
+        Problem {
+            status: vec![CellStatus::Free; cost.len()],
+            cost,
+            area_km2,
+            scenarios,
+            features,
+            objective,
+            robustness,
+            budget: Budget::default(),
+            edge_penalty: None,
+            spacing: None,
+            min_reserve: None,
+            scenario_best: None,
+            keep_objective: None,
+            alternative: None,
+            zoning: None,
+        }
+    }
+
     /// Number of cells (decision variables before auxiliaries).
     pub fn n_cells(&self) -> usize {
         self.cost.len()
