@@ -6,6 +6,7 @@ use clap::Parser;
 
 fn main() {
     let args = cli::Args::parse();
+    stop_cleanly_on_signals();
     match cli::run(args) {
         Ok(()) => {}
         Err(e) => {
@@ -13,6 +14,25 @@ fn main() {
             std::process::exit(exit_code(&e));
         }
     }
+}
+
+/// On SIGINT or SIGTERM: remove the staging folders of runs in progress (the earlier run in
+/// each output folder stays whole), then exit with the conventional 128 + signal number (130,
+/// 143). A signal arriving while a run moves its files into place waits for the move.
+fn stop_cleanly_on_signals() {
+    use signal_hook::consts::{SIGINT, SIGTERM};
+    let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) else {
+        // Without a handler the default applies: the process stops and the next run into the
+        // folder removes the staging folder left behind.
+        return;
+    };
+    std::thread::spawn(move || {
+        if let Some(sig) = signals.forever().next() {
+            eprintln!("\nstopped by signal {sig}: removing this run's unfinished outputs");
+            driftplan::export::run_folder::abandon_all();
+            std::process::exit(128 + sig);
+        }
+    });
 }
 
 /// 3 when the plan's targets cannot all be reached (README, "Exit codes"), else 1 (a bad plan or

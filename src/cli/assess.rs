@@ -47,7 +47,9 @@ fn assess(
     solver: &SolverArgs,
     progress: &Progress,
 ) -> Result<()> {
+    let mut run = export::RunFolder::begin(out, "assess")?;
     let plan = load(plan_path)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let selected = read_network(network, &inputs, min_share)?;
     let a = pipeline::assess_network(&inputs, &selected);
@@ -88,7 +90,8 @@ fn assess(
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
     }
-    export::write_outputs(out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     println!(
         "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} targets reached",
         a.cells_selected,

@@ -69,7 +69,9 @@ fn compare(
         names.len(),
         networks.len()
     );
+    let mut run = export::RunFolder::begin(out, "compare")?;
     let plan = load(plan_path)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let mut given = Vec::new();
     for (i, path) in networks.iter().enumerate() {
@@ -130,7 +132,8 @@ fn compare(
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
     }
-    export::write_outputs(out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     print!("{}", driftplan::compare::compare_table(&cmp));
     if let Some(m) = &matrix {
         println!(

@@ -18,18 +18,21 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
-    let plan_path = driftplan::demo::write(&args.out)
+    let mut run = driftplan::export::RunFolder::begin(&args.out, "demo")?;
+    let (plan_path, written) = driftplan::demo::write(&args.out)
         .with_context(|| format!("writing the demo files under {}", args.out.display()))?;
+    run.add_inputs(written);
     progress.say(&format!(
         "wrote the invented Merrow Coast demo data and plan {}",
         plan_path.display()
     ));
     if args.data_only {
+        run.finish("data only")?;
         return Ok(());
     }
     super::solve::solve(
         &plan_path,
-        &args.out,
+        run,
         &args.solver,
         false,
         super::solve::Outputs::default(),

@@ -16,7 +16,9 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
+    let mut run = export::RunFolder::begin(&args.out, "features")?;
     let plan = load(&args.plan)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let none = vec![false; inputs.grid.len()];
     let files = vec![
@@ -40,7 +42,8 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             export::edge_shifts_csv(&inputs.edge_shifts)?,
         ),
     ];
-    export::write_outputs(&args.out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     progress.say(&format!(
         "wrote cells.geojson, cells.csv and features.csv to {}",
         args.out.display()

@@ -16,7 +16,9 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
+    let mut run = export::RunFolder::begin(&args.out, "grid")?;
     let plan = load(&args.plan)?;
+    run.set_plan(&plan.file, &plan.hash);
     let grid = pipeline::grid(&plan)?;
     progress.say(&format!(
         "grid: {} cells, {:.0} km² of sea",
@@ -35,7 +37,8 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             export::cells_csv(&grid, &[], &empty, &none, None)?,
         ),
     ];
-    export::write_outputs(&args.out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     progress.say(&format!(
         "wrote grid.geojson and grid.csv to {}",
         args.out.display()

@@ -31,7 +31,9 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             "--per-solve-limit must be a positive number of seconds, got {t}"
         );
     }
+    let mut run = export::RunFolder::begin(&a.out, "irreplaceability")?;
     let plan = load_with(&a.plan, &a.solver)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, &a.solver)?;
@@ -130,7 +132,8 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             )?,
         ),
     ];
-    export::write_outputs(&a.out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     println!(
         "{:<14} {:>6} {:>14}  status",
         "unit", "cells", "replacement"

@@ -23,6 +23,7 @@ mod portfolio;
 mod rank;
 mod solve;
 mod sweep;
+mod verify;
 
 /// Plan marine protected area networks that keep protecting species as their ranges shift
 /// poleward under several warming scenarios.
@@ -113,6 +114,14 @@ enum Command {
     /// replacement cost with the interval it lies in, status, gap), network.geojson and
     /// report.html. A unit without which no network meets every rule is irreplaceable.
     Irreplaceability(irreplaceability::Args),
+    /// Say whether an output folder holds one complete run, whole.
+    ///
+    /// Every command writes its outputs into a staging folder inside --out and moves them into
+    /// place only when all are written, then writes run.json last (each file's size and
+    /// SHA-256, the plan hash, the driftplan version). verify checks every file against
+    /// run.json; with --plan, also that the run is of that plan as it is now. Exit code 0: one
+    /// complete run; 1: not (the reasons are listed).
+    Verify(verify::Args),
 }
 
 /// Runs one command.
@@ -131,6 +140,7 @@ pub fn run(args: Args) -> Result<()> {
         Command::Portfolio(a) => portfolio::run(a, &progress),
         Command::Rank(a) => rank::run(a, &progress),
         Command::Irreplaceability(a) => irreplaceability::run(a, &progress),
+        Command::Verify(a) => verify::run(a),
     }
 }
 

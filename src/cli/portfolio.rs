@@ -43,7 +43,9 @@ pub(crate) fn parse_share(text: &str, flag: &str) -> Result<f64> {
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     let within = parse_share(&a.within, "--within")?;
     anyhow::ensure!(a.count >= 1, "--count must be at least 1");
+    let mut run = export::RunFolder::begin(&a.out, "portfolio")?;
     let plan = load_with(&a.plan, &a.solver)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     // Members are solved one after the other; each gets an equal part of the time.
@@ -170,10 +172,11 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         .iter()
         .map(|(n, t)| (n.as_str(), t.clone()))
         .collect();
-    export::write_outputs(&a.out.join("networks"), &net_refs)?;
+    export::write_outputs(&run.dir().join("networks"), &net_refs)?;
     let file_refs: Vec<(&str, String)> =
         files.iter().map(|(n, t)| (n.as_str(), t.clone())).collect();
-    export::write_outputs(&a.out, &file_refs)?;
+    export::write_outputs(run.dir(), &file_refs)?;
+    run.finish("done")?;
     println!(
         "{:<10} {:>12} {:>10} {:>6}  differs",
         "member", "objective", "cost", "cells"

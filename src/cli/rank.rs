@@ -29,7 +29,9 @@ pub(crate) struct Args {
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     anyhow::ensure!(a.steps >= 1, "--steps must be at least 1");
+    let mut run = export::RunFolder::begin(&a.out, "rank")?;
     let plan = load_with(&a.plan, &a.solver)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, &a.solver)?;
@@ -130,7 +132,8 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             )?,
         ),
     ];
-    export::write_outputs(&a.out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     println!(
         "{:>5} {:>8} {:>10} {:>9} {:>6}  {:<10} gap",
         "step", "budget", "cost", "targets", "added", "status"

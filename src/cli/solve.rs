@@ -45,9 +45,10 @@ pub(crate) struct Args {
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
+    let run = export::RunFolder::begin(&args.out, "solve")?;
     solve(
         &args.plan,
-        &args.out,
+        run,
         &args.solver,
         args.no_stress,
         Outputs {
@@ -58,16 +59,17 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
     )
 }
 
-/// Solves the plan at `plan_path` into `out` (shared with `demo`).
+/// Solves the plan at `plan_path` into the run folder `run` (shared with `demo`).
 pub(crate) fn solve(
     plan_path: &Path,
-    out: &Path,
+    mut run: export::RunFolder,
     solver: &SolverArgs,
     no_stress: bool,
     outputs: Outputs,
     progress: &Progress,
 ) -> Result<()> {
     let plan = load_with(plan_path, solver)?;
+    run.set_plan(&plan.file, &plan.hash);
     let mut inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     for note in pipeline::input_notes(&inputs) {
         progress.say(&note);
@@ -119,7 +121,7 @@ pub(crate) fn solve(
         )) => {
             spinner.finish_and_clear();
             return Err(cannot_be_reached(
-                &plan, &problem, &clock, &options, &e, out, progress,
+                &plan, &problem, &clock, &options, &e, run, progress,
             )?);
         }
         Err(e) => return Err(e.into()),
@@ -151,7 +153,7 @@ pub(crate) fn solve(
         &inputs,
         &solution,
         &assessment,
-        out,
+        run.dir(),
         outputs,
         progress,
     )?;
@@ -175,14 +177,16 @@ pub(crate) fn solve(
     if let Some(z) = &zone_shares {
         files.push(("zones.csv", driftplan::assess::zones::zones_csv(z)));
     }
-    export::write_outputs(out, &files)?;
+    export::write_outputs(run.dir(), &files)?;
+    let out = run.out().to_path_buf();
+    run.finish("done")?;
     print_summary(
         &plan,
         &inputs,
         &solution,
         &assessment,
         zone_shares.as_deref(),
-        out,
+        &out,
     );
     if let Some(m) = &matrix {
         println!(
@@ -195,6 +199,8 @@ pub(crate) fn solve(
             println!("    {line}");
         }
     }
+    println!("{}", export::CAUTION);
+    println!("open {}", out.join("report.html").display());
     Ok(())
 }
 
@@ -206,7 +212,7 @@ fn cannot_be_reached(
     clock: &TimeBudget,
     options: &SolveOptions,
     error: &SolveError,
-    out: &Path,
+    run: export::RunFolder,
     progress: &Progress,
 ) -> Result<anyhow::Error> {
     if problem.objective != driftplan::model::Objective::MinCost {
@@ -214,7 +220,9 @@ fn cannot_be_reached(
     }
     progress.say("the targets cannot all be reached: finding the best each target can reach and the cheapest network that meets them all");
     let d = diagnose_budget(problem, &clock.options(options, 1.0, 1))?;
-    export::write_outputs(out, &[("diagnosis.csv", diagnosis_csv(&d))])?;
+    export::write_outputs(run.dir(), &[("diagnosis.csv", diagnosis_csv(&d))])?;
+    let out = run.out().to_path_buf();
+    run.finish("targets cannot be reached")?;
     let keys: Vec<String> = [
         plan.budget
             .max_cost
@@ -276,11 +284,6 @@ fn write_solution(
             )?,
         ));
     } else {
-        // A cells.geojson of an earlier run would no longer match this network.
-        let stale = out.join("cells.geojson");
-        if stale.exists() {
-            std::fs::remove_file(&stale)?;
-        }
         progress.say(&format!(
             "cells.geojson not written: {} cells is over {} (it would be hundreds of MB); cells.csv has the same values, or pass --cells-geojson",
             inputs.grid.len(),
@@ -415,5 +418,4 @@ fn print_summary(
         );
     }
     println!("  outputs     {}", out.display());
-    println!("Decision support only: results rest on projections with large uncertainty; siting decisions rest with the planning authority, local law and consultation with those who use the sea.");
 }

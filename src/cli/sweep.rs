@@ -46,7 +46,9 @@ fn sweep(
 ) -> Result<()> {
     let shares =
         driftplan::study::parse_budgets(budgets).map_err(|e| anyhow::anyhow!("--budgets: {e}"))?;
+    let mut run = export::RunFolder::begin(out, "sweep")?;
     let plan = load_with(plan_path, solver)?;
+    run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
@@ -199,8 +201,9 @@ fn sweep(
         .iter()
         .map(|(n, t)| (n.as_str(), t.clone()))
         .collect();
-    export::write_outputs(&out.join("networks"), &network_files)?;
-    export::write_outputs(out, &files)?;
+    export::write_outputs(&run.dir().join("networks"), &network_files)?;
+    export::write_outputs(run.dir(), &files)?;
+    run.finish("done")?;
     println!(
         "{:>8} {:>10} {:>12} {:>9}  {:<10} gap",
         "budget", "cost", "objective", "targets", "status"

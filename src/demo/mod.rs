@@ -879,8 +879,10 @@ gap = 0.005
     t
 }
 
-/// Writes every demo file under `dir` (creating folders) and returns the plan file's path.
-pub fn write(dir: &Path) -> std::io::Result<PathBuf> {
+/// Writes every demo file under `dir` (creating folders) and returns the plan file's path and
+/// every file written, relative to `dir` and `/`-separated.
+pub fn write(dir: &Path) -> std::io::Result<(PathBuf, Vec<String>)> {
+    let mut written = Vec::new();
     for (rel, text) in generate()? {
         let path = dir.join(&rel);
         if let Some(parent) = path.parent() {
@@ -889,8 +891,9 @@ pub fn write(dir: &Path) -> std::io::Result<PathBuf> {
         let tmp = path.with_extension("tmp-write");
         std::fs::write(&tmp, text)?;
         std::fs::rename(&tmp, &path)?;
+        written.push(rel.to_string_lossy().replace('\\', "/"));
     }
-    Ok(dir.join("scenarios").join("demo.toml"))
+    Ok((dir.join("scenarios").join("demo.toml"), written))
 }
 
 #[cfg(test)]

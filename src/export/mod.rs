@@ -11,11 +11,13 @@ mod features_table;
 pub mod geojson;
 pub mod gpkg;
 mod rings;
+pub mod run_folder;
 pub mod summary;
 pub mod table;
 
 pub use atomic::write_atomic;
 pub use features_table::{edge_shifts_csv, features_csv};
+pub use run_folder::{verify, RunFolder};
 /// Above this many cells `solve` writes cells.geojson only when asked (`--cells-geojson`): at
 /// ~8 KB a cell it is ~170 MB at 20 000 cells, and cells.csv holds the same values.
 pub const CELLS_GEOJSON_MAX_CELLS: usize = 20_000;
