@@ -733,6 +733,26 @@ fn tiny_time_limit_reports_time_limit_or_optimal() {
 }
 
 #[test]
+fn a_limit_spent_before_the_model_is_built_returns_the_greedy_network_unproven() {
+    // A limit far below what the warm start takes: the solve must not overrun it by building
+    // and solving the integer program, and still returns a network meeting every target — the
+    // greedy one, as the greedy solver alone finds it — with no bound claimed.
+    let p = medium(3, 15, 15, 20, 1.0);
+    let o = SolveOptions {
+        time_limit_s: Some(1e-9),
+        ..opts()
+    };
+    let s = Highs::default().solve(&p, &o).unwrap();
+    assert_eq!(s.status, SolveStatus::TimeLimit);
+    assert!(s.bound.is_nan() && s.gap.is_nan(), "{s:?}");
+    let g = Greedy.solve(&p, &opts()).unwrap();
+    assert_eq!(s.selected, g.selected);
+    let e = evaluate(&p, &s.selected);
+    assert!(e.feasible);
+    assert!(close(e.objective, s.objective));
+}
+
+#[test]
 fn heuristics_are_deterministic() {
     // Same seed → same network (ChaCha8 stream); the greedy has no randomness at all.
     let p = medium(5, 8, 8, 6, 0.2);

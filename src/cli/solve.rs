@@ -75,6 +75,8 @@ pub(crate) fn solve(
         progress.say(&note);
     }
     pipeline::check_budget(&plan, &inputs)?;
+    // One time limit for every solve of the command (solve::time), building the model included.
+    let clock = TimeBudget::start(plan.solver.time_limit_s);
     let mut problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
     // The stress test scores networks without their zones, so a zoned plan skips it.
@@ -88,8 +90,6 @@ pub(crate) fn solve(
     } else {
         problem.scenarios.len()
     };
-    // One time limit for every solve of the command (solve::time).
-    let clock = TimeBudget::start(plan.solver.time_limit_s);
     let main = clock.options(&options, time::main_solve_share(stress_solves), 1);
     progress.say(&format!(
         "optimising with HiGHS: {} cells, {} feature targets; {}; this solve at most {:.0} s{}",

@@ -563,6 +563,14 @@ impl Solver for Highs {
             } else {
                 None
             };
+        let spent = |t: f64| started.elapsed().as_secs_f64() >= t;
+        if let (Some(t), Some(w)) = (options.time_limit_s, &warm) {
+            if spent(t) {
+                // The limit went on Bₛ* solves and the warm start: return that network rather
+                // than overrun by building the model.
+                return Ok(unproven(&problem, w.clone(), started, self.name()));
+            }
+        }
         let form = formulate(&problem)?;
         let start = warm.as_ref().map(|w| form.start_values(&problem, w));
         let n_cols = form.n_cols();
@@ -597,7 +605,9 @@ impl Solver for Highs {
         if let Some(t) = options.time_limit_s {
             // The limit covers this whole call: what Bₛ* solves and building the model used is
             // taken off (solve::time).
-            let left = (t - started.elapsed().as_secs_f64()).max(super::time::MIN_SOLVE_S);
+            // The floor is only what HiGHS needs to take the warm start as its incumbent; a
+            // network is returned even if it finds nothing better (below).
+            let left = (t - started.elapsed().as_secs_f64()).max(super::time::MIN_HIGHS_S);
             model
                 .try_set_option("time_limit", left)
                 .map_err(highs_err("time_limit"))?;
@@ -649,6 +659,9 @@ impl Solver for Highs {
             }
         };
         if solved.primal_solution_status() != HighsSolutionStatus::Feasible {
+            if let (SolveStatus::TimeLimit, Some(w)) = (status, warm) {
+                return Ok(unproven(&problem, w, started, self.name()));
+            }
             return Err(SolveError::Solver(
                 "HiGHS stopped before finding any network; raise the time limit".into(),
             ));
@@ -687,6 +700,22 @@ impl Solver for Highs {
             Some(a) => super::with_zones(&problem, solution, a),
         })
     }
+}
+
+/// The warm-start network as a time-limited answer with no proven bound (the limit ran out
+/// before HiGHS had one).
+fn unproven(problem: &Problem, selected: Vec<bool>, started: Instant, solver: &str) -> Solution {
+    let objective = crate::model::evaluate(problem, &selected).objective;
+    make_solution(
+        problem,
+        selected,
+        SolveStatus::TimeLimit,
+        objective,
+        f64::NAN,
+        f64::NAN,
+        started,
+        solver,
+    )
 }
 
 /// The zone of each cell from the solved columns: 0 outside the network, 1 + z in zone z.

@@ -12,8 +12,13 @@
 //! * Solves that run side by side (stress test, sweep) share a stage in rounds: with n solves
 //!   on w workers each solve gets the stage's time ÷ ⌈n / w⌉ ([`parallel_rounds`]).
 //!
-//! Every solve gets at least [`MIN_SOLVE_S`], so a command can overrun its limit by a few
-//! seconds when the limit is spent; the time taken to read the inputs is not counted.
+//! Every solve of a study gets at least [`MIN_SOLVE_S`], so a study can overrun its limit by a
+//! few seconds when the limit is spent. Reading the inputs and deriving the features is not
+//! counted; building the model is: the clock starts before the integer program is built, and
+//! HiGHS gets what is left of a solve's limit after its model is built (at least
+//! [`MIN_HIGHS_S`]). What cannot be interrupted: building the integer program (one pass over the
+//! features and edges, seconds at 100 000 cells) and HiGHS's presolve; a solve whose limit is
+//! spent before the build returns its warm start (the greedy network) with no bound.
 
 use std::time::Instant;
 
@@ -21,6 +26,11 @@ use super::SolveOptions;
 
 /// The least time any one solve is given, so a late solve still returns a network. Units: s.
 pub const MIN_SOLVE_S: f64 = 1.0;
+
+/// The least time HiGHS itself is given once its model is built: enough to load the warm start
+/// as its incumbent. A solve whose own limit is spent before this returns the warm start
+/// (`solve::ilp`). Units: s.
+pub const MIN_HIGHS_S: f64 = 0.05;
 
 /// The time left for a command's solves.
 #[derive(Debug, Clone, Copy)]
