@@ -72,6 +72,8 @@ pub struct LayerTemplate {
     pub valid_range: Option<(f64, f64)>,
     /// What to do with uncovered cells.
     pub missing: Missing,
+    /// Repair invalid polygons instead of refusing them (the plan's `repair_polygons`).
+    pub repair: bool,
 }
 
 impl LayerTemplate {
@@ -92,6 +94,7 @@ impl LayerTemplate {
             crs: self.crs.clone(),
             valid_range: self.valid_range,
             missing: self.missing,
+            repair: self.repair,
         }
     }
 
@@ -109,6 +112,28 @@ impl LayerTemplate {
                 .iter()
                 .any(|t| self.path.contains(t) || f.contains(t))
     }
+}
+
+/// The first brace use in a template that is not `{species}`, `{scenario}` or `{year}` (an
+/// unknown or broken placeholder, a lone brace), if any.
+fn bad_placeholder(text: &str) -> Option<String> {
+    const KNOWN: [&str; 3] = ["{species}", "{scenario}", "{year}"];
+    let mut rest = text;
+    while let Some(i) = rest.find(['{', '}']) {
+        let tail = &rest[i..];
+        match KNOWN.iter().find(|k| tail.starts_with(*k)) {
+            Some(k) => rest = &tail[k.len()..],
+            None => {
+                let end = tail[1..]
+                    .find(['{', '}'])
+                    .map(|j| j + 2)
+                    .unwrap_or(tail.len())
+                    .min(tail.len());
+                return Some(tail[..end].to_string());
+            }
+        }
+    }
+    None
 }
 
 /// A species and its habitat source.
@@ -249,6 +274,9 @@ pub struct Plan {
     pub region: PathBuf,
     /// Land polygons to cut out (GeoJSON, lon/lat).
     pub land: Option<PathBuf>,
+    /// Repair invalid input polygons (geo's `MakeValid`) instead of refusing them; off unless
+    /// the plan says `repair_polygons = true`, so a broken file is never changed silently.
+    pub repair_polygons: bool,
     /// Grid settings.
     pub grid: GridSpec,
     /// Scenario names.
@@ -294,6 +322,7 @@ struct RawPlan {
     name: Option<String>,
     region: Option<String>,
     land: Option<String>,
+    repair_polygons: Option<bool>,
     grid: Option<RawGrid>,
     scenarios: Option<RawScenarios>,
     #[serde(default)]
@@ -411,6 +440,8 @@ struct RawSolver {
 pub(crate) struct Checker {
     dir: PathBuf,
     issues: Vec<PlanIssue>,
+    /// The plan's `repair_polygons`, given to every layer template.
+    repair: bool,
 }
 
 impl Checker {
@@ -450,8 +481,8 @@ impl Checker {
             self.push(
                 key,
                 format!(
-                    "file not found: {} (paths are relative to the plan file)",
-                    path.display()
+                    "{} (paths are relative to the plan file)",
+                    not_a_file(&path)
                 ),
             );
         }
@@ -564,6 +595,21 @@ impl Checker {
             .or_else(|| raw.band.map(|b| b.to_string()))
             .or_else(|| raw.variable.clone());
         let is_netcdf = lower.ends_with(".nc");
+        let field_key = if raw.column.is_some() {
+            "column"
+        } else if raw.attribute.is_some() {
+            "attribute"
+        } else {
+            "variable"
+        };
+        for (k, text) in [("path", rel), (field_key, field.as_deref().unwrap_or(""))] {
+            if let Some(bad) = bad_placeholder(text) {
+                self.push(
+                    format!("{key}.{k}"),
+                    format!("`{bad}` in `{text}`: the only placeholders are `{{species}}`, `{{scenario}}` and `{{year}}`, and braces are for them alone"),
+                );
+            }
+        }
         if raw.years_window.is_some() && !is_netcdf {
             self.push(
                 format!("{key}.years_window"),
@@ -628,6 +674,7 @@ impl Checker {
             crs: raw.crs.clone(),
             valid_range,
             missing,
+            repair: self.repair,
         })
     }
 
@@ -661,10 +708,7 @@ impl Checker {
                 for y in &yr {
                     let p = t.resolve(s, c, *y).path;
                     if seen.insert(p.clone()) && !p.is_file() {
-                        self.push(
-                            format!("{key}.path"),
-                            format!("file not found: {}", p.display()),
-                        );
+                        self.push(format!("{key}.path"), not_a_file(&p));
                     }
                 }
             }
@@ -724,6 +768,7 @@ impl Plan {
         let mut ck = Checker {
             dir: dir.to_path_buf(),
             issues: Vec::new(),
+            repair: raw.repair_polygons.unwrap_or(false),
         };
         ck.unknown(
             "",
@@ -732,6 +777,7 @@ impl Plan {
                 "name",
                 "region",
                 "land",
+                "repair_polygons",
                 "grid",
                 "scenarios",
                 "species",
@@ -1172,6 +1218,7 @@ impl Plan {
             hash,
             region,
             land,
+            repair_polygons: ck.repair,
             grid,
             scenarios,
             scenario_weights,
@@ -1209,4 +1256,29 @@ fn line_col(text: &str, offset: usize) -> (usize, usize) {
         .unwrap_or(0)
         + 1;
     (line, col)
+}
+
+/// Why `path`, which is not a regular file, cannot be read: a folder given where a file was
+/// meant says so, rather than "not found".
+pub(crate) fn not_a_file(path: &Path) -> String {
+    if path.is_dir() {
+        format!("{} is a directory (expected a file)", path.display())
+    } else {
+        format!("file not found: {}", path.display())
+    }
+}
+
+#[cfg(test)]
+mod placeholder_tests {
+    use super::bad_placeholder;
+
+    #[test]
+    fn only_the_three_placeholders_pass() {
+        assert_eq!(bad_placeholder("ocean/{scenario}_{year}.csv"), None);
+        assert_eq!(bad_placeholder("{species}"), None);
+        assert_eq!(bad_placeholder("{spec[es}").as_deref(), Some("{spec[es}"));
+        assert_eq!(bad_placeholder("a_{Year}.csv").as_deref(), Some("{Year}"));
+        assert_eq!(bad_placeholder("a_{year.csv").as_deref(), Some("{year.csv"));
+        assert_eq!(bad_placeholder("a}b").as_deref(), Some("}b"));
+    }
 }

@@ -7,6 +7,7 @@
 
 use crate::grid::Grid;
 use crate::layers::{LayerError, LayerSpec, Missing, Sampling, SourceCache};
+use crate::model::CellStatus;
 use std::path::{Path, PathBuf};
 
 /// File extensions [`read_network`] accepts, for messages.
@@ -65,7 +66,7 @@ pub enum NetworkError {
         found: Vec<String>,
     },
     /// A CSV row is malformed or holds a bad value.
-    #[error("{}: line {line}, column `{column}`: {message}", path.display())]
+    #[error("{}: line {line}{}: {message}", path.display(), crate::layers::column_part(column))]
     CsvRow {
         /// The file.
         path: PathBuf,
@@ -108,6 +109,96 @@ pub fn read_network(path: &Path, grid: &Grid, min_share: f64) -> Result<Vec<bool
     }
 }
 
+/// A network read from a file, with what a reader should know before trusting its scores.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GivenNetwork {
+    /// One chosen flag per cell id.
+    pub selected: Vec<bool>,
+    /// Plain-words warnings (see [`read_given_network`]); the network is scored all the same.
+    pub warnings: Vec<String>,
+}
+
+/// Reads a network as [`read_network`] does and says what would make its scores misleading:
+/// it chooses no cell (its polygons lie wholly outside the region's sea, or cover too little of
+/// any cell), it covers cells the plan excludes, or it leaves out cells the plan requires.
+/// `status` is the plan's per-cell status.
+pub fn read_given_network(
+    path: &Path,
+    grid: &Grid,
+    min_share: f64,
+    status: &[CellStatus],
+) -> Result<GivenNetwork, NetworkError> {
+    let is_polygons = matches!(extension(path).as_str(), "geojson" | "json");
+    let (selected, largest_share) = if is_polygons && min_share > 0.0 && min_share <= 1.0 {
+        let shares = polygon_shares(path, grid)?;
+        let largest = shares.iter().copied().fold(0.0, f64::max);
+        let selected = shares.iter().map(|&s| s >= min_share - SHARE_TOL).collect();
+        (selected, Some(largest))
+    } else {
+        (read_network(path, grid, min_share)?, None)
+    };
+    let warnings = network_warnings(&selected, status, largest_share, min_share);
+    Ok(GivenNetwork { selected, warnings })
+}
+
+/// The warnings of [`read_given_network`] for a network already read. `largest_share` is the
+/// largest share of any cell inside the network's polygons (`None` for a cell list).
+pub fn network_warnings(
+    selected: &[bool],
+    status: &[CellStatus],
+    largest_share: Option<f64>,
+    min_share: f64,
+) -> Vec<String> {
+    let mut out = Vec::new();
+    let examples = |ids: &[usize]| {
+        let shown: Vec<String> = ids.iter().take(5).map(|i| i.to_string()).collect();
+        format!(
+            "{}{}",
+            shown.join(", "),
+            if ids.len() > 5 { ", …" } else { "" }
+        )
+    };
+    let cells = |n: usize| format!("{n} cell{}", if n == 1 { "" } else { "s" });
+    if !selected.iter().any(|&s| s) {
+        out.push(match largest_share {
+            Some(s) if s <= SHARE_TOL => "it lies wholly outside the region's sea: none of its polygons overlaps a cell of the grid, so it protects nothing here (check its coordinates and CRS)".to_string(),
+            Some(s) => format!(
+                "it chooses no cell: no cell has {:.0}% of its sea inside the polygons (the most any cell has is {:.1}%); lower --min-share to count partly covered cells",
+                100.0 * min_share,
+                100.0 * s
+            ),
+            None => "it chooses no cell, so it protects nothing".to_string(),
+        });
+    }
+    let excluded: Vec<usize> = (0..selected.len())
+        .filter(|&i| selected[i] && status.get(i) == Some(&CellStatus::Excluded))
+        .collect();
+    if !excluded.is_empty() {
+        out.push(format!(
+            "it covers {} the plan excludes (cells {}): a solved network never would, and the plan forbids protecting them",
+            cells(excluded.len()),
+            examples(&excluded)
+        ));
+    }
+    let required: Vec<usize> = (0..status.len())
+        .filter(|&i| {
+            status[i] == CellStatus::Required && !selected.get(i).copied().unwrap_or(false)
+        })
+        .collect();
+    if !required.is_empty() {
+        let total = status
+            .iter()
+            .filter(|s| **s == CellStatus::Required)
+            .count();
+        out.push(format!(
+            "it leaves out {} of the plan's {total} required (already protected) cells (cells {}), which every solved network holds",
+            cells(required.len()),
+            examples(&required)
+        ));
+    }
+    out
+}
+
 /// Share (0–1) of each cell's sea area inside the union of a GeoJSON file's polygons (WGS84
 /// lon/lat), one value per cell id; 0 where no polygon reaches the cell. This is what
 /// [`read_network`] thresholds; planners may also want to see partly covered cells.
@@ -123,6 +214,8 @@ pub fn polygon_shares(path: &Path, grid: &Grid) -> Result<Vec<f64>, NetworkError
         valid_range: None,
         // No polygon over a cell means the cell is outside the network, not missing data.
         missing: Missing::Zero,
+        // A given network is checked, never silently changed.
+        repair: false,
     };
     let layer =
         crate::layers::sample("network", &spec, grid, &SourceCache::new()).map_err(|source| {
@@ -147,6 +240,11 @@ fn read_cell_csv(path: &Path, grid: &Grid) -> Result<Vec<bool>, NetworkError> {
         path: path.to_path_buf(),
         source,
     };
+    if path.is_dir() {
+        return Err(io(std::io::Error::other(
+            "is a directory (expected a file)",
+        )));
+    }
     let file = std::fs::File::open(path).map_err(io)?;
     let mut reader = csv::ReaderBuilder::new()
         .trim(csv::Trim::All)
@@ -159,7 +257,10 @@ fn read_cell_csv(path: &Path, grid: &Grid) -> Result<Vec<bool>, NetworkError> {
     };
     let header: Vec<String> = reader
         .headers()
-        .map_err(|e| row_error(1, "?", format!("cannot read the header: {e}")))?
+        .map_err(|e| {
+            let (line, column, message) = crate::layers::describe_csv_error(&e, &[]);
+            row_error(line.max(1), &column, message)
+        })?
         .iter()
         .map(str::to_string)
         .collect();
@@ -179,8 +280,8 @@ fn read_cell_csv(path: &Path, grid: &Grid) -> Result<Vec<bool>, NetworkError> {
     let mut chosen = vec![false; grid.len()];
     for record in reader.records() {
         let record = record.map_err(|e| {
-            let line = e.position().map(|p| p.line()).unwrap_or(0);
-            row_error(line, "?", format!("malformed row: {e}"))
+            let (line, column, message) = crate::layers::describe_csv_error(&e, &header);
+            row_error(line, &column, message)
         })?;
         // Every record read from a file has a position; 0 only if the csv crate drops it.
         let line = record.position().map(|p| p.line()).unwrap_or(0);

@@ -51,7 +51,8 @@ fn assess(
     let plan = load(plan_path)?;
     run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
-    let selected = read_network(network, &inputs, min_share)?;
+    let given = read_network(network, &inputs, min_share)?;
+    let selected = given.selected;
     let a = pipeline::assess_network(&inputs, &selected);
     let name = file_stem(network);
     let problem = pipeline::problem(&plan, &inputs);
@@ -63,7 +64,19 @@ fn assess(
         no_stress,
         progress,
     )?;
-    let cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    let mut cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    cmp.warnings = given
+        .warnings
+        .iter()
+        .map(|w| (name.clone(), w.clone()))
+        .collect();
+    let mut facts = vec![("network".to_string(), network.display().to_string())];
+    facts.extend(
+        given
+            .warnings
+            .iter()
+            .map(|w| ("warning".to_string(), w.clone())),
+    );
     let mut files = vec![
         ("coverage.csv", export::coverage_csv(&a)),
         ("reserves.csv", export::reserves_csv(&a)),
@@ -81,7 +94,7 @@ fn assess(
                 &a,
                 pipeline::ReportExtras {
                     stress: matrix.as_ref(),
-                    facts: vec![("network".into(), network.display().to_string())],
+                    facts,
                     ..Default::default()
                 },
             )?,
@@ -101,6 +114,9 @@ fn assess(
         a.reserves.len(),
         driftplan::assess::targets_reached_text(&a)
     );
+    for w in &given.warnings {
+        println!("  warning: {w}");
+    }
     for note in driftplan::features::absent::first_notes(
         driftplan::features::absent::absent_notes(&inputs.features),
         10,

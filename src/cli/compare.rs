@@ -74,9 +74,12 @@ fn compare(
     run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
     let mut given = Vec::new();
+    let mut warnings = Vec::new();
     for (i, path) in networks.iter().enumerate() {
         let name = names.get(i).cloned().unwrap_or_else(|| file_stem(path));
-        given.push((name, read_network(path, &inputs, min_share)?));
+        let network = read_network(path, &inputs, min_share)?;
+        warnings.extend(network.warnings.into_iter().map(|w| (name.clone(), w)));
+        given.push((name, network.selected));
     }
     let assessments: Vec<driftplan::assess::Assessment> = given
         .iter()
@@ -87,7 +90,8 @@ fn compare(
         .zip(&assessments)
         .map(|((n, _), a)| (n.clone(), a))
         .collect();
-    let cmp = driftplan::compare::compare(&named)?;
+    let mut cmp = driftplan::compare::compare(&named)?;
+    cmp.warnings = warnings;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
     let matrix = stress(&problem, &given, &options, no_stress, progress)?;
@@ -116,6 +120,9 @@ fn compare(
     for ((name, _), path) in given.iter().zip(networks) {
         facts.push((format!("network `{name}`"), path.display().to_string()));
     }
+    for (name, w) in &cmp.warnings {
+        facts.push(("warning".to_string(), format!("{name}: {w}")));
+    }
     let report = driftplan::report::compare_report_html(&driftplan::report::CompareReport {
         title: &plan.name,
         facts,
@@ -135,6 +142,9 @@ fn compare(
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     print!("{}", driftplan::compare::compare_table(&cmp));
+    for (name, w) in &cmp.warnings {
+        println!("warning: {name}: {w}");
+    }
     if let Some(m) = &matrix {
         println!(
             "stress test (targets reached and benefit; rows: designed for, columns: evaluated in)"

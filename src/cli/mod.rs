@@ -348,12 +348,17 @@ pub(crate) fn stress(
 }
 
 /// Reads a network file into one flag per cell.
-pub(crate) fn read_network(path: &Path, inputs: &Inputs, min_share: f64) -> Result<Vec<bool>> {
+pub(crate) fn read_network(
+    path: &Path,
+    inputs: &Inputs,
+    min_share: f64,
+) -> Result<driftplan::assess::network_input::GivenNetwork> {
     // The reader's errors already name the file.
-    Ok(driftplan::assess::network_input::read_network(
+    Ok(driftplan::assess::network_input::read_given_network(
         path,
         &inputs.grid,
         min_share,
+        &inputs.status,
     )?)
 }
 

@@ -29,10 +29,17 @@ struct FeatureOut<'a> {
 }
 
 #[derive(Serialize)]
+struct WarningOut<'a> {
+    network: &'a str,
+    warning: &'a str,
+}
+
+#[derive(Serialize)]
 struct ComparisonOut<'a> {
     networks: &'a [String],
     ranking_rule: &'a str,
     ranked: Vec<&'a str>,
+    warnings: Vec<WarningOut<'a>>,
     measures: Vec<MeasureOut<'a>>,
     features: Vec<FeatureOut<'a>>,
     caution: &'a str,
@@ -44,6 +51,8 @@ struct ComparisonOut<'a> {
 /// * `ranking_rule`: how `best` is awarded ([`super::RANKING_RULE`]); `ranked`: the networks
 ///   that meet the most targets, the only ones that can be best on a measure other than
 ///   `targets_reached`;
+/// * `warnings`: `[{network, warning}]`, what to know about a given network before trusting
+///   its scores (outside the region, excluded cells covered, required cells left out);
 /// * `measures`: `[{measure, better, values, best}]` where `measure` carries its unit
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
@@ -60,6 +69,11 @@ pub fn compare_json(c: &Comparison) -> String {
         networks: &c.networks,
         ranking_rule: super::RANKING_RULE,
         ranked: names(&c.ranked),
+        warnings: c
+            .warnings
+            .iter()
+            .map(|(network, warning)| WarningOut { network, warning })
+            .collect(),
         measures: c
             .measures
             .iter()
@@ -114,6 +128,7 @@ mod tests {
             "networks",
             "ranking_rule",
             "ranked",
+            "warnings",
             "measures",
             "features",
             "caution",
