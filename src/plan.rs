@@ -14,6 +14,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 pub mod climate;
+pub mod reference;
 pub mod terms;
 pub mod zones;
 
@@ -509,24 +510,7 @@ impl Checker {
         raw: &RawLayer,
         default_missing: Missing,
     ) -> Option<LayerTemplate> {
-        self.unknown(
-            key,
-            &raw.extra,
-            &[
-                "path",
-                "column",
-                "attribute",
-                "band",
-                "variable",
-                "years_window",
-                "layer",
-                "sampling",
-                "crs",
-                "min",
-                "max",
-                "missing",
-            ],
-        );
+        self.unknown(key, &raw.extra, &reference::keys_of("layer"));
         if raw.per.is_some() && key != "cost" {
             self.push(
                 format!("{key}.per"),
@@ -770,29 +754,7 @@ impl Plan {
             issues: Vec::new(),
             repair: raw.repair_polygons.unwrap_or(false),
         };
-        ck.unknown(
-            "",
-            &raw.extra,
-            &[
-                "name",
-                "region",
-                "land",
-                "repair_polygons",
-                "grid",
-                "scenarios",
-                "species",
-                "temperature",
-                "cost",
-                "required",
-                "excluded",
-                "targets",
-                "budget",
-                "optimise",
-                "solver",
-                "climate",
-                "zones",
-            ],
-        );
+        ck.unknown("", &raw.extra, &reference::keys_of(""));
         let name = raw.name.clone().unwrap_or_else(|| {
             file.file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
@@ -821,7 +783,7 @@ impl Plan {
                 }
             }
             Some(g) => {
-                ck.unknown("grid", &g.extra, &["cell_size_km", "crs", "min_sea_share"]);
+                ck.unknown("grid", &g.extra, &reference::keys_of("grid"));
                 let cell = match g.cell_size_km {
                     Some(v) if v.is_finite() && v > 0.0 => v,
                     Some(v) => {
@@ -862,7 +824,7 @@ impl Plan {
                 (vec![], vec![], vec![])
             }
             Some(s) => {
-                ck.unknown("scenarios", &s.extra, &["names", "years", "weights"]);
+                ck.unknown("scenarios", &s.extra, &reference::keys_of("scenarios"));
                 let names = s.names.clone().unwrap_or_default();
                 if names.is_empty() {
                     ck.push(
@@ -928,7 +890,7 @@ impl Plan {
         let default_target = match &raw.targets {
             None => 0.3,
             Some(t) => {
-                ck.unknown("targets", &t.extra, &["default"]);
+                ck.unknown("targets", &t.extra, &reference::keys_of("targets"));
                 t.default
                     .map(|v| ck.share("targets.default", v, false))
                     .unwrap_or(0.3)
@@ -946,11 +908,7 @@ impl Plan {
         let mut names = std::collections::BTreeSet::new();
         for (i, s) in raw.species.iter().enumerate() {
             let key = format!("species[{i}]");
-            ck.unknown(
-                &key,
-                &s.extra,
-                &["name", "habitat", "target", "weight", "may_be_absent"],
-            );
+            ck.unknown(&key, &s.extra, &reference::keys_of("species[]"));
             let name = s.name.clone().unwrap_or_default();
             if !valid_name(&name) {
                 ck.push(
@@ -1070,7 +1028,7 @@ impl Plan {
         let budget = match &raw.budget {
             None => BudgetPlan::default(),
             Some(b) => {
-                ck.unknown("budget", &b.extra, &["max_cost", "max_share"]);
+                ck.unknown("budget", &b.extra, &reference::keys_of("budget"));
                 if let Some(c) = b.max_cost {
                     if !(c.is_finite() && c >= 0.0) {
                         ck.push(
@@ -1091,18 +1049,7 @@ impl Plan {
         let (objective, robustness) = match &raw.optimise {
             None => (Objective::MinCost, Robustness::EveryScenario),
             Some(o) => {
-                ck.unknown(
-                    "optimise",
-                    &o.extra,
-                    &[
-                        "objective",
-                        "robustness",
-                        "edge_penalty",
-                        "count_coast_edges",
-                        "max_gap_km",
-                        "min_reserve_km2",
-                    ],
-                );
+                ck.unknown("optimise", &o.extra, &reference::keys_of("optimise"));
                 if let Some(w) = o.edge_penalty {
                     if !(w.is_finite() && w >= 0.0) {
                         ck.push("optimise.edge_penalty", format!("must be a non-negative weight per km of exposed edge, e.g. `edge_penalty = 1`; got {w}"));
@@ -1164,7 +1111,7 @@ impl Plan {
         let solver = match &raw.solver {
             None => SolverPlan::default(),
             Some(s) => {
-                ck.unknown("solver", &s.extra, &["time_limit_s", "gap", "threads"]);
+                ck.unknown("solver", &s.extra, &reference::keys_of("solver"));
                 if let Some(t) = s.time_limit_s {
                     if !(t.is_finite() && t > 0.0) {
                         ck.push(
