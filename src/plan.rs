@@ -594,6 +594,20 @@ impl Checker {
                 );
             }
         }
+        // `column` and `attribute` name the same thing in different files; a wrong one would
+        // otherwise be ignored silently.
+        if is_vector && raw.column.is_some() {
+            self.push(
+                format!("{key}.column"),
+                "`column` is for CSV point grids; name a vector file's property with `attribute = \"…\"`",
+            );
+        }
+        if (is_csv || is_raster) && raw.attribute.is_some() {
+            self.push(
+                format!("{key}.attribute"),
+                "`attribute` is for vector files; name a CSV column with `column = \"…\"` (a raster band with `band`)",
+            );
+        }
         if raw.years_window.is_some() && !is_netcdf {
             self.push(
                 format!("{key}.years_window"),
@@ -938,7 +952,20 @@ impl Plan {
                 );
                 continue;
             };
-            if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, Missing::Error) {
+            // Habitat polygons say where the species lives: outside them is no habitat, not
+            // missing data. Point grids and rasters that miss cells are still errors.
+            let polygons = h.path.as_deref().is_some_and(|p| {
+                let p = p.to_ascii_lowercase();
+                [".geojson", ".json", ".gpkg", ".shp", ".fgb"]
+                    .iter()
+                    .any(|e| p.ends_with(e))
+            });
+            let default_missing = if polygons {
+                Missing::Zero
+            } else {
+                Missing::Error
+            };
+            if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, default_missing) {
                 // Habitat is a suitability share of each cell.
                 if t.valid_range.is_none() {
                     t.valid_range = Some((0.0, 1.0));

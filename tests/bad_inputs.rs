@@ -265,6 +265,23 @@ fn catalogue() -> Vec<Case> {
                 }))
             },
         ),
+        case(
+            "vector-habitat-with-column",
+            &[
+                "bad-vector-habitat-with-column.toml",
+                "species[0].habitat.column",
+                "attribute",
+            ],
+            |f, c| {
+                f.solve(f.plan(c, |t| {
+                t.replacen(
+                    "habitat = { path = \"../demo-data/ocean/{scenario}_{year}.csv\", column = \"{species}\" }",
+                    "habitat = { path = \"../demo-data/protected.geojson\", column = \"name\" }",
+                    1,
+                )
+            }))
+            },
+        ),
         case("toml-syntax", &["bad-toml-syntax.toml", "line "], |f, c| {
             f.solve(f.plan(c, |t| format!("{t}\n[grid\n")))
         }),

@@ -108,3 +108,18 @@ fn missing_plan_file_is_a_clear_error() {
     assert!(err.to_string().contains("does-not-exist.toml"));
     assert!(err.to_string().contains("cannot read"));
 }
+
+#[test]
+fn habitat_polygons_default_to_no_habitat_outside_them_and_lattices_to_errors() {
+    // Outside a habitat polygon is "no habitat" (missing = zero); a point grid that misses
+    // cells is still an error unless the plan says otherwise.
+    use driftplan::layers::Missing;
+    let text = demo_plan_text().replacen(
+        "habitat = { path = \"../demo-data/ocean/{scenario}_{year}.csv\", column = \"{species}\" }",
+        "habitat = { path = \"../demo-data/protected.geojson\" }",
+        1,
+    );
+    let plan = load_text(&text).unwrap();
+    assert_eq!(plan.species[0].habitat.missing, Missing::Zero);
+    assert_eq!(plan.species[1].habitat.missing, Missing::Error);
+}

@@ -120,7 +120,7 @@ pub const KEYS: &[KeyDoc] = &[
     k("layer", "crs", "string", "the file's own CRS, else WGS84 lon/lat", "a CRS PROJ knows", "", "crs = \"EPSG:32633\"", "The CRS of the file's coordinates, when the file does not say."),
     k("layer", "min", "number", "no lower bound (0 for habitat)", "≤ max", "the layer's", "min = 0", "Values below are errors naming the file and place."),
     k("layer", "max", "number", "no upper bound (1 for habitat)", "≥ min", "the layer's", "max = 40", "Values above are errors naming the file and place."),
-    k("layer", "missing", "string", "\"error\" (\"zero\" for required and excluded polygons)", "error, zero", "", "missing = \"zero\"", "What cells the file says nothing about get: an error (never use missing data silently) or 0."),
+    k("layer", "missing", "string", "\"error\" (\"zero\" for habitat, required and excluded polygons)", "error, zero", "", "missing = \"zero\"", "What cells the file says nothing about get: an error (never use missing data silently) or 0."),
     // cost
     k("cost", "per", "string", "\"km2\"", "km2, cell", "", "per = \"cell\"", "Whether the values are per km² (a cell costs value × its sea area) or per cell."),
     // required, excluded
