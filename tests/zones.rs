@@ -213,3 +213,173 @@ fn a_boundary_between_zones_is_edge_too() {
     let sel: Vec<bool> = a.iter().map(|v| *v > 0).collect();
     assert_eq!(driftplan::model::compact::exposed_edge_km(&pen, &sel), 6.0);
 }
+
+/// Two scenarios over 8 cells: two habitat features per scenario and one scenario-free one,
+/// no-take and partial use (40 % of the cost, credits below 1), a no-take zone target on a
+/// feature of the second scenario. Costs are random reals, so optima are unique in cost.
+fn two_scenarios(seed: u64, objective: Objective) -> Problem {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let n = 8;
+    let mut features = Vec::new();
+    for (k, scenario) in [Some(0), Some(0), Some(1), Some(1), None]
+        .into_iter()
+        .enumerate()
+    {
+        let mut amounts: Vec<(u32, f64)> = Vec::new();
+        for c in 0..n as u32 {
+            if rng.gen_bool(0.5) {
+                amounts.push((c, rng.gen_range(1..=5) as f64));
+            }
+        }
+        let total: f64 = amounts.iter().map(|a| a.1).sum();
+        features.push(ModelFeature {
+            name: format!("f{k}"),
+            scenario,
+            amounts,
+            target: (0.4 * total).max(1.0),
+            weight: rng.gen_range(1..=3) as f64,
+        });
+    }
+    let total2: f64 = features[2].amounts.iter().map(|a| a.1).sum();
+    let zoning = Zoning {
+        names: vec!["no-take".into(), "partial-use".into()],
+        cost_share: vec![1.0, 0.4],
+        credit: vec![vec![1.0; 5], vec![0.6, 0.5, 0.7, 0.6, 0.5]],
+        allowed: vec![vec![true; n], vec![true; n]],
+        targets: vec![ZoneTarget {
+            zone: 0,
+            feature: 2,
+            amount: 0.15 * total2,
+        }],
+    };
+    let cost: Vec<f64> = (0..n).map(|_| rng.gen_range(1.0..9.0)).collect();
+    Problem {
+        budget: Budget {
+            max_cost: (objective == Objective::MaxBenefit).then_some(9.0),
+            max_area_km2: None,
+        },
+        zoning: Some(zoning),
+        ..Problem::plain(
+            cost,
+            vec![1.0; n],
+            ["s1", "s2"]
+                .iter()
+                .map(|s| Scenario {
+                    name: s.to_string(),
+                    weight: 1.0,
+                })
+                .collect(),
+            features,
+            objective,
+            match objective {
+                Objective::MinCost => Robustness::EveryScenario,
+                Objective::MaxBenefit => Robustness::WorstCase,
+            },
+        )
+    }
+}
+
+/// Hand scoring of a zoned network in scenario `s` (the benefit definition of model::robust,
+/// written out again here): Σ wₖ·min(Σ credit(zone of c, k)·aₖc / Tₖ, 1) over the scenario's
+/// features and the scenario-free ones, and the count of targets reached.
+fn hand_score(p: &Problem, zones: &[u8], s: usize) -> (f64, usize) {
+    let z = p.zoning.as_ref().unwrap();
+    let (mut benefit, mut reached) = (0.0, 0);
+    for (k, f) in p.features.iter().enumerate() {
+        if f.scenario.is_some_and(|fs| fs != s) {
+            continue;
+        }
+        let protected: f64 = f
+            .amounts
+            .iter()
+            .filter(|(c, _)| zones[*c as usize] > 0)
+            .map(|&(c, a)| z.credit[zones[c as usize] as usize - 1][k] * a)
+            .sum();
+        benefit += f.weight * (protected / f.target).min(1.0);
+        reached += usize::from(protected >= f.target - 1e-9);
+    }
+    (benefit, reached)
+}
+
+/// Hand cost of a zoned network: Σ cost share of the cell's zone × its cost.
+fn hand_cost(p: &Problem, zones: &[u8]) -> f64 {
+    let z = p.zoning.as_ref().unwrap();
+    zones
+        .iter()
+        .zip(&p.cost)
+        .filter(|(v, _)| **v > 0)
+        .map(|(&v, c)| z.cost_share[v as usize - 1] * c)
+        .sum()
+}
+
+#[test]
+fn zoned_stress_test_equals_enumeration_and_scores_zone_credits() {
+    use driftplan::study::{single_scenario_problem, stress_test};
+    let (mut rows_checked, mut partial_rows, mut first_zone_differs) = (0, 0, 0);
+    for objective in [Objective::MinCost, Objective::MaxBenefit] {
+        for seed in 0..4 {
+            let p = two_scenarios(seed, objective);
+            let Ok(robust) = Highs::default().solve(&p, &opts()) else {
+                continue;
+            };
+            let robust_zones = robust.zones.clone().unwrap();
+            let m = stress_test(
+                &p,
+                &[("robust".into(), robust_zones.clone())],
+                &opts(),
+                &|| {},
+            )
+            .unwrap();
+            assert_eq!(m.rows.len(), 3);
+            for s in 0..2 {
+                // Each scenario alone, enumerated over every zone assignment (solve::brute).
+                let alone = single_scenario_problem(&p, s);
+                let row = &m.rows[s];
+                match BruteForce.solve(&alone, &opts()) {
+                    Ok(b) => {
+                        let zones = row.zones.as_ref().expect("a zoned row carries its zones");
+                        let own = match objective {
+                            Objective::MinCost => hand_cost(&p, zones),
+                            Objective::MaxBenefit => hand_score(&p, zones, s).0,
+                        };
+                        assert!(
+                            (own - b.objective).abs() < 1e-6,
+                            "{objective:?} seed {seed} s{s}: stress row {own} vs enumeration {}",
+                            b.objective
+                        );
+                    }
+                    Err(_) => {
+                        assert!(row.evaluated.is_empty(), "{objective:?} seed {seed} s{s}");
+                        continue;
+                    }
+                }
+            }
+            // Every row with a network, scored by hand in every scenario with its zones.
+            for row in m.rows.iter().filter(|r| !r.evaluated.is_empty()) {
+                let zones = row.zones.as_ref().unwrap();
+                partial_rows += usize::from(zones.contains(&2));
+                for (s, e) in row.evaluated.iter().enumerate() {
+                    let (benefit, reached) = hand_score(&p, zones, s);
+                    assert!(
+                        (e.benefit - benefit).abs() < 1e-9,
+                        "{objective:?} seed {seed} `{}` in s{s}: {} vs hand {benefit}",
+                        row.designed_for,
+                        e.benefit
+                    );
+                    assert_eq!(e.targets_reached, reached);
+                    // Scoring the same cells as all no-take would give another benefit
+                    // wherever partial use holds some of the scenario's habitat.
+                    let all_first: Vec<u8> = zones.iter().map(|&v| u8::from(v > 0)).collect();
+                    first_zone_differs +=
+                        usize::from((hand_score(&p, &all_first, s).0 - benefit).abs() > 1e-9);
+                }
+                rows_checked += 1;
+            }
+            assert_eq!(m.rows[2].zones.as_deref(), Some(&robust_zones[..]));
+        }
+    }
+    assert!(
+        rows_checked >= 12 && partial_rows >= 3 && first_zone_differs >= 3,
+        "{rows_checked} rows, {partial_rows} with partial use, {first_zone_differs} where zones change the score"
+    );
+}

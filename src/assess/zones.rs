@@ -107,6 +107,36 @@ pub fn zones_csv(shares: &[ZoneShare]) -> String {
     )
 }
 
+/// The `zones` member of `assessment.json`: where the zones came from (`source`: `file` or
+/// `assumed`), the zone assumed for a file without zones (`assumed_zone`, else `null`), the
+/// note shown in the terminal, and each zone's share of the network (`reserve` `null`) and of
+/// each reserve, as in `zones.csv`.
+pub fn zones_json(
+    source: &crate::assess::network_input::ZoneSource,
+    note: Option<&str>,
+    shares: &[ZoneShare],
+) -> serde_json::Value {
+    use crate::assess::network_input::ZoneSource;
+    let (kind, assumed) = match source {
+        ZoneSource::Assumed { zone, .. } => ("assumed", Some(zone.as_str())),
+        ZoneSource::File => ("file", None),
+        ZoneSource::Unzoned | ZoneSource::Ignored => ("none", None),
+    };
+    serde_json::json!({
+        "source": kind,
+        "assumed_zone": assumed,
+        "note": note,
+        "shares": shares.iter().map(|s| serde_json::json!({
+            "zone": s.zone,
+            "zone_code": s.code,
+            "reserve": s.reserve,
+            "cells": s.cells,
+            "area_km2": s.area_km2,
+            "cost": s.cost,
+        })).collect::<Vec<_>>(),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

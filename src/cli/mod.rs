@@ -3,7 +3,7 @@
 
 use anyhow::Result;
 use clap::{Parser, Subcommand};
-use driftplan::pipeline::{self, Inputs};
+use driftplan::pipeline;
 use driftplan::plan::{Plan, SolverPlan};
 use driftplan::solve::progress::ProgressSink;
 use driftplan::solve::time;
@@ -312,11 +312,28 @@ impl std::error::Error for CannotBeReached {}
 /// Exit code for "the plan's targets cannot all be reached".
 pub(crate) const EXIT_CANNOT_BE_MET: i32 = 3;
 
-/// The stress test with a progress bar (skipped with one scenario or when asked). The time
-/// limit in `options` is the whole test's.
+/// The stress test of networks given as chosen flags (each chosen cell in the first zone of a
+/// zoned plan): see [`stress_assigned`].
 pub(crate) fn stress(
     problem: &driftplan::model::Problem,
     given: &[(String, Vec<bool>)],
+    options: &driftplan::solve::SolveOptions,
+    skip: bool,
+    progress: &Progress,
+) -> Result<Option<driftplan::study::StressMatrix>> {
+    let given: Vec<(String, Vec<u8>)> = given
+        .iter()
+        .map(|(n, s)| (n.clone(), driftplan::model::zones::first_zone(s)))
+        .collect();
+    stress_assigned(problem, &given, options, skip, progress)
+}
+
+/// The stress test with a progress bar (skipped with one scenario or when asked). Each given
+/// network is a zone assignment (`model::zones`: 0 outside, 1 + zone index; 1 = chosen
+/// without zones). The time limit in `options` is the whole test's.
+pub(crate) fn stress_assigned(
+    problem: &driftplan::model::Problem,
+    given: &[(String, Vec<u8>)],
     options: &driftplan::solve::SolveOptions,
     skip: bool,
     progress: &Progress,
@@ -345,16 +362,6 @@ pub(crate) fn stress(
     let m = driftplan::study::stress_test(problem, given, &options, &|| bar.inc(1))?;
     bar.finish_and_clear();
     Ok(Some(m))
-}
-
-/// Reads a network file into one flag per cell.
-pub(crate) fn read_network(path: &Path, inputs: &Inputs, min_share: f64) -> Result<Vec<bool>> {
-    // The reader's errors already name the file.
-    Ok(driftplan::assess::network_input::read_network(
-        path,
-        &inputs.grid,
-        min_share,
-    )?)
 }
 
 /// The file name without its extension, as a default network name.
