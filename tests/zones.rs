@@ -383,3 +383,118 @@ fn zoned_stress_test_equals_enumeration_and_scores_zone_credits() {
         "{rows_checked} rows, {partial_rows} with partial use, {first_zone_differs} where zones change the score"
     );
 }
+
+#[test]
+fn zoned_replacement_cost_equals_enumeration() {
+    use driftplan::study::replacement_costs;
+    // Replacement cost (Cabeza & Moilanen 2006, from memory) of each chosen cell of the zoned
+    // optimum: the enumerated optimum with the cell forbidden, minus the enumerated optimum
+    // (for max-benefit, the other way round); no network without it → irreplaceable.
+    let (mut units, mut irreplaceable) = (0, 0);
+    for objective in [Objective::MinCost, Objective::MaxBenefit] {
+        for seed in 0..8 {
+            let p = instance(seed, objective);
+            let Ok(base) = Highs::default().solve(&p, &opts()) else {
+                continue;
+            };
+            let optimum = BruteForce.solve(&p, &opts()).unwrap().objective;
+            let cells: Vec<(String, Vec<u32>)> = (0..p.n_cells() as u32)
+                .filter(|&c| base.selected[c as usize] && p.status[c as usize] == CellStatus::Free)
+                .map(|c| (format!("cell {c}"), vec![c]))
+                .collect();
+            let rows = replacement_costs(&p, &base, &cells, &opts(), &|| {}).unwrap();
+            for (r, (_, c)) in rows.iter().zip(&cells) {
+                let mut q = p.clone();
+                q.status[c[0] as usize] = CellStatus::Excluded;
+                match BruteForce.solve(&q, &opts()) {
+                    Ok(b) => {
+                        let want = match objective {
+                            Objective::MinCost => b.objective - optimum,
+                            Objective::MaxBenefit => optimum - b.objective,
+                        };
+                        assert!(
+                            (r.cost - want).abs() < 1e-6,
+                            "{objective:?} seed {seed} {}: {} vs enumeration {want}",
+                            r.label,
+                            r.cost
+                        );
+                        // The re-solve's own zones are a feasible assignment without the cell.
+                        let z = r.without.as_ref().unwrap().zones.clone().unwrap();
+                        assert_eq!(z[c[0] as usize], 0);
+                        assert!(evaluate_zoned(&q, &z).feasible);
+                    }
+                    Err(_) => {
+                        assert!(r.irreplaceable(), "{objective:?} seed {seed} {}", r.label);
+                        irreplaceable += 1;
+                    }
+                }
+                units += 1;
+            }
+        }
+    }
+    assert!(
+        units >= 20,
+        "{units} cells re-solved, {irreplaceable} irreplaceable"
+    );
+}
+
+#[test]
+fn zoned_portfolio_members_against_enumeration() {
+    use driftplan::model::Alternative;
+    use driftplan::study::portfolio;
+    // Each member stays within 25 % of the enumerated zoned optimum, differs from every
+    // earlier member in at least 2 cells, and has the least overlap with them that enumeration
+    // finds under the same limit and cuts (no-good cuts: Balas & Jeroslow 1972).
+    let mut members = 0;
+    for objective in [Objective::MinCost, Objective::MaxBenefit] {
+        for seed in 0..4 {
+            let p = instance(seed, objective);
+            let Ok(best) = BruteForce.solve(&p, &opts()) else {
+                continue;
+            };
+            let pf = portfolio(&p, 3, 0.25, 2, &opts(), &|_| {}).unwrap();
+            assert!((pf.optimum - best.objective).abs() < 1e-6);
+            for (k, m) in pf.members.iter().enumerate() {
+                let zones = m.solution.zones.clone().expect("members carry zones");
+                let e = evaluate_zoned(&p, &zones);
+                assert!(e.feasible, "{objective:?} seed {seed} member {k}");
+                assert!((e.objective - m.objective).abs() < 1e-9);
+                let within = match objective {
+                    Objective::MinCost => e.objective <= pf.limit + 1e-6,
+                    Objective::MaxBenefit => e.objective >= pf.limit - 1e-6,
+                };
+                assert!(
+                    within,
+                    "{objective:?} seed {seed} member {k}: {}",
+                    e.objective
+                );
+                if k == 0 {
+                    continue;
+                }
+                let earlier: Vec<Vec<bool>> = pf.members[..k]
+                    .iter()
+                    .map(|x| x.solution.selected.clone())
+                    .collect();
+                let alt = Alternative {
+                    avoid: earlier,
+                    min_difference: 2,
+                };
+                assert!(alt.distances(&m.solution.selected).iter().all(|&d| d >= 2));
+                let q = Problem {
+                    keep_objective: Some(pf.limit),
+                    alternative: Some(alt.clone()),
+                    ..p.clone()
+                };
+                let b = BruteForce.solve(&q, &opts()).unwrap();
+                assert!(
+                    (alt.overlap(&m.solution.selected) - b.objective).abs() < 1e-6,
+                    "{objective:?} seed {seed} member {k}: overlap {} vs enumeration {}",
+                    alt.overlap(&m.solution.selected),
+                    b.objective
+                );
+                members += 1;
+            }
+        }
+    }
+    assert!(members >= 6, "{members} later members checked");
+}

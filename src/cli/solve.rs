@@ -136,10 +136,7 @@ pub(crate) fn solve(
         "plan".to_string()
     };
     // A zoned network is stressed with its zones (each zone's credit and cost share).
-    let assignment = solution
-        .zones
-        .clone()
-        .unwrap_or_else(|| driftplan::model::zones::first_zone(&solution.selected));
+    let assignment = solution.assignment();
     let matrix = stress_assigned(
         &problem,
         &[(label, assignment)],

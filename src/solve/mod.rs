@@ -129,6 +129,16 @@ pub struct Solution {
     pub zones: Option<Vec<u8>>,
 }
 
+impl Solution {
+    /// The network as a zone assignment (`model::zones`: 0 outside, 1 + zone index): the
+    /// solve's zones, or each chosen cell as 1 when it assigned none.
+    pub fn assignment(&self) -> Vec<u8> {
+        self.zones
+            .clone()
+            .unwrap_or_else(|| crate::model::zones::first_zone(&self.selected))
+    }
+}
+
 /// One feature that cannot reach its target.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Shortfall {

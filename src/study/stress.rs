@@ -10,7 +10,6 @@
 
 use rayon::prelude::*;
 
-use crate::model::zones::first_zone;
 use crate::model::{evaluate_zoned, Problem, ScenarioResult};
 use crate::solve::ilp::Highs;
 use crate::solve::{SolveError, SolveOptions, Solver};
@@ -104,10 +103,7 @@ pub fn stress_test(
             let name = problem.scenarios[s].name.clone();
             let row = match Highs::default().solve(&sub, &one_thread) {
                 Ok(sol) => {
-                    let assignment = sol
-                        .zones
-                        .clone()
-                        .unwrap_or_else(|| first_zone(&sol.selected));
+                    let assignment = sol.assignment();
                     Ok(StressRow {
                         designed_for: name,
                         status: sol.status.as_str().to_string(),
