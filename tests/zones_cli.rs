@@ -258,6 +258,12 @@ fn zoned_outputs_carry_zones_and_assess_reads_them_back() {
             serde_json::from_str(&std::fs::read_to_string(a.join("assessment.json")).unwrap())
                 .unwrap();
         assert_eq!(json["zones"]["source"], "file");
+        // The solve's own network keeps every zone rule.
+        assert_eq!(
+            json["zones"]["rules_broken"],
+            serde_json::json!([]),
+            "{file}"
+        );
     }
 
     // A hand case: two cells, one in each zone. Cost = cost_a (no-take, full) + 0.4 × cost_b
@@ -327,6 +333,13 @@ fn zoned_outputs_carry_zones_and_assess_reads_them_back() {
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(a.join("assessment.json")).unwrap()).unwrap();
     assert_eq!(json["zones"]["assumed_zone"], "no-take");
+    // Two cells cannot hold 10 % of every feature in no-take: the zone target is missed, and
+    // said so (terminal and assessment.json).
+    assert!(
+        text.contains("warning: the zone target of `no-take` is missed"),
+        "{text}"
+    );
+    assert_eq!(json["zones"]["rules_broken"].as_array().unwrap().len(), 1);
     assert!(std::fs::read_to_string(a.join("report.html"))
         .unwrap()
         .contains("names no zones"));

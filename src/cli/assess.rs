@@ -65,15 +65,17 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
         .unwrap_or_else(|| driftplan::model::zones::first_zone(selected));
     let matrix = stress_assigned(
         &problem,
-        &[(name.clone(), assignment)],
+        &[(name.clone(), assignment.clone())],
         &options,
         args.no_stress,
         progress,
     )?;
     let cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
-    let zones_json = shares
-        .as_ref()
-        .map(|s| driftplan::assess::zones::zones_json(&read.zone_source, zone_note.as_deref(), s));
+    // Zone rules a network from a file may break (a solve's never does).
+    let broken = driftplan::assess::zones::zone_rule_notes(&problem, &assignment);
+    let zones_json = shares.as_ref().map(|s| {
+        driftplan::assess::zones::zones_json(&read.zone_source, zone_note.as_deref(), &broken, s)
+    });
     let (network_geojson, reserves_csv) = match (&read.zones, &shares) {
         (Some(asg), Some(s)) => (
             export::network_geojson_zoned(&inputs.grid, &a, asg, s)?,
@@ -87,6 +89,12 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
     let mut facts = vec![("network".into(), network.display().to_string())];
     if let Some(n) = &zone_note {
         facts.push(("zones".into(), n.clone()));
+    }
+    for b in &broken {
+        facts.push(("zone rule broken".into(), b.clone()));
+    }
+    for z in shares.iter().flatten().filter(|z| z.reserve.is_none()) {
+        facts.push((format!("zone {}", z.zone), zone_line(z)));
     }
     let mut files = vec![
         ("coverage.csv", export::coverage_csv(&a)),
@@ -130,17 +138,13 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
         driftplan::assess::targets_reached_text(&a)
     );
     for z in shares.iter().flatten().filter(|z| z.reserve.is_none()) {
-        println!(
-            "  zone {}: {} cell{}, {:.0} km², cost {:.1}",
-            z.zone,
-            z.cells,
-            if z.cells == 1 { "" } else { "s" },
-            z.area_km2,
-            z.cost
-        );
+        println!("  zone {}: {}", z.zone, zone_line(z));
     }
     if let Some(n) = &zone_note {
         println!("  zones: {n}");
+    }
+    for b in &broken {
+        println!("  warning: {b}");
     }
     for note in driftplan::features::absent::first_notes(
         driftplan::features::absent::absent_notes(&inputs.features),
@@ -158,4 +162,15 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
     println!("  outputs {}", out.display());
     println!("{}", export::CAUTION);
     Ok(())
+}
+
+/// One zone's share of the network in words.
+pub(crate) fn zone_line(z: &driftplan::assess::zones::ZoneShare) -> String {
+    format!(
+        "{} cell{}, {:.0} km², cost {:.1}",
+        z.cells,
+        if z.cells == 1 { "" } else { "s" },
+        z.area_km2,
+        z.cost
+    )
 }

@@ -165,6 +165,12 @@ pub(crate) fn solve(
             pipeline::ReportExtras {
                 solution: Some(&solution),
                 stress: matrix.as_ref(),
+                facts: zone_shares
+                    .iter()
+                    .flatten()
+                    .filter(|z| z.reserve.is_none())
+                    .map(|z| (format!("zone {}", z.zone), super::assess::zone_line(z)))
+                    .collect(),
                 ..Default::default()
             },
         )?,
@@ -379,14 +385,7 @@ fn print_summary(
         .flat_map(|z| z.iter())
         .filter(|z| z.reserve.is_none())
     {
-        println!(
-            "  zone        {}: {} cell{}, {:.0} km², cost {:.1}",
-            z.zone,
-            z.cells,
-            if z.cells == 1 { "" } else { "s" },
-            z.area_km2,
-            z.cost
-        );
+        println!("  zone        {}: {}", z.zone, super::assess::zone_line(z));
     }
     println!(
         "  targets reached {}",
