@@ -498,3 +498,77 @@ fn zoned_portfolio_members_against_enumeration() {
     }
     assert!(members >= 6, "{members} later members checked");
 }
+
+#[test]
+fn zoned_ranking_is_nested_and_each_step_equals_enumeration() {
+    use driftplan::study::rank;
+    use driftplan::study::sweep::SweepBudget;
+    // Each step, by the sweep's rule (study::sweep): when some zone assignment within the
+    // area budget that keeps the last step's cells reaches every target, the least-cost such
+    // one; otherwise the best benefit, then the least cost at it. Enumerated over all 3⁸
+    // assignments and scored with model::evaluate_zoned.
+    let (mut steps, mut partial) = (0, 0);
+    for seed in 0..4 {
+        let mut p = instance(seed, Objective::MaxBenefit);
+        p.budget = Budget::default();
+        p.edge_penalty = None;
+        let total: f64 = p.area_km2.iter().sum();
+        let shares = [0.25, 0.5, 0.75];
+        let r = rank(&p, &shares, SweepBudget::Area(total), &opts(), &|_| {}).unwrap();
+        let mut previous = vec![false; 8];
+        for (k, step) in r.steps.iter().enumerate() {
+            let sol = &step.run.solution;
+            let zones = sol.zones.clone().expect("a zoned step carries its zones");
+            assert!(
+                (0..8).all(|i| !previous[i] || sol.selected[i]),
+                "seed {seed} step {k} not nested"
+            );
+            let mut q = p.clone();
+            q.budget.max_area_km2 = Some(shares[k] * total);
+            let mut scored = Vec::new();
+            for code in 0..3u32.pow(8) {
+                let asg: Vec<u8> = (0..8).map(|i| (code / 3u32.pow(i) % 3) as u8).collect();
+                if (0..8).any(|i| previous[i] && asg[i] == 0) {
+                    continue;
+                }
+                let e = evaluate_zoned(&q, &asg);
+                if e.feasible {
+                    scored.push(e);
+                }
+            }
+            let every: Vec<(f64, f64)> = scored
+                .iter()
+                .filter(|e| e.targets_reached == e.reached.len())
+                .map(|e| (e.objective, e.cost))
+                .collect();
+            let pool: Vec<(f64, f64)> = if every.is_empty() {
+                scored.iter().map(|e| (e.objective, e.cost)).collect()
+            } else {
+                every
+            };
+            let best = pool.iter().map(|x| x.0).fold(f64::MIN, f64::max);
+            let cheapest = pool
+                .iter()
+                .filter(|x| x.0 >= best - 1e-6 * best.abs().max(1.0))
+                .map(|x| x.1)
+                .fold(f64::MAX, f64::min);
+            let e = evaluate_zoned(&q, &zones);
+            assert!(
+                (e.objective - best).abs() < 1e-5 * best.abs().max(1.0),
+                "seed {seed} step {k}: benefit {} vs enumeration {best}",
+                e.objective
+            );
+            assert!(
+                (e.cost - cheapest).abs() < 1e-6,
+                "seed {seed} step {k}: cost {} vs enumeration {cheapest}",
+                e.cost
+            );
+            assert!((step.run.cost - e.cost).abs() < 1e-9);
+            previous = sol.selected.clone();
+            steps += 1;
+            partial += usize::from(zones.contains(&2));
+        }
+    }
+    assert_eq!(steps, 12);
+    assert!(partial >= 2, "{partial} steps use partial use");
+}
