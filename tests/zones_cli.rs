@@ -85,6 +85,16 @@ fn zoned_solve_meets_zone_targets_and_counts_partial_credit() {
         "only {checked} features matched a cells.csv column"
     );
 
+    // summary.json's zones: the network's cells per zone, as cells.csv counts them.
+    for z in summary["zones"].as_array().unwrap() {
+        let code = z["code"].as_u64().unwrap().to_string();
+        assert_eq!(
+            z["cells"].as_u64().unwrap() as usize,
+            cells.iter().filter(|c| c[zone] == *code).count()
+        );
+    }
+    assert_eq!(summary["zones"].as_array().unwrap().len(), 2);
+
     // zones.csv: the network rows add up to cells.csv's zone counts.
     let (_, z) = rows(&out.join("zones.csv"));
     let mut counts: HashMap<String, usize> = HashMap::new();

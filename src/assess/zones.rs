@@ -11,7 +11,7 @@ use crate::model::Zoning;
 const MET_REL_TOL: f64 = 1e-9;
 
 /// What one zone holds, over the network or within one reserve.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ZoneShare {
     /// 1-based zone code as in the `zone` column of the cell outputs.
     pub code: u8,

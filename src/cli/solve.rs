@@ -275,6 +275,15 @@ fn write_solution(
     summary.sampling = inputs.sampling.clone();
     summary.velocity_floored_cells = inputs.velocity_floored.iter().cloned().collect();
     summary.grid_crs = Some(inputs.grid.crs.describe());
+    summary.zones = zones
+        .map(|(_, shares)| {
+            shares
+                .iter()
+                .filter(|z| z.reserve.is_none())
+                .cloned()
+                .collect()
+        })
+        .unwrap_or_default();
     let reserves = driftplan::assess::reserve_of_cells(assessment, inputs.grid.len());
     let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
     let (network, reserves_csv) = match zones {
