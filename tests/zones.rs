@@ -572,3 +572,37 @@ fn zoned_ranking_is_nested_and_each_step_equals_enumeration() {
     assert_eq!(steps, 12);
     assert!(partial >= 2, "{partial} steps use partial use");
 }
+
+#[test]
+fn zoned_least_regret_equals_enumeration() {
+    // Least-regret needs each scenario's best benefit alone (Bₛ*), solved on the scenario's
+    // own features: the zones' credits and zone targets must follow them
+    // (model::robust::restrict_to_scenario). HiGHS against enumeration of every assignment.
+    let mut solved = 0;
+    for seed in 0..4 {
+        let mut p = two_scenarios(seed, Objective::MaxBenefit);
+        p.robustness = Robustness::LeastRegret;
+        match (
+            BruteForce.solve(&p, &opts()),
+            Highs::default().solve(&p, &opts()),
+        ) {
+            (Ok(b), Ok(h)) => {
+                assert!(
+                    (h.objective - b.objective).abs() < 1e-6,
+                    "seed {seed}: HiGHS {} vs enumeration {}",
+                    h.objective,
+                    b.objective
+                );
+                assert_eq!(h.scenario_best.as_ref().map(Vec::len), Some(2));
+                solved += 1;
+            }
+            (Err(_), Err(_)) => {}
+            (b, h) => panic!(
+                "seed {seed}: enumeration {:?} vs HiGHS {:?}",
+                b.map(|s| s.objective),
+                h.map(|s| s.objective)
+            ),
+        }
+    }
+    assert!(solved >= 3, "{solved}");
+}
