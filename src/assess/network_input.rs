@@ -344,7 +344,7 @@ fn feature_zones(
         feature,
         message,
     };
-    words
+    let codes = words
         .iter()
         .enumerate()
         .map(|(i, w)| {
@@ -372,8 +372,8 @@ fn feature_zones(
                 )
             })
         })
-        .collect::<Result<Vec<u8>, _>>()
-        .map(|codes| (doc.clone(), Some(codes)))
+        .collect::<Result<Vec<u8>, _>>()?;
+    Ok((doc, Some(codes)))
 }
 
 /// Each chosen cell's zone: the zone whose features cover most of its sea area. Each zone's
