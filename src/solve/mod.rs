@@ -4,7 +4,7 @@
 //! [`ilp::Highs`] is the exact solver (HiGHS through good_lp); [`greedy::Greedy`] and
 //! [`anneal::Anneal`] are heuristic baselines on the same [`crate::model::Problem`] and
 //! objective; [`brute::BruteForce`] enumerates small problems for checks. All of them report
-//! the objective in the problem's own sense, as [`crate::model::evaluate`] recomputes it.
+//! the objective in the problem's own sense, as [`crate::model::evaluate()`] recomputes it.
 
 use crate::model::robust::{effective_robustness, scenario_problem};
 use crate::model::{evaluate, ModelError, Problem, Robustness, ScenarioResult};
