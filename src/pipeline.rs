@@ -640,18 +640,43 @@ pub fn assess_solution(
     problem: &Problem,
     solution: &Solution,
 ) -> (Assessment, Option<Vec<crate::assess::zones::ZoneShare>>) {
-    let mut a = assess_network(inputs, &solution.selected);
-    let shares = match (&problem.zoning, &solution.zones) {
-        (Some(z), Some(asg)) => Some(crate::assess::zones::apply_zones(
+    assess_zoned(
+        inputs,
+        problem,
+        &solution.selected,
+        solution.zones.as_deref(),
+    )
+}
+
+/// Assesses a network under the plan: as [`assess_network`], and on a zoned problem re-scored
+/// with each cell's zone (`assignment`: 0 outside, 1 + zone index; `None` puts every chosen
+/// cell in the first zone, [`crate::model::zones::first_zone`]), with each zone's share of
+/// the network and of each reserve.
+pub fn assess_zoned(
+    inputs: &Inputs,
+    problem: &Problem,
+    selected: &[bool],
+    assignment: Option<&[u8]>,
+) -> (Assessment, Option<Vec<crate::assess::zones::ZoneShare>>) {
+    let mut a = assess_network(inputs, selected);
+    let shares = problem.zoning.as_ref().map(|z| {
+        let first;
+        let asg = match assignment {
+            Some(asg) => asg,
+            None => {
+                first = crate::model::zones::first_zone(selected);
+                &first
+            }
+        };
+        crate::assess::zones::apply_zones(
             &mut a,
             &inputs.grid,
             &inputs.features,
             &inputs.cost,
             z,
             asg,
-        )),
-        _ => None,
-    };
+        )
+    });
     (a, shares)
 }
 
@@ -763,7 +788,8 @@ pub struct ReportExtras<'a> {
     pub panels: Option<crate::report::NetworkPanels>,
 }
 
-/// `report.html` of a network under the plan (see [`crate::report`]).
+/// `report.html` of a network under the plan (see [`crate::report`]); a zoned solution's zones
+/// are coloured on the map.
 pub fn report_html(
     plan: &Plan,
     inputs: &Inputs,
@@ -771,6 +797,21 @@ pub fn report_html(
     assessment: &Assessment,
     extras: ReportExtras,
 ) -> Result<String, crate::export::ExportError> {
+    let zones = extras.solution.and_then(|s| s.zones.clone());
+    report_html_zoned(plan, inputs, selected, zones.as_deref(), assessment, extras)
+}
+
+/// [`report_html`] of a network whose cells carry zones (`assignment`: 0 outside, 1 + the
+/// plan zone's index), drawn in each zone's colour when the plan has `[[zones]]`.
+pub fn report_html_zoned(
+    plan: &Plan,
+    inputs: &Inputs,
+    selected: &[bool],
+    assignment: Option<&[u8]>,
+    assessment: &Assessment,
+    extras: ReportExtras,
+) -> Result<String, crate::export::ExportError> {
+    let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
     let mut facts = run_facts(plan, extras.solution, assessment);
     facts.extend(
         crate::features::absent::absent_notes(&inputs.features)
@@ -797,6 +838,12 @@ pub fn report_html(
         stress: extras.stress.map(crate::study::stress::report_table),
         sweep: extras.sweep.map(crate::study::sweep::report_points),
         panels: extras.panels,
+        zones: assignment.filter(|_| !zone_names.is_empty()).map(|asg| {
+            crate::report::ReportZones {
+                names: &zone_names,
+                assignment: asg,
+            }
+        }),
     })
 }
 

@@ -45,7 +45,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         &clock.options(&options, 0.2, 1),
     )?;
     let base = pipeline::optimise(&base_problem, &clock.options(&options, 0.2, 1))?;
-    let assessment = pipeline::assess_network(&inputs, &base.selected);
+    let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &base_problem, &base);
     let units: Vec<(String, Vec<u32>)> = if a.cells {
         (0..base.selected.len() as u32)
             .filter(|&c| base.selected[c as usize])
@@ -108,7 +108,12 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         ),
         (
             "network.geojson",
-            export::geojson::network_geojson(&inputs.grid, &assessment)?,
+            match (&base.zones, &zone_shares) {
+                (Some(asg), Some(shares)) => {
+                    export::network_geojson_zoned(&inputs.grid, &assessment, asg, shares)?
+                }
+                _ => export::geojson::network_geojson(&inputs.grid, &assessment)?,
+            },
         ),
         (
             "report.html",

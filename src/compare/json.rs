@@ -42,6 +42,8 @@ struct ComparisonOut<'a> {
     warnings: Vec<WarningOut<'a>>,
     measures: Vec<MeasureOut<'a>>,
     features: Vec<FeatureOut<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    zones: Option<&'a serde_json::Value>,
     caution: &'a str,
     driftplan_version: &'a str,
 }
@@ -63,6 +65,13 @@ struct ComparisonOut<'a> {
 ///
 /// Non-finite numbers are written as `null`.
 pub fn compare_json(c: &Comparison) -> String {
+    compare_json_with_zones(c, None)
+}
+
+/// [`compare_json`] with a `zones` member after `features` when `zones` is given (how a zoned
+/// network's zones were read and each zone's share; `assess` writes it into
+/// `assessment.json`).
+pub fn compare_json_with_zones(c: &Comparison, zones: Option<&serde_json::Value>) -> String {
     let names =
         |idx: &[usize]| -> Vec<&str> { idx.iter().map(|&i| c.networks[i].as_str()).collect() };
     let out = ComparisonOut {
@@ -102,6 +111,7 @@ pub fn compare_json(c: &Comparison) -> String {
                 best: names(&f.best),
             })
             .collect(),
+        zones,
         caution: CAUTION,
         driftplan_version: env!("CARGO_PKG_VERSION"),
     };

@@ -11,7 +11,7 @@ mod measures;
 mod rank;
 mod table;
 
-pub use json::compare_json;
+pub use json::{compare_json, compare_json_with_zones};
 pub use long_csv::{compare_csv, COMPARE_COLUMNS};
 pub use measures::{network_measures, protected_share, Better, MeasureValue};
 pub use rank::{differences, Difference, DifferenceOf};
