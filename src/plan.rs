@@ -714,6 +714,20 @@ impl Checker {
     }
 }
 
+/// A species name as planners write it, Latin binomials with spaces included
+/// (`Sebastes fasciatus`): any text without `/` (it separates the parts of feature names),
+/// braces (template placeholders), quotes, backslashes or control characters, and without
+/// space at either end. Column and file names derived from it are made safe where they are
+/// written (`export::columns`); tables keep the name as given.
+fn valid_species_name(s: &str) -> bool {
+    !s.is_empty()
+        && s.trim() == s
+        && s.chars().count() <= 100
+        && !s
+            .chars()
+            .any(|c| c.is_control() || matches!(c, '/' | '{' | '}' | '"' | '\\'))
+}
+
 fn valid_name(s: &str) -> bool {
     !s.is_empty()
         && s.chars()
@@ -924,10 +938,10 @@ impl Plan {
             let key = format!("species[{i}]");
             ck.unknown(&key, &s.extra, &reference::keys_of("species[]"));
             let name = s.name.clone().unwrap_or_default();
-            if !valid_name(&name) {
+            if !valid_species_name(&name) {
                 ck.push(
                     format!("{key}.name"),
-                    format!("`{name}`: a species needs a name of letters, digits, `-`, `_` or `.`"),
+                    format!("`{name}`: a species needs a name (e.g. `amber-wrasse` or `Sebastes fasciatus`) without `/`, braces, quotes, backslashes or space at either end"),
                 );
             } else if !names.insert(name.clone()) {
                 ck.push(

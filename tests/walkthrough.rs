@@ -33,10 +33,9 @@ fn lattice() -> Vec<(f64, f64)> {
     pts
 }
 
-#[test]
-fn the_walkthrough_plan_runs_to_a_report() {
-    let tmp = tempfile::tempdir().unwrap();
-    let dir = tmp.path().join("my-plan");
+/// The page's files under `dir`: region, land, cost and habitat with `first` as the first
+/// species' column name.
+fn write_data(dir: &Path, first: &str) {
     std::fs::create_dir_all(dir.join("habitat")).unwrap();
     std::fs::write(
         dir.join("region.geojson"),
@@ -61,7 +60,7 @@ fn the_walkthrough_plan_runs_to_a_report() {
         for (y, year) in [2030, 2050].iter().enumerate() {
             // Kelp shifts south (poleward here) with time and warming; seagrass stays inshore.
             let shift = 0.1 * (s + y) as f64;
-            let mut t = String::from("lon,lat,kelp,seagrass\n");
+            let mut t = format!("lon,lat,{first},seagrass\n");
             for (lon, lat) in lattice() {
                 let kelp = (1.0 - ((lat + 33.4 + shift) / 0.4).powi(2)).clamp(0.0, 1.0);
                 let grass = (1.0 - (lon - 14.0) / 0.6).clamp(0.0, 1.0);
@@ -70,6 +69,13 @@ fn the_walkthrough_plan_runs_to_a_report() {
             std::fs::write(dir.join(format!("habitat/{scenario}_{year}.csv")), t).unwrap();
         }
     }
+}
+
+#[test]
+fn the_walkthrough_plan_runs_to_a_report() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("my-plan");
+    write_data(&dir, "kelp");
     let plan = dir.join("plan.toml");
     std::fs::write(&plan, plan_from_page()).unwrap();
     let check = common::run_quiet(&[common::os("check"), plan.as_os_str()]);
@@ -103,4 +109,42 @@ fn the_walkthrough_plan_runs_to_a_report() {
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     assert_eq!(summary["targets_reached"], 8, "{summary}");
+}
+
+/// A Latin binomial with a space is a species name like any other: the CSV column is found
+/// by it as written, output columns get the safe form, and tables keep the name.
+#[test]
+fn a_species_named_with_a_space_keeps_its_name_and_gets_safe_columns() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("my-plan");
+    write_data(&dir, "Sebastes fasciatus");
+    let plan = dir.join("plan.toml");
+    std::fs::write(
+        &plan,
+        plan_from_page().replace("name = \"kelp\"", "name = \"Sebastes fasciatus\""),
+    )
+    .unwrap();
+    let out = tmp.path().join("features");
+    let run = common::run_quiet(&[
+        common::os("features"),
+        plan.as_os_str(),
+        common::os("--out"),
+        out.as_os_str(),
+    ]);
+    assert!(
+        run.status.success(),
+        "{}",
+        String::from_utf8_lossy(&run.stderr)
+    );
+    let cells = std::fs::read_to_string(out.join("cells.csv")).unwrap();
+    let header = cells.lines().next().unwrap();
+    assert!(
+        header.contains(",habitat_sebastes_fasciatus_ssp2_4_5_2030_km2,"),
+        "{header}"
+    );
+    let features = std::fs::read_to_string(out.join("features.csv")).unwrap();
+    assert!(
+        features.contains("habitat/Sebastes fasciatus/ssp2-4.5/2030,habitat,Sebastes fasciatus,"),
+        "{features}"
+    );
 }

@@ -105,7 +105,7 @@ pub const KEYS: &[KeyDoc] = &[
     // targets
     k("targets", "default", "number", "0.3", "0–1", "share", "default = 0.3", "Share of each species' habitat (per scenario and year) the network must hold; 0.3 is the Kunming-Montreal Target 3 share."),
     // species
-    k("species[]", "name", "string", "required", "letters, digits, `-`, `_`, `.`; distinct", "", "name = \"amber-wrasse\"", "The species; `{species}` in its habitat path or column takes it."),
+    k("species[]", "name", "string", "required", "any text without `/`, braces, quotes or backslashes; distinct", "", "name = \"Sebastes fasciatus\"", "The species; `{species}` in its habitat path or column takes it as written. Output column names use a safe form (lower case, `_` for anything else); tables keep the name as given."),
     k("species[]", "habitat", "layer table", "required", "values 0–1", "share of the cell", "habitat = { path = \"ocean/{scenario}_{year}.csv\", column = \"{species}\" }", "Habitat suitability per scenario and year; a cell holds suitability × its sea area (km²)."),
     k("species[]", "target", "number", "`[targets] default`", "0–1", "share", "target = 0.4", "This species' own target share."),
     k("species[]", "weight", "number", "1", "≥ 0", "", "weight = 2", "How much the species counts in max-benefit objectives."),
