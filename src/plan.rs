@@ -328,6 +328,7 @@ struct RawPlan {
     scenarios: Option<RawScenarios>,
     #[serde(default)]
     species: Vec<RawSpecies>,
+    species_list: Option<RawSpeciesList>,
     temperature: Option<RawLayer>,
     cost: Option<toml::Value>,
     required: Option<RawAreaRule>,
@@ -381,7 +382,7 @@ pub(crate) struct RawLayer {
     extra: Extra,
 }
 
-#[derive(Deserialize)]
+#[derive(Deserialize, Clone)]
 struct RawSpecies {
     name: Option<String>,
     habitat: Option<RawLayer>,
@@ -397,6 +398,19 @@ struct RawAreaRule {
     #[serde(flatten)]
     layer: RawLayer,
     min_share: Option<f64>,
+}
+
+/// `[species_list]`: many species that share one habitat source (a file per scenario and year
+/// with a column per species), so a 40-species plan is not 40 tables.
+#[derive(Deserialize)]
+struct RawSpeciesList {
+    names: Option<Vec<String>>,
+    habitat: Option<RawLayer>,
+    target: Option<f64>,
+    weight: Option<f64>,
+    may_be_absent: Option<bool>,
+    #[serde(flatten)]
+    extra: Extra,
 }
 
 #[derive(Deserialize)]
@@ -714,6 +728,81 @@ impl Checker {
     }
 }
 
+/// One species entry checked: its name (`name_key` names the key of the name), target, weight
+/// and habitat layer (under `key`), with every problem pushed to `ck`. `names` collects the
+/// names seen so far, so a name given twice is reported.
+#[allow(clippy::too_many_arguments)]
+fn species_entry(
+    ck: &mut Checker,
+    name_key: &str,
+    key: &str,
+    s: &RawSpecies,
+    names: &mut std::collections::BTreeSet<String>,
+    scenarios: &[String],
+    years: &[i32],
+) -> Option<SpeciesPlan> {
+    if key != "species_list" {
+        ck.unknown(key, &s.extra, &reference::keys_of("species[]"));
+    }
+    let name = s.name.clone().unwrap_or_default();
+    if !valid_species_name(&name) {
+        ck.push(
+                name_key.to_string(),
+                format!("`{name}`: a species needs a name (e.g. `amber-wrasse` or `Sebastes fasciatus`) without `/`, braces, quotes, backslashes or space at either end"),
+            );
+    } else if !names.insert(name.clone()) {
+        ck.push(
+            name_key.to_string(),
+            format!("species `{name}` is listed twice"),
+        );
+    }
+    let target = s
+        .target
+        .map(|v| ck.share(&format!("{key}.target"), v, true));
+    let weight = s.weight.unwrap_or(1.0);
+    if !(weight.is_finite() && weight >= 0.0) {
+        ck.push(
+            format!("{key}.weight"),
+            format!("must be a non-negative number, got {weight}"),
+        );
+    }
+    let Some(h) = &s.habitat else {
+        ck.push(
+            format!("{key}.habitat"),
+            "missing: `habitat = { path = \"...\", column = \"...\" }`",
+        );
+        return None;
+    };
+    // Habitat polygons say where the species lives: outside them is no habitat, not
+    // missing data. Point grids and rasters that miss cells are still errors.
+    let polygons = h.path.as_deref().is_some_and(|p| {
+        let p = p.to_ascii_lowercase();
+        [".geojson", ".json", ".gpkg", ".shp", ".fgb"]
+            .iter()
+            .any(|e| p.ends_with(e))
+    });
+    let default_missing = if polygons {
+        Missing::Zero
+    } else {
+        Missing::Error
+    };
+    if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, default_missing) {
+        // Habitat is a suitability share of each cell.
+        if t.valid_range.is_none() {
+            t.valid_range = Some((0.0, 1.0));
+        }
+        ck.template_files(&format!("{key}.habitat"), &t, &[&name], scenarios, years);
+        return Some(SpeciesPlan {
+            name,
+            habitat: t,
+            target,
+            weight,
+            may_be_absent: s.may_be_absent.unwrap_or(false),
+        });
+    }
+    None
+}
+
 /// A species name as planners write it, Latin binomials with spaces included
 /// (`Sebastes fasciatus`): any text without `/` (it separates the parts of feature names),
 /// braces (template placeholders), quotes, backslashes or control characters, and without
@@ -925,75 +1014,73 @@ impl Plan {
             }
         };
 
-        // Species.
-        if raw.species.is_empty() {
+        // Species: each `[[species]]` table, then each name of `[species_list]` with the list's
+        // shared keys. (name key, key of the other fields, the species as written.)
+        let mut entries: Vec<(String, String, RawSpecies)> = raw
+            .species
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                (
+                    format!("species[{i}].name"),
+                    format!("species[{i}]"),
+                    s.clone(),
+                )
+            })
+            .collect();
+        if let Some(l) = &raw.species_list {
+            ck.unknown(
+                "species_list",
+                &l.extra,
+                &reference::keys_of("species_list"),
+            );
+            let names = l.names.clone().unwrap_or_default();
+            if names.is_empty() {
+                ck.push(
+                    "species_list.names",
+                    "needs at least one species name, e.g. `names = [\"amber-wrasse\", \"Sebastes fasciatus\"]`",
+                );
+            }
+            for (j, n) in names.into_iter().enumerate() {
+                entries.push((
+                    format!("species_list.names[{j}]"),
+                    "species_list".into(),
+                    RawSpecies {
+                        name: Some(n),
+                        habitat: l.habitat.clone(),
+                        target: l.target,
+                        weight: l.weight,
+                        may_be_absent: l.may_be_absent,
+                        extra: Extra::new(),
+                    },
+                ));
+            }
+        }
+        if entries.is_empty() {
             ck.push(
                 "species",
-                "needs at least one `[[species]]` with `name` and `habitat`",
+                "needs at least one `[[species]]` with `name` and `habitat` (or a `[species_list]`)",
             );
         }
         let mut species = Vec::new();
         let mut names = std::collections::BTreeSet::new();
-        for (i, s) in raw.species.iter().enumerate() {
-            let key = format!("species[{i}]");
-            ck.unknown(&key, &s.extra, &reference::keys_of("species[]"));
-            let name = s.name.clone().unwrap_or_default();
-            if !valid_species_name(&name) {
-                ck.push(
-                    format!("{key}.name"),
-                    format!("`{name}`: a species needs a name (e.g. `amber-wrasse` or `Sebastes fasciatus`) without `/`, braces, quotes, backslashes or space at either end"),
-                );
-            } else if !names.insert(name.clone()) {
-                ck.push(
-                    format!("{key}.name"),
-                    format!("species `{name}` is listed twice"),
-                );
-            }
-            let target = s
-                .target
-                .map(|v| ck.share(&format!("{key}.target"), v, true));
-            let weight = s.weight.unwrap_or(1.0);
-            if !(weight.is_finite() && weight >= 0.0) {
-                ck.push(
-                    format!("{key}.weight"),
-                    format!("must be a non-negative number, got {weight}"),
-                );
-            }
-            let Some(h) = &s.habitat else {
-                ck.push(
-                    format!("{key}.habitat"),
-                    "missing: `habitat = { path = \"...\", column = \"...\" }`",
-                );
-                continue;
-            };
-            // Habitat polygons say where the species lives: outside them is no habitat, not
-            // missing data. Point grids and rasters that miss cells are still errors.
-            let polygons = h.path.as_deref().is_some_and(|p| {
-                let p = p.to_ascii_lowercase();
-                [".geojson", ".json", ".gpkg", ".shp", ".fgb"]
-                    .iter()
-                    .any(|e| p.ends_with(e))
-            });
-            let default_missing = if polygons {
-                Missing::Zero
-            } else {
-                Missing::Error
-            };
-            if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, default_missing) {
-                // Habitat is a suitability share of each cell.
-                if t.valid_range.is_none() {
-                    t.valid_range = Some((0.0, 1.0));
-                }
-                ck.template_files(&format!("{key}.habitat"), &t, &[&name], &scenarios, &years);
-                species.push(SpeciesPlan {
-                    name,
-                    habitat: t,
-                    target,
-                    weight,
-                    may_be_absent: s.may_be_absent.unwrap_or(false),
-                });
+        // The list's shared keys are checked for every species (their files may differ by
+        // species), but a problem of the shared keys is reported once.
+        let before = ck.issues.len();
+        for (name_key, key, s) in &entries {
+            if let Some(sp) =
+                species_entry(&mut ck, name_key, key, s, &mut names, &scenarios, &years)
+            {
+                species.push(sp);
             }
         }
+        let mut seen = std::collections::BTreeSet::new();
+        let species_issues: Vec<PlanIssue> = ck
+            .issues
+            .drain(before..)
+            .filter(|i| seen.insert((i.key.clone(), i.message.clone())))
+            .collect();
+        ck.issues.extend(species_issues);
 
         let temperature = raw.temperature.as_ref().and_then(|t| {
             let lt = ck.layer("temperature", t, Missing::Error)?;
