@@ -780,6 +780,9 @@ fn questionable_networks_are_scored_with_warnings_everywhere() {
             stdout.contains(&format!("warning: {warning}")),
             "{name}: {stdout}"
         );
+        // The last line names the report to open, after the caution.
+        let last = stdout.lines().last().unwrap_or_default();
+        assert_eq!(last, format!("open {}", dir.join("report.html").display()));
         let json: serde_json::Value =
             serde_json::from_str(&std::fs::read_to_string(dir.join("assessment.json")).unwrap())
                 .unwrap();

@@ -170,7 +170,7 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("  outputs {}", out.display());
-    println!("{}", export::CAUTION);
+    super::closing_lines(out);
     Ok(())
 }
 

@@ -189,6 +189,6 @@ fn compare(
         print!("{}", driftplan::study::stress::stress_table(m));
     }
     println!("outputs {}", out.display());
-    println!("{}", export::CAUTION);
+    super::closing_lines(out);
     Ok(())
 }

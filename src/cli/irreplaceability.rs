@@ -163,6 +163,6 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         );
     }
     println!("outputs {}", a.out.display());
-    println!("{}", export::CAUTION);
+    super::closing_lines(&a.out);
     Ok(())
 }

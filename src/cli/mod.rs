@@ -370,6 +370,12 @@ pub(crate) fn stress_assigned(
     Ok(Some(m))
 }
 
+/// The last lines of a command that wrote a report: the caution, then the report to open.
+pub(crate) fn closing_lines(out: &Path) {
+    println!("{}", driftplan::export::CAUTION);
+    println!("open {}", out.join("report.html").display());
+}
+
 /// The file name without its extension, as a default network name.
 pub(crate) fn file_stem(p: &Path) -> String {
     p.file_stem()

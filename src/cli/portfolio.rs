@@ -217,6 +217,6 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         println!("diversity: mean pairwise Jaccard distance {jaccard:.3} (0 = identical, 1 = no cell shared)");
     }
     println!("outputs {}", a.out.display());
-    println!("{}", export::CAUTION);
+    super::closing_lines(&a.out);
     Ok(())
 }

@@ -159,6 +159,6 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         ranking.seconds,
         a.out.display()
     );
-    println!("{}", export::CAUTION);
+    super::closing_lines(&a.out);
     Ok(())
 }

@@ -203,8 +203,7 @@ pub(crate) fn solve(
             println!("    {line}");
         }
     }
-    println!("{}", export::CAUTION);
-    println!("open {}", out.join("report.html").display());
+    super::closing_lines(&out);
     Ok(())
 }
 
