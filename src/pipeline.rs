@@ -740,6 +740,50 @@ pub fn run_facts(
     f
 }
 
+/// The grid and how each layer was sampled, for the report's run facts: what a reader needs to
+/// judge the numbers (cell size and count, the equal-area CRS, cells that fell back from
+/// bilinear sampling, cells where the velocity's gradient was floored).
+pub fn grid_facts(inputs: &Inputs) -> Vec<(String, String)> {
+    let g = &inputs.grid;
+    let crs = g.crs.describe();
+    let mut f = vec![
+        (
+            "grid".to_string(),
+            format!(
+                "{} cell{} of {} km, {:.0} km² of sea",
+                g.len(),
+                if g.len() == 1 { "" } else { "s" },
+                g.cell_size_m / 1000.0,
+                g.cells.iter().map(|c| c.sea_area_km2).sum::<f64>()
+            ),
+        ),
+        (
+            "grid CRS".to_string(),
+            match crs.epsg {
+                Some(code) => format!("EPSG:{code} ({})", crs.definition),
+                None => crs.proj.unwrap_or(crs.definition),
+            },
+        ),
+    ];
+    f.extend(
+        crate::layers::sampling_lines(&inputs.sampling)
+            .into_iter()
+            .map(|l| ("layer sampling".to_string(), l)),
+    );
+    for (scenario, n) in &inputs.velocity_floored {
+        if *n > 0 {
+            f.push((
+                "velocity floored".to_string(),
+                format!(
+                    "{scenario}: {n} cell{} with a gradient below the floor (bearing left empty)",
+                    if *n == 1 { "" } else { "s" }
+                ),
+            ));
+        }
+    }
+    f
+}
+
 /// One map per derived climate feature kind: the sum of that kind's amounts per cell over
 /// the features of the first scenario (and scenario-free ones) in the last year (or without
 /// a year). Habitat is left out (it has its own coverage charts).
@@ -813,6 +857,7 @@ pub fn report_html_zoned(
 ) -> Result<String, crate::export::ExportError> {
     let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
     let mut facts = run_facts(plan, extras.solution, assessment);
+    facts.extend(grid_facts(inputs));
     facts.extend(
         crate::features::absent::absent_notes(&inputs.features)
             .into_iter()

@@ -109,6 +109,21 @@ fn the_walkthrough_plan_runs_to_a_report() {
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     assert_eq!(summary["targets_reached"], 8, "{summary}");
+    // The report's run facts say what a reader needs to judge the numbers: the grid (cells
+    // counted from cells.csv, the plan's 5 km), its CRS, and how the lattices were sampled
+    // (this lattice leaves out land points, so some cells fell back from bilinear).
+    let report = std::fs::read_to_string(out.join("report.html")).unwrap();
+    let cells = std::fs::read_to_string(out.join("cells.csv"))
+        .unwrap()
+        .lines()
+        .count()
+        - 1;
+    assert!(
+        report.contains(&format!("{cells} cells of 5 km")),
+        "grid fact"
+    );
+    assert!(report.contains("grid CRS"), "CRS fact");
+    assert!(report.contains("layer sampling"), "sampling fact");
 }
 
 /// A Latin binomial with a space is a species name like any other: the CSV column is found
