@@ -598,9 +598,11 @@ fn chromium_renders_the_report() {
     assert!(ok, "chromium --dump-dom failed:\n{err}");
     assert!(console_lines(&err).is_empty(), "console errors:\n{err}");
     // Hand: one network map, one budget panel (the sweep's single budget), two feature maps,
-    // two coverage charts (one per scenario) and one sweep chart = 7 SVG elements; the DOM
-    // holds all four reserves in the network map and again in the budget panel.
-    assert_eq!(dom.matches("<svg").count(), 7, "{dom}");
+    // one weakest-feature chart over both scenarios and one sweep chart = 6 SVG elements, and
+    // one coverage table per scenario (two); the DOM holds all four reserves in the network
+    // map and again in the budget panel.
+    assert_eq!(dom.matches("<svg").count(), 6, "{dom}");
+    assert_eq!(dom.matches("<table class=\"heat\"").count(), 2, "{dom}");
     assert_eq!(dom.matches("class=\"reserve\"").count(), 8);
 
     let (ok, _, err) = chromium(

@@ -9,7 +9,7 @@
 mod cells_path;
 mod chart;
 mod compare_page;
-mod coverage_chart;
+mod coverage_heatmap;
 mod escape;
 mod feature_map;
 mod frame;
@@ -132,7 +132,10 @@ h1{font-size:1.6em;margin:0 0 12px}h2{font-size:1.2em;margin:28px 0 8px;border-b
 table{border-collapse:collapse;margin:8px 0}th,td{border:1px solid #ccc;padding:4px 8px;text-align:left;\
 vertical-align:top}th{background:#f4f4f4}.small{font-size:0.85em;color:#444}\
 .maps{display:flex;flex-wrap:wrap;gap:16px}figure{margin:0}figcaption{font-size:0.9em;color:#333}\
-svg{max-width:100%;height:auto}";
+svg{max-width:100%;height:auto}\
+table.heat td{text-align:right;min-width:3.5em}table.heat caption{text-align:left;font-weight:600;padding:4px 0}\
+td.absent,.swatch.absent{background:repeating-linear-gradient(45deg,#fff,#fff 3px,#ddd 3px,#ddd 6px);color:#555}\
+.swatch{display:inline-block;width:1em;height:1em;border:1px solid #999;vertical-align:middle;margin:0 4px 0 10px}";
 
 /// Renders `report.html`. Pure: returns the text; write it with `export::write_outputs`.
 ///
@@ -180,13 +183,10 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         }
         s.push_str("</div>\n");
     }
-    let charts = coverage_chart::coverage_charts(input.coverage);
-    if !charts.is_empty() {
-        s.push_str("<h2>Coverage through time</h2>\n<p class=\"small\">Share of each target the network holds, per year; a line per species or feature kind (the lowest share when several features share a line). The dashed line is the target.</p>\n<div class=\"maps\">");
-        for c in &charts {
-            s.push_str(c);
-        }
-        s.push_str("</div>\n");
+    let coverage = coverage_heatmap::coverage_section(input.coverage);
+    if !coverage.is_empty() {
+        s.push_str("<h2>Coverage through time</h2>\n<p class=\"small\">Share of each target the network protects, per scenario and year: one row per species' habitat or derived feature (the lowest share when several features share a row), the weakest rows first. Below 100% the target is missed.</p>\n");
+        s.push_str(&coverage);
     }
     if let Some(t) = &input.stress {
         let _ = writeln!(s, "<h2>Scenario stress test</h2>\n<p class=\"small\">Each row is a network designed for one scenario, each column the scenario it is scored in: targets reached and benefit. ✓ all reached, △ at least half, ✗ fewer. {}.</p>", esc(&capital(BENEFIT)));
