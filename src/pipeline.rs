@@ -871,6 +871,14 @@ pub fn report_html_zoned(
     facts.extend(extras.facts);
     let mut feature_maps = extras.maps;
     feature_maps.extend(derived_feature_maps(inputs));
+    // The land mask again, for the map (the grid keeps only the sea). A map without its
+    // base is still a map: a land file or projection that fails here was read once already,
+    // so the report is drawn without it rather than not at all.
+    let land = plan
+        .land
+        .as_deref()
+        .and_then(|l| read_multipolygon(l, plan.repair_polygons).ok());
+    let basemap = crate::report::Basemap::build(&inputs.grid, land.as_ref()).ok();
     crate::report::report_html(&crate::report::ReportInput {
         title: &plan.name,
         facts,
@@ -889,6 +897,7 @@ pub fn report_html_zoned(
                 assignment: asg,
             }
         }),
+        basemap,
     })
 }
 

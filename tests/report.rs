@@ -8,7 +8,7 @@ use driftplan::features::{Feature, FeatureKind, FeatureTable, Target};
 use driftplan::grid::{Crs, Grid};
 use driftplan::model::CellStatus;
 use driftplan::report::{
-    report_html, ReportInput, ReportZones, StressCell, StressTable, SweepPoint,
+    report_html, Basemap, ReportInput, ReportZones, StressCell, StressTable, SweepPoint,
 };
 use geo::polygon;
 use geojson::{GeoJson, GeometryValue};
@@ -110,6 +110,22 @@ fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> Stri
     render_zoned(g, sel, status, a, None)
 }
 
+/// The land the network leaves out of cell (5, 0): the triangle above its clipped sea half,
+/// as lon/lat (the plan's land mask).
+fn land_lonlat(g: &Grid) -> geo::MultiPolygon<f64> {
+    let sq = g.cell_square(id(5, 0));
+    let (a, b) = (sq.min(), sq.max());
+    let p = g.projector().unwrap();
+    let ll = |x: f64, y: f64| {
+        let q = p.to_lonlat(x, y).unwrap();
+        (q[0], q[1])
+    };
+    let (p0, p1, p2) = (ll(a.x, a.y), ll(b.x, b.y), ll(a.x, b.y));
+    geo::MultiPolygon(vec![polygon![
+        (x: p0.0, y: p0.1), (x: p1.0, y: p1.1), (x: p2.0, y: p2.1), (x: p0.0, y: p0.1)
+    ]])
+}
+
 fn render_zoned(
     g: &Grid,
     sel: &[bool],
@@ -198,6 +214,7 @@ fn render_zoned(
             }],
         }),
         zones,
+        basemap: Some(Basemap::build(g, Some(&land_lonlat(g))).unwrap()),
     })
     .unwrap()
 }
@@ -269,16 +286,17 @@ fn svg_reserves_are_the_network_geojson_rings() {
         panic!("not a FeatureCollection")
     };
     assert_eq!(fc.features.len(), 4);
-    // The network map fits the 100 km × 100 km lattice into 800 × 800 SVG units with a
-    // 10-unit margin: u = 10 + (x + 50 000) · 0.008, v = 10 + (50 000 − y) · 0.008 (hand).
-    let scale = 800.0 / 100_000.0;
+    // The network map fits the 100 km × 100 km lattice into at most 1000 × 900 SVG units,
+    // so 900 × 900, with a 10-unit margin: u = 10 + (x + 50 000) · 0.009,
+    // v = 10 + (50 000 − y) · 0.009 (hand).
+    let scale = 900.0 / 100_000.0;
     let to_metres = |p: [f64; 2]| {
         [
             (p[0] - 10.0) / scale - 50_000.0,
             50_000.0 - (p[1] - 10.0) / scale,
         ]
     };
-    // 0.05 units of SVG rounding = 6.25 m; 6-decimal lon/lat adds ≈ 0.1 m.
+    // 0.05 units of SVG rounding ≈ 5.6 m; 6-decimal lon/lat adds ≈ 0.1 m.
     let tol = 0.06 / scale;
     let projector = g.projector().unwrap();
     let mut holes = 0;
@@ -306,9 +324,9 @@ fn svg_reserves_are_the_network_geojson_rings() {
     }
     // Hand: reserve A has one hole, reserve B one (touching its exterior at a corner).
     assert_eq!(holes, 2);
-    // Scale bar: 100 km wide → a quarter is 25 km → 20 km bar of 20 000 × 0.008 = 160 units.
+    // Scale bar: 100 km wide → a quarter is 25 km → 20 km bar of 20 000 × 0.009 = 180 units.
     assert!(
-        html.contains(r#"data-km="20" data-svg-length="160""#),
+        html.contains(r#"data-km="20" data-svg-length="180""#),
         "scale bar"
     );
     for bad in ["http://", "https://", "<script"] {
@@ -425,8 +443,8 @@ fn zoned_cells_are_filled_in_their_zone_colour_with_a_legend_entry_each() {
     // Okabe & Ito (2008) / Wong (2011, Nature Methods 8:441): bluish green #009E73 and orange
     // #E69F00; the first zone takes the reserve colour, the second the next hue.
     let colours = [("no-take", "#009E73"), ("partial-use", "#E69F00")];
-    // The scale bar gives SVG units per km (20 km = 160 units here, see above).
-    let per_km = 160.0 / 20.0;
+    // The scale bar gives SVG units per km (20 km = 180 units here, see above).
+    let per_km = 180.0 / 20.0;
     for (code, (zone, colour)) in colours.iter().enumerate() {
         let code = code as u8 + 1;
         let at = html
@@ -603,6 +621,17 @@ fn chromium_renders_the_report() {
     // map and again in the budget panel.
     assert_eq!(dom.matches("<svg").count(), 6, "{dom}");
     assert_eq!(dom.matches("<table class=\"heat\"").count(), 2, "{dom}");
+    // The base of the network map: land, degree labels of the graticule (the grid spans about
+    // 9.2–10.8°E and 54.55–55.45°N, so a 0.5° spacing labels 10°E and 55°N), the north arrow
+    // and each reserve's number.
+    assert!(dom.contains("class=\"land\""), "no land in the DOM");
+    for label in [">10°E<", ">55°N<"] {
+        assert!(dom.contains(label), "no graticule label {label}");
+    }
+    assert!(dom.contains("class=\"north-arrow\""));
+    for n in 1..=4 {
+        assert!(dom.contains(&format!("class=\"reserve-label\" data-reserve=\"{n}\"")));
+    }
     assert_eq!(dom.matches("class=\"reserve\"").count(), 8);
 
     let (ok, _, err) = chromium(
@@ -656,4 +685,112 @@ fn chromium_renders_the_report() {
     assert_eq!(dom.matches(r#"class="legend-zone""#).count(), 2);
     assert!(!dom.contains(r#"data-zone="seasonal""#));
     assert!(dom.contains("Zone partial-use ("));
+}
+
+/// The first `<svg class="map"` … `</svg>` of a page: the network map.
+fn network_svg(html: &str) -> String {
+    let a = html.find("<svg class=\"map\"").unwrap();
+    let b = a + html[a..].find("</svg>").unwrap() + "</svg>".len();
+    html[a..b].to_string()
+}
+
+/// The mean of the vertices of the first `<path class="{class}" … d="…">`: inside a triangle.
+fn path_centre(svg: &str, class: &str) -> (f64, f64) {
+    let a = svg.find(&format!("class=\"{class}\"")).unwrap();
+    let d = attr(svg, svg[..a].rfind('<').unwrap(), "d");
+    let nums: Vec<f64> = d
+        .split(|c: char| c.is_ascii_alphabetic() || c == ' ')
+        .filter(|t| !t.is_empty())
+        .map(|t| t.parse().unwrap())
+        .collect();
+    let n = (nums.len() / 2) as f64;
+    let u = nums.iter().step_by(2).sum::<f64>() / n;
+    let v = nums.iter().skip(1).step_by(2).sum::<f64>() / n;
+    (u, v)
+}
+
+/// The RGB of pixel (x, y) of a PNG.
+fn pixel(path: &Path, x: usize, y: usize) -> [u8; 3] {
+    let file = std::io::BufReader::new(std::fs::File::open(path).unwrap());
+    let mut decoder = png::Decoder::new(file);
+    decoder.set_transformations(png::Transformations::EXPAND | png::Transformations::STRIP_16);
+    let mut reader = decoder.read_info().unwrap();
+    let mut buf = vec![0; reader.output_buffer_size().unwrap()];
+    let info = reader.next_frame(&mut buf).unwrap();
+    let ch = info.color_type.samples();
+    let at = y * info.line_size + x * ch;
+    [buf[at], buf[at + 1], buf[at + 2]]
+}
+
+#[test]
+fn the_map_shows_land_where_the_land_mask_is_and_north_at_the_centre() {
+    let (g, sel, status, a) = setup();
+    // North at the projection's centre is the map's up (0°); 250 km east of it, meridians
+    // converge toward the pole, so north turns west (counterclockwise): for an azimuthal
+    // projection near its centre the convergence is about Δλ·sin φ ≈ 3.9° × sin 55° ≈ 3.2°
+    // (an approximation, from memory).
+    let centred = Basemap::build(&g, None).unwrap();
+    assert!(centred.north_deg.abs() < 1e-6, "{}", centred.north_deg);
+    let east = Grid::full_rectangle(
+        Crs::auto_laea(10.0, 55.0),
+        10_000.0,
+        [200_000.0, -50_000.0],
+        10,
+        10,
+    )
+    .unwrap();
+    let n = Basemap::build(&east, None).unwrap().north_deg;
+    assert!((-4.5..-2.0).contains(&n), "{n}");
+
+    let have = Command::new("chromium")
+        .arg("--version")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success());
+    if !have {
+        assert!(
+            std::env::var("DRIFTPLAN_REQUIRE_CHROMIUM").as_deref() != Ok("1"),
+            "DRIFTPLAN_REQUIRE_CHROMIUM=1 but `chromium` is not on PATH"
+        );
+        eprintln!("note: `chromium` not found; skipping the visual check");
+        return;
+    }
+    // The network map alone on a page, one SVG unit to one pixel: the pixel inside the land
+    // triangle has the land colour (#D9D2C3); without a land mask the same pixel is not land.
+    let tmp = tempfile::tempdir().unwrap();
+    let shoot = |html: &str, name: &str| {
+        let svg = network_svg(html);
+        let page = tmp.path().join(format!("{name}.html"));
+        std::fs::write(
+            &page,
+            format!("<!DOCTYPE html><html><body style=\"margin:0\">{svg}</body></html>"),
+        )
+        .unwrap();
+        let shot = tmp.path().join(format!("{name}.png"));
+        let (ok, _, err) = chromium(
+            &tmp.path().join(format!("profile-{name}")),
+            &[
+                format!("--screenshot={}", shot.display()),
+                "--force-device-scale-factor=1".into(),
+            ],
+            &page,
+        );
+        assert!(ok, "chromium --screenshot failed:\n{err}");
+        (svg, shot)
+    };
+    let with_land = render(&g, &sel, &status, &a);
+    let (svg, shot) = shoot(&with_land, "land");
+    let (u, v) = path_centre(&svg, "land");
+    let px = pixel(&shot, u.round() as usize, v.round() as usize);
+    let land = [0xD9, 0xD2, 0xC3];
+    let close = |p: [u8; 3], q: [u8; 3]| p.iter().zip(q).all(|(a, b)| a.abs_diff(b) <= 8);
+    assert!(
+        close(px, land),
+        "pixel ({u:.0}, {v:.0}) is {px:?}, not land {land:?}"
+    );
+    let without = with_land.replace("class=\"land\"", "class=\"land\" visibility=\"hidden\"");
+    let (_, shot) = shoot(&without, "no-land");
+    let px = pixel(&shot, u.round() as usize, v.round() as usize);
+    assert!(!close(px, land), "the check cannot fail: {px:?}");
 }

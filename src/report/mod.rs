@@ -6,6 +6,7 @@
 //! scale bar is exact in projected metres; reserves are the same dissolved outlines that
 //! `network.geojson` carries.
 
+mod basemap;
 mod cells_path;
 mod chart;
 mod compare_page;
@@ -17,6 +18,7 @@ mod network_map;
 mod palette;
 mod tables;
 
+pub use basemap::{Basemap, GraticuleLine};
 pub use compare_page::{compare_report_html, CompareReport};
 
 use crate::assess::{Coverage, Reserve};
@@ -56,6 +58,9 @@ pub struct ReportInput<'a> {
     pub panels: Option<NetworkPanels>,
     /// The zone of each cell of a zoned network: the map fills each zone in its own colour.
     pub zones: Option<ReportZones<'a>>,
+    /// Land, graticule and north for the network map ([`Basemap::build`]); `None` draws the
+    /// cells alone.
+    pub basemap: Option<Basemap>,
 }
 
 /// A zoned network's zones ([`crate::model::zones`]) as the report draws them.
@@ -163,7 +168,13 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
     let _ = write!(
         s,
         "\n<h2>Network</h2>\n<figure>{}<figcaption>{} reserves, {} of {} cells chosen. Map in the grid's equal-area projection (projected metres); the scale bar is exact in that projection.</figcaption></figure>\n",
-        network_map::network_map(grid, input.status, input.reserves, input.zones.as_ref()),
+        network_map::network_map(
+            grid,
+            input.status,
+            input.reserves,
+            input.zones.as_ref(),
+            input.basemap.as_ref(),
+        ),
         input.reserves.len(),
         chosen,
         grid.len()
@@ -358,6 +369,7 @@ mod tests {
             ]),
             panels: None,
             zones: None,
+            basemap: None,
         }
     }
 

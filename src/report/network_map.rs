@@ -2,10 +2,11 @@
 //! `network.geojson`, a scale bar and a legend, as one inline SVG. A zoned network's cells are
 //! filled in their zone's colour under the reserve outlines, with a legend entry per zone.
 
+use super::basemap::Basemap;
 use super::cells_path::cells_path;
 use super::escape::esc;
 use super::frame::{km_label, round1, scale_bar, MapFrame, PAD};
-use super::palette::{zone_colour, EXCLUDED, REQUIRED, RESERVE, SEA};
+use super::palette::{zone_colour, EXCLUDED, LAND, REQUIRED, RESERVE, SEA};
 use super::ReportZones;
 use crate::assess::Reserve;
 use crate::export::dissolve::dissolve;
@@ -13,13 +14,14 @@ use crate::grid::Grid;
 use crate::model::CellStatus;
 use std::fmt::Write;
 
-/// Largest map area. Units: SVG units.
-const MAX_W: f64 = 800.0;
-const MAX_H: f64 = 800.0;
+/// Largest map area: the page's content width. Units: SVG units.
+const MAX_W: f64 = 1000.0;
+const MAX_H: f64 = 900.0;
 /// Space under the map for the scale bar and legend. Units: SVG units.
 const FOOTER: f64 = 64.0;
-/// Narrowest drawing, so the legend fits beside a tall, thin region. Units: SVG units.
-const MIN_SVG_W: f64 = 620.0;
+/// Narrowest drawing, so the legend (up to six entries) fits beside a tall, thin region.
+/// Units: SVG units.
+const MIN_SVG_W: f64 = 900.0;
 
 /// The map frame the network map uses (shared with tests that invert its coordinates).
 pub(crate) fn network_frame(grid: &Grid) -> MapFrame {
@@ -36,6 +38,7 @@ pub(crate) fn network_map(
     status: &[CellStatus],
     reserves: &[Reserve],
     zones: Option<&ReportZones>,
+    base: Option<&Basemap>,
 ) -> String {
     let frame = network_frame(grid);
     let w = (frame.width + 2.0 * PAD).max(MIN_SVG_W);
@@ -61,13 +64,27 @@ pub(crate) fn network_map(
         ex = EXCLUDED,
         rq = REQUIRED
     );
-    // Land and the outside of the region stay blank (white).
+    // Outside the region stays blank (white); land is drawn in its own colour, its outline
+    // the coastline.
     let _ = write!(
         s,
         r##"<rect x="0" y="0" width="{}" height="{}" fill="#ffffff"/>"##,
         round1(w),
         round1(h)
     );
+    let land = base.and_then(|b| b.land.as_ref()).map(|l| {
+        let mut d = String::new();
+        frame.push_multipolygon(&mut d, l);
+        d
+    });
+    if let Some(d) = &land {
+        push_path(
+            &mut s,
+            "land",
+            d,
+            &format!(r##"fill="{LAND}" stroke="#6b6256" stroke-width="0.8""##),
+        );
+    }
     let sea = cells_path(grid, &frame, |_| true);
     push_path(
         &mut s,
@@ -129,13 +146,132 @@ pub(crate) fn network_map(
         &required,
         &format!(r#"fill="url(#dp-required)" stroke="{REQUIRED}" stroke-width="1""#),
     );
+    if let Some(b) = base {
+        push_graticule(&mut s, &frame, b);
+    }
+    push_reserve_labels(&mut s, grid, &frame, reserves);
+    if let Some(b) = base {
+        push_north_arrow(&mut s, &frame, b.north_deg);
+    }
     push_scale_bar(&mut s, &frame);
-    push_legend(&mut s, &frame, reserves.len(), zones.is_some());
+    let present_items = Present {
+        land: land.is_some(),
+        required: !required.is_empty(),
+        excluded: !excluded.is_empty(),
+        outside: grid.len() < (grid.n_cols as usize) * (grid.n_rows as usize),
+    };
+    push_legend(
+        &mut s,
+        &frame,
+        reserves.len(),
+        zones.is_some(),
+        &present_items,
+    );
     if let Some(z) = zones {
         push_zone_legend(&mut s, &frame, z, &present);
     }
     s.push_str("</svg>");
     s
+}
+
+/// Which legend entries have something on the map.
+struct Present {
+    land: bool,
+    required: bool,
+    excluded: bool,
+    outside: bool,
+}
+
+/// Meridians and parallels as thin lines, each labelled where it leaves the map: meridians
+/// along the bottom edge, parallels along the left.
+fn push_graticule(s: &mut String, frame: &MapFrame, b: &Basemap) {
+    s.push_str(r##"<g class="graticule" fill="none" stroke="#5f5f5f" stroke-width="0.5" stroke-dasharray="3 3">"##);
+    for g in &b.graticule {
+        for piece in &g.pieces.0 {
+            let mut d = String::new();
+            for (i, c) in piece.0.iter().enumerate() {
+                let (u, v) = frame.to_svg(c.x, c.y);
+                let _ = write!(
+                    d,
+                    "{}{} {}",
+                    if i == 0 { 'M' } else { 'L' },
+                    round1(u),
+                    round1(v)
+                );
+            }
+            let _ = write!(s, r#"<path data-degrees="{}" d="{d}"/>"#, g.degrees);
+        }
+    }
+    s.push_str("</g>");
+    s.push_str(r##"<g class="graticule-labels" font-size="11" fill="#333333" stroke="#ffffff" stroke-width="3" paint-order="stroke">"##);
+    for g in &b.graticule {
+        // The end of the line nearest the bottom (meridians) or the left (parallels).
+        let ends = g
+            .pieces
+            .0
+            .iter()
+            .flat_map(|l| [l.0.first(), l.0.last()])
+            .flatten();
+        let pick = ends.map(|c| frame.to_svg(c.x, c.y)).max_by(|a, b| {
+            if g.meridian {
+                a.1.total_cmp(&b.1)
+            } else {
+                b.0.total_cmp(&a.0)
+            }
+        });
+        let Some((u, v)) = pick else { continue };
+        let (x, y, anchor) = if g.meridian {
+            (u, v - 4.0, "middle")
+        } else {
+            (u + 4.0, v - 3.0, "start")
+        };
+        let _ = write!(
+            s,
+            r#"<text class="graticule-label" x="{}" y="{}" text-anchor="{anchor}">{}</text>"#,
+            round1(x),
+            round1(y),
+            esc(&g.label)
+        );
+    }
+    s.push_str("</g>");
+}
+
+/// Each reserve's number (as in network.geojson and reserves.csv) at a point inside it.
+fn push_reserve_labels(s: &mut String, grid: &Grid, frame: &MapFrame, reserves: &[Reserve]) {
+    use geo::InteriorPoint;
+    s.push_str(r##"<g class="reserve-labels" font-size="12" font-weight="600" fill="#1a1a1a" stroke="#ffffff" stroke-width="3" paint-order="stroke" text-anchor="middle">"##);
+    for (k, r) in reserves.iter().enumerate() {
+        let Some(p) = dissolve(grid, &r.cells).interior_point() else {
+            continue;
+        };
+        let (u, v) = frame.to_svg(p.x(), p.y());
+        let _ = write!(
+            s,
+            r#"<text class="reserve-label" data-reserve="{n}" x="{}" y="{}">{n}</text>"#,
+            round1(u),
+            round1(v + 4.0),
+            n = k + 1
+        );
+    }
+    s.push_str("</g>");
+}
+
+/// An arrow in the map's top-right corner pointing to true north at the map's centre.
+fn push_north_arrow(s: &mut String, frame: &MapFrame, north_deg: f64) {
+    let (cx, cy) = (round1(PAD + frame.width - 22.0), round1(PAD + 30.0));
+    let _ = write!(
+        s,
+        r##"<g class="north-arrow" data-north-deg="{:.2}" transform="rotate({:.2} {cx} {cy})"><circle cx="{cx}" cy="{cy}" r="17" fill="#ffffff" fill-opacity="0.85" stroke="#1a1a1a" stroke-width="0.8"/><path d="M{cx} {}L{} {}L{cx} {}L{} {}Z" fill="#1a1a1a"/><text x="{cx}" y="{}" font-size="11" font-weight="700" text-anchor="middle">N</text></g>"##,
+        north_deg,
+        north_deg,
+        round1(cy - 13.0),
+        round1(cx + 6.0),
+        round1(cy + 8.0),
+        round1(cy + 3.0),
+        round1(cx - 6.0),
+        round1(cy + 8.0),
+        round1(cy - 15.0),
+    );
 }
 
 /// The zones with at least one cell, as `(zone index, cells)` in plan order.
@@ -280,7 +416,13 @@ fn push_scale_bar(s: &mut String, frame: &MapFrame) {
     );
 }
 
-fn push_legend(s: &mut String, frame: &MapFrame, n_reserves: usize, zoned: bool) {
+fn push_legend(
+    s: &mut String,
+    frame: &MapFrame,
+    n_reserves: usize,
+    zoned: bool,
+    present: &Present,
+) {
     let y = round1(PAD + frame.height + 40.0);
     let reserve = if zoned {
         (
@@ -295,21 +437,37 @@ fn push_legend(s: &mut String, frame: &MapFrame, n_reserves: usize, zoned: bool)
             format!("Reserve ({n_reserves})"),
         )
     };
-    let items: [(String, String); 4] = [
+    let mut items: Vec<(String, String)> = vec![
         (
             format!(r##"fill="{SEA}" stroke="#999999" stroke-width="0.5""##),
             "Sea, not chosen".into(),
         ),
         reserve,
-        (
+    ];
+    if present.required {
+        items.push((
             format!(r#"fill="url(#dp-required)" stroke="{REQUIRED}""#),
             "Required cell".into(),
-        ),
-        (
+        ));
+    }
+    if present.excluded {
+        items.push((
             format!(r#"fill="url(#dp-excluded)" stroke="{EXCLUDED}""#),
             "Excluded cell".into(),
-        ),
-    ];
+        ));
+    }
+    if present.land {
+        items.push((
+            format!(r##"fill="{LAND}" stroke="#6b6256" stroke-width="0.8""##),
+            "Land".into(),
+        ));
+    }
+    if present.outside {
+        items.push((
+            r##"fill="#ffffff" stroke="#999999" stroke-width="0.5""##.into(),
+            "Outside the region".into(),
+        ));
+    }
     s.push_str(r#"<g class="legend" font-size="12">"#);
     let mut x = PAD;
     for (style, label) in &items {
@@ -321,7 +479,7 @@ fn push_legend(s: &mut String, frame: &MapFrame, n_reserves: usize, zoned: bool)
             ty = round1(y + 10.5),
             label = esc(label)
         );
-        x += 150.0;
+        x += 148.0;
     }
     s.push_str("</g>");
 }
@@ -433,7 +591,7 @@ mod tests {
             largest_gap_km: 0.0,
         };
         let gj = network_geojson(&g, &assessment).unwrap();
-        let svg = network_map(&g, &vec![CellStatus::Free; g.len()], &res, None);
+        let svg = network_map(&g, &vec![CellStatus::Free; g.len()], &res, None, None);
         let frame = network_frame(&g);
         let projector = g.projector().unwrap();
         let GeoJson::FeatureCollection(fc) = GeoJson::from_str(&gj).unwrap() else {
@@ -479,7 +637,7 @@ mod tests {
     fn rules_are_drawn_with_their_classes() {
         let g = Grid::full_rectangle(Crs::auto_laea(4.0, 56.0), 5_000.0, [0.0, 0.0], 3, 1).unwrap();
         let status = [CellStatus::Required, CellStatus::Free, CellStatus::Excluded];
-        let svg = network_map(&g, &status, &[], None);
+        let svg = network_map(&g, &status, &[], None, None);
         assert!(svg.contains(r#"class="required""#));
         assert!(svg.contains(r#"class="excluded""#));
         assert!(!svg.contains(r#"class="reserve""#));

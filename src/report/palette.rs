@@ -29,6 +29,9 @@ pub(crate) fn zone_colour(index: usize) -> &'static str {
 
 /// Unselected sea: a light tint of the sky blue (20% sky blue on white), quiet under the classes.
 pub(crate) const SEA: &str = "#DDF0FB";
+/// Land from the plan's land mask: a warm neutral grey, apart from the blue sea, the white
+/// outside of the region and every class colour, in colour and in grey alike.
+pub(crate) const LAND: &str = "#D9D2C3";
 /// Cells without a finite value on a feature map.
 pub(crate) const NO_VALUE: &str = "#BDBDBD";
 
