@@ -139,12 +139,12 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     println!(
-        "{name}: {} cells, cost {:.1}, {:.0} km² ({:.1}% of the sea), {} reserves, {} targets reached",
-        a.cells_selected,
+        "{name}: {}, cost {:.1}, {:.0} km² ({:.1}% of the sea), {}, {} targets reached",
+        driftplan::export::words::count(a.cells_selected, "cell"),
         a.cost,
         a.area_km2,
         100.0 * a.share_of_region,
-        a.reserves.len(),
+        driftplan::export::words::count(a.reserves.len(), "reserve"),
         driftplan::assess::targets_reached_text(&a)
     );
     for z in shares.iter().flatten().filter(|z| z.reserve.is_none()) {

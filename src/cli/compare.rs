@@ -138,11 +138,11 @@ fn compare(
             .zip(&assessments)
             .map(|((name, _), a)| driftplan::report::NetworkPanel {
                 label: format!(
-                    "{name}: cost {:.1}, {} of {} targets reached, {} reserves",
+                    "{name}: cost {:.1}, {} of {} targets reached, {}",
                     a.cost,
                     a.targets_reached,
                     a.coverage.len(),
-                    a.reserves.len()
+                    driftplan::export::words::count(a.reserves.len(), "reserve")
                 ),
                 reserves: a.reserves.clone(),
             })

@@ -14,6 +14,7 @@ mod rings;
 pub mod run_folder;
 pub mod summary;
 pub mod table;
+pub mod words;
 
 pub use atomic::write_atomic;
 pub use features_table::{edge_shifts_csv, features_csv};

@@ -167,7 +167,7 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
     let chosen = input.selected.iter().filter(|&&b| b).count();
     let _ = write!(
         s,
-        "\n<h2>Network</h2>\n<figure>{}<figcaption>{} reserves, {} of {} cells chosen. Map in the grid's equal-area projection (projected metres); the scale bar is exact in that projection.</figcaption></figure>\n",
+        "\n<h2>Network</h2>\n<figure>{}<figcaption>{}, {} of {} chosen. Map in the grid's equal-area projection (projected metres); the scale bar is exact in that projection.</figcaption></figure>\n",
         network_map::network_map(
             grid,
             input.status,
@@ -175,9 +175,9 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
             input.zones.as_ref(),
             input.basemap.as_ref(),
         ),
-        input.reserves.len(),
+        crate::export::words::count(input.reserves.len(), "reserve"),
         chosen,
-        grid.len()
+        crate::export::words::count(grid.len(), "cell")
     );
     if let Some(p) = &input.panels {
         s.push_str(&panels_html(grid, input.status, p));

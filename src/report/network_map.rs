@@ -111,9 +111,10 @@ pub(crate) fn network_map(
             });
             let _ = write!(
                 s,
-                r#"<path class="zone" data-zone="{name}" data-cells="{n}" fill="{c}" fill-opacity="0.85" stroke="none" fill-rule="evenodd" d="{d}"><title>Zone {name}: {n} cells</title></path>"#,
+                r#"<path class="zone" data-zone="{name}" data-cells="{n}" fill="{c}" fill-opacity="0.85" stroke="none" fill-rule="evenodd" d="{d}"><title>Zone {name}: {cells}</title></path>"#,
                 name = esc(&z.names[zi]),
                 c = zone_colour(zi),
+                cells = crate::export::words::count(n, "cell"),
             );
         }
         s.push_str("</g>");
@@ -129,10 +130,10 @@ pub(crate) fn network_map(
         frame.push_multipolygon(&mut d, &dissolve(grid, &r.cells));
         let _ = write!(
             s,
-            r##"<path class="reserve" data-reserve="{}" {reserve_fill} stroke="#1a1a1a" stroke-width="1.2" fill-rule="evenodd" d="{d}"><title>Reserve {}: {} cells, {:.1} km²</title></path>"##,
+            r##"<path class="reserve" data-reserve="{}" {reserve_fill} stroke="#1a1a1a" stroke-width="1.2" fill-rule="evenodd" d="{d}"><title>Reserve {}: {}, {:.1} km²</title></path>"##,
             k + 1,
             k + 1,
-            r.cells.len(),
+            crate::export::words::count(r.cells.len(), "cell"),
             r.area_km2
         );
     }
