@@ -784,35 +784,43 @@ pub fn grid_facts(inputs: &Inputs) -> Vec<(String, String)> {
     f
 }
 
-/// One map per derived climate feature kind: the sum of that kind's amounts per cell over
-/// the features of the first scenario (and scenario-free ones) in the last year (or without
-/// a year). Habitat is left out (it has its own coverage charts).
+/// Maps of the derived climate features: per feature kind, per scenario, for the first and
+/// the last year, the sum of that kind's amounts per cell over all species (scenario-free and
+/// year-free features once). Named `kind (unit) · scenario · year`, so the report shows every
+/// scenario and how each feature moves between the first and last year. Habitat is left out
+/// (the coverage tables show it).
 pub fn derived_feature_maps(inputs: &Inputs) -> Vec<(String, Vec<f64>)> {
     let t = &inputs.features;
-    let last_year = t.years.last().copied();
-    let mut maps: std::collections::BTreeMap<&str, Vec<f64>> = Default::default();
+    let (first, last) = (t.years.first().copied(), t.years.last().copied());
+    // (kind, scenario index, year) → (unit, sums); BTreeMap order: kind, scenario, year.
+    type Key<'a> = (&'a str, Option<usize>, Option<i32>);
+    let mut maps: std::collections::BTreeMap<Key, (&str, Vec<f64>)> = Default::default();
     for f in &t.features {
         if f.kind == crate::features::FeatureKind::Habitat
-            || f.scenario.is_some_and(|s| s != 0)
-            || f.year.is_some_and(|y| Some(y) != last_year)
+            || f.year.is_some_and(|y| Some(y) != first && Some(y) != last)
         {
             continue;
         }
         let m = maps
-            .entry(f.kind.as_str())
-            .or_insert_with(|| vec![0.0; inputs.grid.len()]);
+            .entry((f.kind.as_str(), f.scenario, f.year))
+            .or_insert_with(|| (f.unit.as_str(), vec![0.0; inputs.grid.len()]));
         for &(c, a) in &f.amounts {
-            m[c as usize] += a;
+            m.1[c as usize] += a;
         }
     }
-    let when = |name: &str| {
-        let sc = t.scenarios.first().map(String::as_str).unwrap_or("");
-        match last_year {
-            Some(y) => format!("{name} ({sc}, {y}, all species)"),
-            None => format!("{name} ({sc}, all species)"),
-        }
-    };
-    maps.into_iter().map(|(k, v)| (when(k), v)).collect()
+    maps.into_iter()
+        .map(|((kind, scenario, year), (unit, v))| {
+            let unit = unit.replace("km2", "km²").replace(" x ", " × ");
+            let sc = scenario
+                .and_then(|i| t.scenarios.get(i))
+                .map_or("all scenarios", String::as_str);
+            let name = match year {
+                Some(y) => format!("{kind} ({unit}) · {sc} · {y}"),
+                None => format!("{kind} ({unit}) · {sc}"),
+            };
+            (name, v)
+        })
+        .collect()
 }
 
 /// What goes into `report.html` besides the plan, inputs and the network shown.
@@ -958,7 +966,7 @@ mod tests {
     }
 
     #[test]
-    fn derived_maps_sum_one_kind_in_the_first_scenario_and_last_year() {
+    fn derived_maps_sum_each_kind_per_scenario_in_the_first_and_last_year() {
         use crate::features::{Feature, FeatureKind, Target};
         let f = |kind, scenario, year, amounts: Vec<(u32, f64)>| Feature {
             name: "x".into(),
@@ -985,7 +993,7 @@ mod tests {
                     vec![(0, 1.0), (2, 2.0)],
                 ),
                 f(FeatureKind::Refugium, Some(0), Some(2090), vec![(2, 0.5)]),
-                // Left out: another scenario, an earlier year, habitat.
+                // Another scenario and the first year are maps of their own; habitat is not.
                 f(FeatureKind::Refugium, Some(1), Some(2090), vec![(1, 9.0)]),
                 f(FeatureKind::Refugium, Some(0), Some(2030), vec![(1, 9.0)]),
                 f(FeatureKind::Habitat, Some(0), Some(2090), vec![(1, 9.0)]),
@@ -1006,10 +1014,22 @@ mod tests {
             grid,
         };
         let maps = derived_feature_maps(&inputs);
-        // Hand sums: refugium [1, 0, 2.5]; distinctness [0, 0.25, 0]; names by kind.
-        assert_eq!(maps.len(), 2);
-        assert_eq!(maps[0].0, "distinctness (s1, 2090, all species)");
+        // Hand sums, by kind, then scenario, then year: distinctness [0, 0.25, 0] (no scenario
+        // or year); refugium s1 2030 [0, 9, 0]; s1 2090 [1, 0, 2.5]; s2 2090 [0, 9, 0]. Habitat
+        // is left out.
+        let names: Vec<&str> = maps.iter().map(|m| m.0.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "distinctness (score) · all scenarios",
+                "refugium (score) · s1 · 2030",
+                "refugium (score) · s1 · 2090",
+                "refugium (score) · s2 · 2090"
+            ]
+        );
         assert_eq!(maps[0].1, vec![0.0, 0.25, 0.0]);
-        assert_eq!(maps[1].1, vec![1.0, 0.0, 2.5]);
+        assert_eq!(maps[1].1, vec![0.0, 9.0, 0.0]);
+        assert_eq!(maps[2].1, vec![1.0, 0.0, 2.5]);
+        assert_eq!(maps[3].1, vec![0.0, 9.0, 0.0]);
     }
 }

@@ -237,6 +237,22 @@ fn climate_demo_holds_leading_edge_and_refugium_targets_in_every_scenario() {
     }
     // Both kinds in all three scenarios.
     assert_eq!(seen.len(), 6, "{seen:?}");
+    // The report maps every derived feature in every scenario, first and last year where it
+    // has years: the leading edge in all three scenarios in 2030 and 2090, the refugium (one
+    // per scenario, no year) in all three, each with its unit on the ramp.
+    let report = std::fs::read_to_string(dir.path().join("report.html")).unwrap();
+    for sc in ["ssp1-2.6", "ssp2-4.5", "ssp5-8.5"] {
+        let mut names = vec![format!("refugium (km²) · {sc}")];
+        for year in [2030, 2090] {
+            names.push(format!("leading-edge (km²) · {sc} · {year}"));
+        }
+        for name in names {
+            assert!(
+                report.contains(&format!("aria-label=\"Map of {name}\"")),
+                "{name}"
+            );
+        }
+    }
     // Leading edges shift poleward (positive) in every scenario of the demo.
     let shifts = std::fs::read_to_string(dir.path().join("edge-shifts.csv")).unwrap();
     let mut rdr = csv::Reader::from_reader(shifts.as_bytes());

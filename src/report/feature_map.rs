@@ -12,8 +12,8 @@ use std::fmt::Write;
 /// map at ≤ 33 paths (common practice, no source).
 const LEVELS: usize = 32;
 /// Largest map area. Units: SVG units.
-const MAX_W: f64 = 380.0;
-const MAX_H: f64 = 380.0;
+pub(crate) const MAX_W: f64 = 380.0;
+pub(crate) const MAX_H: f64 = 380.0;
 /// Space under the map for the legend. Units: SVG units.
 const FOOTER: f64 = 44.0;
 /// Narrowest drawing, so the legend fits. Units: SVG units.
@@ -82,9 +82,24 @@ pub(crate) fn block_means(grid: &Grid, values: &[f64], k: u32) -> (u32, u32, Vec
     (bc, br, means)
 }
 
+/// The unit in a map's name, `refugium (km²) · ssp1-2.6 · 2090` → `km²`; `None` without one.
+pub(crate) fn unit_of(name: &str) -> Option<&str> {
+    let a = name.find('(')?;
+    let b = a + name[a..].find(')')?;
+    Some(&name[a + 1..b]).filter(|u| !u.is_empty())
+}
+
 /// Inline SVG of one feature map. `values` has one entry per cell (checked by the caller);
-/// `index` makes the gradient's id unique on the page.
-pub(crate) fn feature_map(grid: &Grid, index: usize, name: &str, values: &[f64]) -> String {
+/// `index` makes the gradient's id unique on the page; `outlines` is SVG path data of the
+/// network's reserves in this map's frame (`MapFrame::fit(grid, MAX_W, MAX_H)`), drawn over
+/// the values so a reader sees what the network holds.
+pub(crate) fn feature_map(
+    grid: &Grid,
+    index: usize,
+    name: &str,
+    values: &[f64],
+    outlines: &str,
+) -> String {
     let frame = MapFrame::fit(grid, MAX_W, MAX_H);
     let w = (frame.width + 2.0 * PAD).max(MIN_SVG_W);
     let h = frame.height + 2.0 * PAD + FOOTER;
@@ -133,6 +148,12 @@ pub(crate) fn feature_map(grid: &Grid, index: usize, name: &str, values: &[f64])
         };
         let _ = write!(s, r#"<path fill="{fill}" stroke="none" d="{d}"/>"#);
     }
+    if !outlines.is_empty() {
+        let _ = write!(
+            s,
+            r##"<path class="reserve-outline" fill="none" stroke="#ffffff" stroke-width="2.2" d="{outlines}"/><path class="reserve-outline" fill="none" stroke="#1a1a1a" stroke-width="1" d="{outlines}"/>"##
+        );
+    }
     // Legend: the ramp from the lowest to the highest value drawn.
     let y = round1(PAD + frame.height + 12.0);
     let _ = write!(
@@ -143,6 +164,15 @@ pub(crate) fn feature_map(grid: &Grid, index: usize, name: &str, values: &[f64])
         lo = esc(&value_label(lo)),
         hi = esc(&value_label(hi)),
     );
+    if let Some(unit) = unit_of(name) {
+        let _ = write!(
+            s,
+            r#"<text class="ramp-unit" x="{x}" y="{ty}" text-anchor="middle">{u}</text>"#,
+            x = PAD + 90.0,
+            ty = round1(y + 24.0),
+            u = esc(unit)
+        );
+    }
     if !paths[LEVELS].is_empty() {
         let _ = write!(
             s,
@@ -253,15 +283,25 @@ mod tests {
     #[test]
     fn lowest_and_highest_cells_get_the_end_classes() {
         let g = grid(4, 1);
-        let svg = feature_map(&g, 0, "refugium <A&B>", &[0.0, 1.0, 3.0, f64::NAN]);
+        let svg = feature_map(
+            &g,
+            0,
+            "refugium <A&B> (km²)",
+            &[0.0, 1.0, 3.0, f64::NAN],
+            "M1 1L2 2L1 2Z",
+        );
         // Cell 0 (value 0) is class 0, cell 2 (value 3) class 31, cell 3 has no value.
         assert!(svg.contains(&format!(r#"fill="{}""#, level_colour(0))));
         assert!(svg.contains(&format!(r#"fill="{}""#, level_colour(31))));
         assert!(svg.contains(&format!(r#"fill="{NO_VALUE}""#)));
         assert!(svg.contains("refugium &lt;A&amp;B&gt;"));
         assert!(!svg.contains("<A&B>"));
-        // Legend labels: the value range.
+        // Legend labels: the value range and the unit; the reserves outlined over the values.
         assert!(svg.contains(">0</text>") && svg.contains(">3</text>"));
+        assert!(svg.contains(r#"class="ramp-unit""#) && svg.contains(">km²</text>"));
+        assert_eq!(svg.matches(r#"class="reserve-outline""#).count(), 2);
+        assert_eq!(unit_of("refugium (km²) · s1 · 2090"), Some("km²"));
+        assert_eq!(unit_of("selection share"), None);
     }
 
     #[test]

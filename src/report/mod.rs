@@ -183,12 +183,20 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         s.push_str(&panels_html(grid, input.status, p));
     }
     if !input.feature_maps.is_empty() {
-        s.push_str("<h2>Maps of derived features and layers</h2>\n<div class=\"maps\">");
+        s.push_str("<h2>Maps of derived features and layers</h2>\n<p class=\"small\">Each derived feature in every scenario, in the first and the last year (summed over species), on the viridis ramp from its lowest to its highest value; the network's reserves outlined.</p>\n<div class=\"maps\">");
+        let small = frame::MapFrame::fit(grid, feature_map::MAX_W, feature_map::MAX_H);
+        let mut outlines = String::new();
+        for r in input.reserves {
+            small.push_multipolygon(
+                &mut outlines,
+                &crate::export::dissolve::dissolve(grid, &r.cells),
+            );
+        }
         for (k, (name, values)) in input.feature_maps.iter().enumerate() {
             let _ = write!(
                 s,
                 "<figure>{}<figcaption>{}</figcaption></figure>",
-                feature_map::feature_map(grid, k, name, values),
+                feature_map::feature_map(grid, k, name, values, &outlines),
                 esc(name)
             );
         }
