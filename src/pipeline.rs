@@ -878,6 +878,8 @@ pub fn report_html_zoned(
     );
     facts.extend(extras.facts);
     let mut feature_maps = extras.maps;
+    let (velocity_maps, arrows) = velocity_maps(inputs);
+    feature_maps.extend(velocity_maps);
     feature_maps.extend(derived_feature_maps(inputs));
     // The land mask again, for the map (the grid keeps only the sea). A map without its
     // base is still a map: a land file or projection that fails here was read once already,
@@ -906,7 +908,44 @@ pub fn report_html_zoned(
             }
         }),
         basemap,
+        arrows,
     })
+}
+
+/// Climate velocity per scenario for the report: the speed as a map (`velocity (km/yr) ·
+/// scenario`) and the bearing as arrows over it, turned into the grid's axes at each cell
+/// ([`crate::features::derive::grid_direction`]). Empty when the plan derives no velocity.
+#[allow(clippy::type_complexity)]
+pub fn velocity_maps(inputs: &Inputs) -> (Vec<(String, Vec<f64>)>, Vec<(String, Vec<[f64; 2]>)>) {
+    let (mut maps, mut arrows) = (Vec::new(), Vec::new());
+    let Ok(projector) = inputs.grid.projector() else {
+        return (maps, arrows);
+    };
+    for speed in &inputs.layers {
+        let Some(sc) = speed.name.strip_prefix("velocity_km_per_yr/") else {
+            continue;
+        };
+        let name = format!("velocity (km/yr) · {sc}");
+        let bearing = inputs
+            .layers
+            .iter()
+            .find(|l| l.name == format!("velocity_bearing_deg/{sc}"));
+        if let Some(b) = bearing {
+            let dirs = inputs
+                .grid
+                .cells
+                .iter()
+                .zip(&b.values)
+                .map(|(c, &deg)| {
+                    crate::features::derive::grid_direction(&projector, c.lonlat, deg)
+                        .unwrap_or([f64::NAN; 2])
+                })
+                .collect();
+            arrows.push((name.clone(), dirs));
+        }
+        maps.push((name, speed.values.clone()));
+    }
+    (maps, arrows)
 }
 
 #[cfg(test)]

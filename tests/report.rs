@@ -215,6 +215,8 @@ fn render_zoned(
         }),
         zones,
         basemap: Some(Basemap::build(g, Some(&land_lonlat(g))).unwrap()),
+        // Velocity pointing due north in grid axes everywhere.
+        arrows: vec![("velocity (km/yr)".into(), vec![[0.0, 1.0]; g.len()])],
     })
     .unwrap()
 }
@@ -793,4 +795,25 @@ fn the_map_shows_land_where_the_land_mask_is_and_north_at_the_centre() {
     let (_, shot) = shoot(&without, "no-land");
     let px = pixel(&shot, u.round() as usize, v.round() as usize);
     assert!(!close(px, land), "the check cannot fail: {px:?}");
+}
+
+#[test]
+fn velocity_arrows_point_the_way_the_field_goes() {
+    // 100 cells ≤ 400 arrows, so one arrow per cell; each points north, i.e. up the SVG (its
+    // end has a smaller y than its start), and is 0.7 cells long: 10 km × 0.7 × 380 / 100 km
+    // = 26.6 units (the feature map fits 100 km into 380 units; hand value).
+    let (g, sel, status, a) = setup();
+    let html = render(&g, &sel, &status, &a);
+    assert_eq!(html.matches(r#"class="arrow""#).count(), 100);
+    let at = html.find(r#"class="arrow""#).unwrap();
+    let d = attr(&html, html[..at].rfind('<').unwrap(), "d");
+    let nums: Vec<f64> = d
+        .split(['M', 'L', ' '])
+        .filter(|t| !t.is_empty())
+        .map(|t| t.parse().unwrap())
+        .collect();
+    let (u0, v0, u1, v1) = (nums[0], nums[1], nums[2], nums[3]);
+    assert!((u1 - u0).abs() < 0.11, "{d}");
+    assert!(v1 < v0, "{d}");
+    assert!(((v0 - v1) - 26.6).abs() < 0.11, "{d}");
 }

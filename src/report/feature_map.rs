@@ -99,6 +99,7 @@ pub(crate) fn feature_map(
     name: &str,
     values: &[f64],
     outlines: &str,
+    arrows: Option<&[[f64; 2]]>,
 ) -> String {
     let frame = MapFrame::fit(grid, MAX_W, MAX_H);
     let w = (frame.width + 2.0 * PAD).max(MIN_SVG_W);
@@ -148,6 +149,9 @@ pub(crate) fn feature_map(
         };
         let _ = write!(s, r#"<path fill="{fill}" stroke="none" d="{d}"/>"#);
     }
+    if let Some(dirs) = arrows {
+        push_arrows(&mut s, grid, &frame, dirs);
+    }
     if !outlines.is_empty() {
         let _ = write!(
             s,
@@ -192,6 +196,59 @@ pub(crate) fn feature_map(
     }
     s.push_str("</g></svg>");
     s
+}
+
+/// Most arrows on one map: enough to read a field's pattern, few enough to see the colours.
+const MAX_ARROWS: usize = 400;
+
+/// Direction arrows on a sub-lattice of cells (every `s`-th column and row, `s` chosen so at
+/// most about [`MAX_ARROWS`] are drawn), each `0.7·s` cells long, centred on its cell and
+/// pointing along the cell's unit vector `[east, north]` (grid axes; `y` flips for SVG).
+fn push_arrows(s: &mut String, grid: &Grid, frame: &MapFrame, dirs: &[[f64; 2]]) {
+    let step = ((grid.len() as f64 / MAX_ARROWS as f64).sqrt().ceil() as u32).max(1);
+    let half = 0.35 * step as f64 * grid.cell_size_m;
+    s.push_str(r##"<g class="arrows" stroke="#ffffff" stroke-width="1" fill="none">"##);
+    for (id, c) in grid.cells.iter().enumerate() {
+        if c.col % step != step / 2 || c.row % step != step / 2 {
+            continue;
+        }
+        let Some(&[e, n]) = dirs.get(id) else {
+            continue;
+        };
+        if !(e.is_finite() && n.is_finite()) {
+            continue;
+        }
+        let (x, y) = (c.centre[0], c.centre[1]);
+        let (u0, v0) = frame.to_svg(x - e * half, y - n * half);
+        let (u1, v1) = frame.to_svg(x + e * half, y + n * half);
+        // Head: two short strokes at ±150° from the shaft, a third of its length.
+        let (du, dv) = (u1 - u0, v1 - v0);
+        let len = du.hypot(dv).max(1e-9);
+        let (hu, hv) = (
+            du / len * len.min(12.0) / 3.0,
+            dv / len * len.min(12.0) / 3.0,
+        );
+        let rot = |a: f64| {
+            let (sa, ca) = a.to_radians().sin_cos();
+            (u1 + hu * ca - hv * sa, v1 + hu * sa + hv * ca)
+        };
+        let (l, r) = (rot(150.0), rot(-150.0));
+        let _ = write!(
+            s,
+            r#"<path class="arrow" d="M{} {}L{} {}M{} {}L{} {}L{} {}"/>"#,
+            round1(u0),
+            round1(v0),
+            round1(u1),
+            round1(v1),
+            round1(l.0),
+            round1(l.1),
+            round1(u1),
+            round1(v1),
+            round1(r.0),
+            round1(r.1)
+        );
+    }
+    s.push_str("</g>");
 }
 
 /// Block squares for a large grid: per block row, runs of blocks in one class become one
@@ -289,6 +346,7 @@ mod tests {
             "refugium <A&B> (km²)",
             &[0.0, 1.0, 3.0, f64::NAN],
             "M1 1L2 2L1 2Z",
+            None,
         );
         // Cell 0 (value 0) is class 0, cell 2 (value 3) class 31, cell 3 has no value.
         assert!(svg.contains(&format!(r#"fill="{}""#, level_colour(0))));

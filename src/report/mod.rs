@@ -48,6 +48,9 @@ pub struct ReportInput<'a> {
     pub reserves: &'a [Reserve],
     /// One map per derived climate feature: name and one value per cell id (NaN = no value).
     pub feature_maps: Vec<(String, Vec<f64>)>,
+    /// Direction arrows over feature maps: the map's name and, per cell id, a unit vector
+    /// `[east, north]` in the grid's axes (NaN: no arrow), e.g. climate velocity's bearing.
+    pub arrows: Vec<(String, Vec<[f64; 2]>)>,
     /// Coverage of every feature (`Assessment::coverage`), drawn through time per scenario.
     pub coverage: &'a [Coverage],
     /// Networks designed for one scenario (rows) scored in every scenario (columns).
@@ -196,7 +199,18 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
             let _ = write!(
                 s,
                 "<figure>{}<figcaption>{}</figcaption></figure>",
-                feature_map::feature_map(grid, k, name, values, &outlines),
+                feature_map::feature_map(
+                    grid,
+                    k,
+                    name,
+                    values,
+                    &outlines,
+                    input
+                        .arrows
+                        .iter()
+                        .find(|(n, _)| n == name)
+                        .map(|(_, a)| a.as_slice()),
+                ),
                 esc(name)
             );
         }
@@ -378,6 +392,7 @@ mod tests {
             panels: None,
             zones: None,
             basemap: None,
+            arrows: vec![],
         }
     }
 
