@@ -5,7 +5,7 @@
 use crate::features::habitat::{habitat_feature, HabitatLayer};
 use crate::features::FeatureTable;
 use crate::grid::{build_grid, CrsChoice, GridSpec};
-use crate::layers::{sample, LayerSpec, Missing, Sampling, SourceCache};
+use crate::layers::{sample, LayerSpec, Sampling, SourceCache};
 use crate::model::{Budget, CellStatus, Objective, Problem, Robustness, Scenario};
 use crate::pipeline::RunError;
 use crate::solve::{SolveOptions, Solver};
@@ -177,16 +177,12 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             for year in years {
                 for k in 0..spec.species {
                     let layer_spec = LayerSpec {
-                        path: dir.join(format!("{name}_{year}.csv")),
-                        sampling: Sampling::Interpolate,
                         field: Some(format!("sp{k}")),
-                        layer: None,
-                        year: None,
-                        years_window: 1,
-                        crs: None,
                         valid_range: Some((0.0, 1.0)),
-                        missing: Missing::Error,
-                        repair: false,
+                        ..LayerSpec::new(
+                            dir.join(format!("{name}_{year}.csv")),
+                            Sampling::Interpolate,
+                        )
                     };
                     let layer = sample(&format!("sp{k}"), &layer_spec, &grid, &cache)?;
                     let sp = format!("sp{k}");

@@ -510,19 +510,11 @@ pub fn network_warnings(
 /// lon/lat), one value per cell id; 0 where no polygon reaches the cell. This is what
 /// [`read_network`] thresholds; planners may also want to see partly covered cells.
 pub fn polygon_shares(path: &Path, grid: &Grid) -> Result<Vec<f64>, NetworkError> {
+    // No polygon over a cell means the cell is outside the network, not missing data; a
+    // given network is checked, never silently changed (`repair` stays off).
     let spec = LayerSpec {
-        path: path.to_path_buf(),
-        sampling: Sampling::AreaShare,
-        field: None,
-        layer: None,
-        year: None,
-        years_window: 1,
-        crs: None,
-        valid_range: None,
-        // No polygon over a cell means the cell is outside the network, not missing data.
         missing: Missing::Zero,
-        // A given network is checked, never silently changed.
-        repair: false,
+        ..LayerSpec::new(path, Sampling::AreaShare)
     };
     let layer =
         crate::layers::sample("network", &spec, grid, &SourceCache::new()).map_err(|source| {

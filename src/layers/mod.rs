@@ -105,6 +105,26 @@ pub struct LayerSpec {
     pub repair: bool,
 }
 
+impl LayerSpec {
+    /// A spec of `path` sampled by `sampling` with every other key at its plan default: no
+    /// field, the file's only layer, no year, the file's own CRS, no valid range, uncovered
+    /// cells an error, invalid polygons refused.
+    pub fn new(path: impl Into<PathBuf>, sampling: Sampling) -> LayerSpec {
+        LayerSpec {
+            path: path.into(),
+            sampling,
+            field: None,
+            layer: None,
+            year: None,
+            years_window: 1,
+            crs: None,
+            valid_range: None,
+            missing: Missing::Error,
+            repair: false,
+        }
+    }
+}
+
 /// How one point-lattice layer was sampled: the rule and the number of cells each fallback
 /// served. `check`, the run header and summary.json show these, so a coastal lattice that
 /// fell back to nearest point never does so silently.
