@@ -27,6 +27,15 @@ pub enum RunError {
     /// Several input layers could not be read.
     #[error("{} input problems:\n  - {}", .0.len(), .0.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "))]
     Layers(Vec<LayerError>),
+    /// Layers the plan names could not be read: the layer problems, and the plan that names
+    /// them (a wrong column, species name or path in the plan shows as a layer problem).
+    #[error("{}{}\n  (layers named by {})", if .errors.len() == 1 { String::new() } else { format!("{} input problems:\n  - ", .errors.len()) }, .errors.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "), .plan.display())]
+    PlanLayers {
+        /// The plan file.
+        plan: std::path::PathBuf,
+        /// The layer problems.
+        errors: Vec<LayerError>,
+    },
     /// Most of the grid lies outside the layers' data: more likely a wrong region (a bad
     /// vertex, a hole outside its exterior) than bad layers, so the region file is named first.
     #[error("{}: the region spans lon {}, lat {}, and most of its grid lies outside the input layers' data; check the region first — the layer problems may come from it:\n  - {}", .region.display(), .lon, .lat, .errors.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "))]
@@ -310,10 +319,9 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         });
     }
     if !errors.is_empty() {
-        return Err(if errors.len() == 1 {
-            RunError::Layer(errors.remove(0))
-        } else {
-            RunError::Layers(errors)
+        return Err(RunError::PlanLayers {
+            plan: plan.file.clone(),
+            errors,
         });
     }
 
