@@ -19,6 +19,7 @@ mod demo;
 mod features;
 mod grid;
 mod irreplaceability;
+mod merge;
 mod portfolio;
 mod rank;
 mod solve;
@@ -122,6 +123,14 @@ enum Command {
     /// run.json; with --plan, also that the run is of that plan as it is now. Exit code 0: one
     /// complete run; 1: not (the reasons are listed).
     Verify(verify::Args),
+    /// Join the shards of a study (run with `--shard K/N --out DIR/shards/K`) into the
+    /// outputs of a one-machine run.
+    ///
+    /// Checks that every shard 1 … N is there, is one complete run (its run.json verifies)
+    /// and has the same plan hash, driftplan version and study arguments; then writes the
+    /// study's outputs into DIR (or --out), the same bytes as a one-machine run apart from
+    /// timing fields (solve times, the manifest's finishing time).
+    Merge(merge::Args),
 }
 
 /// Runs one command.
@@ -141,6 +150,7 @@ pub fn run(args: Args) -> Result<()> {
         Command::Rank(a) => rank::run(a, &progress),
         Command::Irreplaceability(a) => irreplaceability::run(a, &progress),
         Command::Verify(a) => verify::run(a),
+        Command::Merge(a) => merge::run(a, &progress),
     }
 }
 

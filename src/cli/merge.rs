@@ -1,0 +1,84 @@
+//! `driftplan merge`: joins the shards of a study (`--shard K/N`) into one run's outputs.
+
+use super::{load_with, Progress};
+use anyhow::{Context, Result};
+use driftplan::study::shard;
+use driftplan::{export, pipeline};
+use std::path::PathBuf;
+
+/// Arguments of `driftplan merge`.
+#[derive(clap::Args, Debug)]
+pub(crate) struct Args {
+    /// The study folder: its shards are DIR/shards/1 … DIR/shards/N.
+    dir: PathBuf,
+    /// Output folder (default: DIR itself, beside its shards).
+    #[arg(long)]
+    out: Option<PathBuf>,
+    /// The plan file, when it is no longer where the shards read it (its SHA-256 must still
+    /// be the shards').
+    #[arg(long)]
+    plan: Option<PathBuf>,
+}
+
+pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
+    let out = a.out.clone().unwrap_or_else(|| a.dir.clone());
+    export::run_folder::check_out(&out)?;
+    let merged = shard::read_shards(&a.dir)?;
+    progress.say(&format!(
+        "merge: {} shards of `{}`, {} jobs, all complete and of one plan",
+        merged.shards,
+        merged.study,
+        merged.outcomes.len()
+    ));
+    let plan_path = a
+        .plan
+        .clone()
+        .unwrap_or_else(|| PathBuf::from(&merged.plan));
+    match merged.study.as_str() {
+        "sweep" => {
+            let (budget_of, solver) = super::sweep::from_arguments(&merged.arguments)?;
+            let mut run = export::RunFolder::begin(&out, "sweep")?;
+            let plan = load_with(&plan_path, &solver).with_context(|| {
+                format!("the plan the shards were run on ({})", plan_path.display())
+            })?;
+            check_hash(&plan, &merged)?;
+            run.set_plan(&plan.file, &plan.hash);
+            let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+            anyhow::ensure!(
+                inputs.grid.len() == merged.cells,
+                "the plan's grid has {} cells, the shards' {}: they were run by another driftplan",
+                inputs.grid.len(),
+                merged.cells
+            );
+            let problem = pipeline::problem(&plan, &inputs);
+            let (runs, rows) = shard::sweep_outcomes(&merged.outcomes, merged.cells)
+                .map_err(|e| anyhow::anyhow!("{}: {e}", a.dir.display()))?;
+            anyhow::ensure!(!runs.is_empty(), "the shards hold no budget of the sweep");
+            let sw = driftplan::study::Sweep {
+                runs,
+                features: problem.features.iter().map(|f| f.name.clone()).collect(),
+            };
+            let matrix = (!rows.is_empty()).then(|| driftplan::study::StressMatrix {
+                scenarios: problem.scenarios.iter().map(|s| s.name.clone()).collect(),
+                rows,
+            });
+            super::sweep::write(&plan, &inputs, &sw, matrix.as_ref(), &budget_of, run)
+        }
+        other => anyhow::bail!(
+            "{}: shards of `{other}` cannot be merged by this driftplan (it merges `sweep`)",
+            a.dir.display()
+        ),
+    }
+}
+
+/// The plan as it is now must be the one the shards ran.
+fn check_hash(plan: &driftplan::plan::Plan, merged: &shard::Merged) -> Result<()> {
+    anyhow::ensure!(
+        plan.hash == merged.plan_sha256,
+        "{}: the plan file changed since the shards ran (SHA-256 {} now, {} in the shards); run the shards again",
+        plan.file.display(),
+        &plan.hash[..plan.hash.len().min(12)],
+        &merged.plan_sha256[..merged.plan_sha256.len().min(12)]
+    );
+    Ok(())
+}
