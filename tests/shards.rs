@@ -187,3 +187,75 @@ fn merged_shards_equal_the_one_machine_sweep() {
     assert!(!o.status.success());
     assert!(stderr(&o).contains("only 9 jobs"), "{}", stderr(&o));
 }
+
+#[test]
+fn merged_replacement_cost_shards_equal_the_one_machine_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(
+        d,
+        "",
+        "objective = \"min-cost\"\nrobustness = \"every-scenario\"",
+    );
+    let irr = |out: &Path, extra: &[&str]| {
+        let mut args = vec![
+            os("irreplaceability"),
+            plan.as_os_str(),
+            os("--out"),
+            out.as_os_str(),
+        ];
+        args.extend(extra.iter().map(|s| os(s)));
+        let o = run_quiet(&args);
+        assert!(o.status.success(), "{extra:?}: {}", stderr(&o));
+    };
+    let plain = d.join("plain");
+    irr(&plain, &[]);
+    let units = std::fs::read_to_string(plain.join("irreplaceability.csv"))
+        .unwrap()
+        .lines()
+        .count()
+        - 1;
+    assert!(units >= 2, "the coarse demo's optimum has {units} reserves");
+    let study = d.join("study");
+    for k in 1..=2 {
+        irr(
+            &study.join("shards").join(k.to_string()),
+            &["--shard", &format!("{k}/2")],
+        );
+    }
+    let o = merge(&study);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let files = outputs(&plain);
+    assert_eq!(files, outputs(&study));
+    for f in &files {
+        let a = String::from_utf8(std::fs::read(plain.join(f)).unwrap()).unwrap();
+        let b = String::from_utf8(std::fs::read(study.join(f)).unwrap()).unwrap();
+        if f == "report.html" {
+            assert_eq!(without_timing(&a), without_timing(&b));
+        } else {
+            assert!(a == b, "{f} differs between the plain and the merged run");
+        }
+    }
+    // Shards of a sweep and of replacement cost do not mix.
+    let mixed = d.join("mixed");
+    copy_dir(&study, &mixed);
+    std::fs::remove_dir_all(mixed.join("shards/2")).unwrap();
+    let o = run_quiet(&[
+        os("sweep"),
+        plan.as_os_str(),
+        os("--budgets"),
+        os("10%,20%"),
+        os("--shard"),
+        os("2/2"),
+        os("--out"),
+        mixed.join("shards/2").as_os_str(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let o = merge(&mixed);
+    assert!(!o.status.success());
+    let e = stderr(&o);
+    assert!(
+        e.contains("shards/2") && e.contains("is a shard of `sweep`"),
+        "{e}"
+    );
+}

@@ -38,18 +38,8 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         "sweep" => {
             let (budget_of, solver) = super::sweep::from_arguments(&merged.arguments)?;
             let mut run = export::RunFolder::begin(&out, "sweep")?;
-            let plan = load_with(&plan_path, &solver).with_context(|| {
-                format!("the plan the shards were run on ({})", plan_path.display())
-            })?;
-            check_hash(&plan, &merged)?;
+            let (plan, inputs) = load_checked(&plan_path, &solver, &merged, progress)?;
             run.set_plan(&plan.file, &plan.hash);
-            let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
-            anyhow::ensure!(
-                inputs.grid.len() == merged.cells,
-                "the plan's grid has {} cells, the shards' {}: they were run by another driftplan",
-                inputs.grid.len(),
-                merged.cells
-            );
             let problem = pipeline::problem(&plan, &inputs);
             let (runs, rows) = shard::sweep_outcomes(&merged.outcomes, merged.cells)
                 .map_err(|e| anyhow::anyhow!("{}: {e}", a.dir.display()))?;
@@ -64,15 +54,63 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             });
             super::sweep::write(&plan, &inputs, &sw, matrix.as_ref(), &budget_of, run)
         }
+        "irreplaceability" => {
+            let (cells, solver) = super::irreplaceability::from_arguments(&merged.arguments)?;
+            let mut run = export::RunFolder::begin(&out, "irreplaceability")?;
+            let (plan, inputs) = load_checked(&plan_path, &solver, &merged, progress)?;
+            run.set_plan(&plan.file, &plan.hash);
+            let problem = pipeline::problem(&plan, &inputs);
+            let base = merged
+                .base
+                .as_ref()
+                .ok_or_else(|| anyhow::anyhow!("{}: the shards hold no optimum", a.dir.display()))?
+                .solution(merged.cells)
+                .map_err(|e| anyhow::anyhow!("{}: the optimum: {e}", a.dir.display()))?;
+            let assessment = pipeline::assess_network(&inputs, &base.selected);
+            let units = super::irreplaceability::units(&assessment, &base, cells);
+            let rows = shard::replacement_outcomes(&merged.outcomes, merged.cells)
+                .map_err(|e| anyhow::anyhow!("{}: {e}", a.dir.display()))?;
+            anyhow::ensure!(
+                rows.len() == units.len()
+                    && rows.iter().zip(&units).all(|(r, (label, _))| &r.label == label),
+                "{}: the shards' units do not match the optimum's reserves or cells",
+                a.dir.display()
+            );
+            let minimise = driftplan::model::robust::is_minimisation(&problem);
+            let rows = driftplan::study::replacement::with_intervals(minimise, &base, rows);
+            super::irreplaceability::write(
+                &plan,
+                &inputs,
+                &base,
+                &assessment,
+                &units,
+                &rows,
+                minimise,
+                cells,
+                run,
+            )
+        }
         other => anyhow::bail!(
-            "{}: shards of `{other}` cannot be merged by this driftplan (it merges `sweep`)",
+            "{}: shards of `{other}` cannot be merged by this driftplan (it merges `sweep` and `irreplaceability`)",
             a.dir.display()
         ),
     }
 }
 
-/// The plan as it is now must be the one the shards ran.
-fn check_hash(plan: &driftplan::plan::Plan, merged: &shard::Merged) -> Result<()> {
+/// Loads the plan the shards ran (its SHA-256 must still be theirs) and pre-processes it once
+/// (grid, layers, features) for the outputs.
+fn load_checked(
+    plan_path: &std::path::Path,
+    solver: &super::SolverArgs,
+    merged: &shard::Merged,
+    progress: &Progress,
+) -> Result<(driftplan::plan::Plan, pipeline::Inputs)> {
+    let plan = load_with(plan_path, solver).with_context(|| {
+        format!(
+            "the plan the shards were run on ({}; give --plan if it moved)",
+            plan_path.display()
+        )
+    })?;
     anyhow::ensure!(
         plan.hash == merged.plan_sha256,
         "{}: the plan file changed since the shards ran (SHA-256 {} now, {} in the shards); run the shards again",
@@ -80,5 +118,12 @@ fn check_hash(plan: &driftplan::plan::Plan, merged: &shard::Merged) -> Result<()
         &plan.hash[..plan.hash.len().min(12)],
         &merged.plan_sha256[..merged.plan_sha256.len().min(12)]
     );
-    Ok(())
+    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    anyhow::ensure!(
+        inputs.grid.len() == merged.cells,
+        "the plan's grid has {} cells, the shards' {}: they were run by another driftplan",
+        inputs.grid.len(),
+        merged.cells
+    );
+    Ok((plan, inputs))
 }

@@ -92,17 +92,24 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
 /// The arguments that decide a sweep's results, as a shard records them (`study::shard`):
 /// the budgets (exact), what they are shares of and the solver overrides.
 fn arguments(shares: &[f64], budget_of: &str, solver: &SolverArgs) -> BTreeMap<String, String> {
+    let mut m = solver_arguments(solver);
+    m.insert(
+        "budgets".to_string(),
+        shares
+            .iter()
+            .map(|v| format!("{v:?}"))
+            .collect::<Vec<_>>()
+            .join(","),
+    );
+    m.insert("budget_of".to_string(), budget_of.to_string());
+    m
+}
+
+/// The solver overrides of the command line as a shard records them (exact text; empty when
+/// not given).
+pub(crate) fn solver_arguments(solver: &SolverArgs) -> BTreeMap<String, String> {
     let exact = |v: f64| format!("{v:?}");
     BTreeMap::from([
-        (
-            "budgets".to_string(),
-            shares
-                .iter()
-                .map(|&v| exact(v))
-                .collect::<Vec<_>>()
-                .join(","),
-        ),
-        ("budget_of".to_string(), budget_of.to_string()),
         (
             "time_limit".to_string(),
             solver.time_limit.map(exact).unwrap_or_default(),
@@ -115,13 +122,12 @@ fn arguments(shares: &[f64], budget_of: &str, solver: &SolverArgs) -> BTreeMap<S
     ])
 }
 
-/// The sweep's `--budget-of` and solver overrides back from a shard's arguments.
-pub(crate) fn from_arguments(args: &BTreeMap<String, String>) -> Result<(String, SolverArgs)> {
-    let get = |k: &str| {
-        args.get(k)
-            .ok_or_else(|| anyhow::anyhow!("the shards record no `{k}` argument"))
-    };
-    fn opt<T: std::str::FromStr>(k: &str, v: &str) -> Result<Option<T>> {
+/// The solver overrides back from a shard's arguments.
+pub(crate) fn solver_from_arguments(args: &BTreeMap<String, String>) -> Result<SolverArgs> {
+    fn opt<T: std::str::FromStr>(args: &BTreeMap<String, String>, k: &str) -> Result<Option<T>> {
+        let v = args
+            .get(k)
+            .ok_or_else(|| anyhow::anyhow!("the shards record no `{k}` argument"))?;
         if v.is_empty() {
             return Ok(None);
         }
@@ -129,18 +135,22 @@ pub(crate) fn from_arguments(args: &BTreeMap<String, String>) -> Result<(String,
             .map(Some)
             .map_err(|_| anyhow::anyhow!("the shards' `{k}` argument `{v}` is not a number"))
     }
-    let budget_of = get("budget_of")?.clone();
+    Ok(SolverArgs {
+        time_limit: opt(args, "time_limit")?,
+        gap: opt(args, "gap")?,
+        threads: opt(args, "threads")?,
+        solver_log: false,
+    })
+}
+
+/// The sweep's `--budget-of` and solver overrides back from a shard's arguments.
+pub(crate) fn from_arguments(args: &BTreeMap<String, String>) -> Result<(String, SolverArgs)> {
+    let budget_of = args.get("budget_of").cloned().unwrap_or_default();
     anyhow::ensure!(
         budget_of == "area" || budget_of == "cost",
-        "the shards' `budget_of` is `{budget_of}`, expected `area` or `cost`"
+        "the shards' `budget_of` argument is `{budget_of}`, expected `area` or `cost`"
     );
-    let solver = SolverArgs {
-        time_limit: opt("time_limit", get("time_limit")?)?,
-        gap: opt("gap", get("gap")?)?,
-        threads: opt("threads", get("threads")?)?,
-        solver_log: false,
-    };
-    Ok((budget_of, solver))
+    Ok((budget_of, solver_from_arguments(args)?))
 }
 
 fn what(budget_of: &str) -> &'static str {
@@ -254,6 +264,7 @@ fn shard(
         shards: spec.n,
         jobs: jobs.len(),
         cells: inputs.grid.len(),
+        base: None,
         results,
     };
     export::write_outputs(run.dir(), &[(shard::SHARD_FILE, part.to_json())])?;
@@ -299,11 +310,11 @@ pub(crate) fn write(
     // The report maps the largest budget's network, with the selection share beside it, and
     // every budget's network side by side; each is also written to networks/.
     let largest = &sw.runs[sw.runs.len() - 1];
-    let shown = pipeline::assess_network(&inputs, &largest.solution.selected);
+    let shown = pipeline::assess_network(inputs, &largest.solution.selected);
     let per_budget: Vec<driftplan::assess::Assessment> = sw
         .runs
         .iter()
-        .map(|r| pipeline::assess_network(&inputs, &r.solution.selected))
+        .map(|r| pipeline::assess_network(inputs, &r.solution.selected))
         .collect();
     let mut network_files = Vec::new();
     for (r, a) in sw.runs.iter().zip(&per_budget) {
@@ -333,10 +344,10 @@ pub(crate) fn write(
             .collect(),
     };
     let files = vec![
-        ("sweep.csv", driftplan::study::sweep::sweep_csv(&sw)),
+        ("sweep.csv", driftplan::study::sweep::sweep_csv(sw)),
         (
             "first-reached.csv",
-            driftplan::study::sweep::first_reached_csv(&sw),
+            driftplan::study::sweep::first_reached_csv(sw),
         ),
         (
             "selection-frequency.csv",
@@ -359,8 +370,8 @@ pub(crate) fn write(
         (
             "report.html",
             pipeline::report_html(
-                &plan,
-                &inputs,
+                plan,
+                inputs,
                 &largest.solution.selected,
                 &shown,
                 pipeline::ReportExtras {

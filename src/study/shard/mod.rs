@@ -157,6 +157,10 @@ pub struct ShardPart {
     pub jobs: usize,
     /// Cells of the grid (networks are stored as cell ids).
     pub cells: usize,
+    /// A result every shard computes before its jobs and the merge checks they agree on:
+    /// replacement cost's optimum, whose reserves or cells are the job list.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub base: Option<SolutionRecord>,
     /// This shard's jobs, in job order.
     pub results: Vec<JobResult>,
 }
@@ -184,6 +188,8 @@ pub struct Merged {
     pub shards: usize,
     /// Cells of the grid.
     pub cells: usize,
+    /// The result every shard computed first (shard 1's; all agree but for timing).
+    pub base: Option<SolutionRecord>,
     /// Every job's result, in job order.
     pub outcomes: Vec<Outcome>,
 }
@@ -296,6 +302,17 @@ pub fn read_shards(dir: &Path) -> Result<Merged, ShardError> {
                 part.jobs, part.cells, first.jobs, first.cells
             ));
         }
+        let agree = match (&part.base, &first.base) {
+            (None, None) => true,
+            (Some(a), Some(b)) => a.same_but_timing(b),
+            _ => false,
+        };
+        if !agree {
+            problems.push(format!(
+                "{here}: its optimum differs from {there}'s (another network or objective), so their jobs differ; \
+                 solve to a proven optimum (`--gap 0`) with a time limit that is not reached, or with `--threads 1`"
+            ));
+        }
         let want = ShardSpec {
             k: part.shard.clamp(1, part.shards.max(1)),
             n: part.shards.max(1),
@@ -328,6 +345,7 @@ pub fn read_shards(dir: &Path) -> Result<Merged, ShardError> {
         plan_sha256: first.plan_sha256,
         shards: n,
         cells: first.cells,
+        base: first.base,
         // Every job was checked to be in exactly one shard above.
         outcomes: outcomes.into_iter().flatten().collect(),
     })
@@ -402,6 +420,24 @@ fn differences(a: &BTreeMap<String, String>, b: &BTreeMap<String, String>) -> St
         })
         .collect::<Vec<_>>()
         .join("; ")
+}
+
+/// A replacement-cost study's parts, joined: one row per unit, in job order, without
+/// intervals (`study::replacement::with_intervals` adds them).
+pub fn replacement_outcomes(
+    outcomes: &[Outcome],
+    cells: usize,
+) -> Result<Vec<crate::study::Replacement>, String> {
+    outcomes
+        .iter()
+        .enumerate()
+        .map(|(j, o)| match o {
+            Outcome::Unit(u) => u.replacement(cells).map_err(|e| format!("job {j}: {e}")),
+            _ => Err(format!(
+                "job {j}: a sweep result in a replacement-cost study"
+            )),
+        })
+        .collect()
 }
 
 /// One job of a budget sweep.
