@@ -54,6 +54,27 @@ fn without_timing(report: &str) -> String {
     format!("{}{key}…{}", &report[..at], &report[end..])
 }
 
+/// The merged folder holds the one-machine run's files with the same bytes, but for
+/// report.html's solve time.
+fn assert_same_outputs(plain: &Path, merged: &Path) {
+    let files = outputs(plain);
+    assert_eq!(files, outputs(merged), "the same files");
+    assert!(files.len() >= 3, "{files:?}");
+    for f in &files {
+        let a = std::fs::read(plain.join(f)).unwrap();
+        let b = std::fs::read(merged.join(f)).unwrap();
+        if f == "report.html" {
+            assert_eq!(
+                without_timing(&String::from_utf8(a).unwrap()),
+                without_timing(&String::from_utf8(b).unwrap()),
+                "report.html differs beyond its solve time"
+            );
+        } else {
+            assert!(a == b, "{f} differs between the plain and the merged run");
+        }
+    }
+}
+
 fn copy_dir(from: &Path, to: &Path) {
     let ok = std::process::Command::new("cp")
         .arg("-a")
@@ -85,23 +106,8 @@ fn merged_shards_equal_the_one_machine_sweep() {
     let o = merge(&study);
     assert!(o.status.success(), "{}", stderr(&o));
 
-    let files = outputs(&plain);
-    assert_eq!(files, outputs(&study), "the same files");
-    assert!(files.contains(&"networks/budget-12pct.geojson".to_string()));
-    assert!(files.contains(&"sweep.csv".to_string()));
-    for f in &files {
-        let a = std::fs::read(plain.join(f)).unwrap();
-        let b = std::fs::read(study.join(f)).unwrap();
-        if f == "report.html" {
-            assert_eq!(
-                without_timing(&String::from_utf8(a).unwrap()),
-                without_timing(&String::from_utf8(b).unwrap()),
-                "report.html differs beyond its solve time"
-            );
-        } else {
-            assert!(a == b, "{f} differs between the plain and the merged run");
-        }
-    }
+    assert_same_outputs(&plain, &study);
+    assert!(outputs(&plain).contains(&"networks/budget-12pct.geojson".to_string()));
     // The merged folder verifies, its shards stay (each its own run), and the manifest is the
     // plain run's apart from the finishing time and report.html's hash.
     let v = run_quiet(&[os("verify"), study.as_os_str()]);
@@ -225,17 +231,7 @@ fn merged_replacement_cost_shards_equal_the_one_machine_run() {
     }
     let o = merge(&study);
     assert!(o.status.success(), "{}", stderr(&o));
-    let files = outputs(&plain);
-    assert_eq!(files, outputs(&study));
-    for f in &files {
-        let a = String::from_utf8(std::fs::read(plain.join(f)).unwrap()).unwrap();
-        let b = String::from_utf8(std::fs::read(study.join(f)).unwrap()).unwrap();
-        if f == "report.html" {
-            assert_eq!(without_timing(&a), without_timing(&b));
-        } else {
-            assert!(a == b, "{f} differs between the plain and the merged run");
-        }
-    }
+    assert_same_outputs(&plain, &study);
     // Shards of a sweep and of replacement cost do not mix.
     let mixed = d.join("mixed");
     copy_dir(&study, &mixed);
@@ -258,4 +254,119 @@ fn merged_replacement_cost_shards_equal_the_one_machine_run() {
         e.contains("shards/2") && e.contains("is a shard of `sweep`"),
         "{e}"
     );
+}
+
+#[test]
+fn the_generated_slurm_scripts_run_by_hand_give_the_plain_run() {
+    // Slurm runs the array script once per task with SLURM_ARRAY_TASK_ID set, in --chdir;
+    // bash does the same here (the #SBATCH lines are comments to it). The real scheduler is
+    // exercised by scripts/slurm-test.sh (the next test).
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = plan_with_gap(d, "max_share = 0.5", "objective = \"min-cost\"", 0.0);
+    let rel = plan.strip_prefix(d).unwrap();
+    let plain = d.join("plain");
+    let mut args = vec![os("sweep"), plan.as_os_str(), os("--budgets"), os("4%,8%")];
+    args.extend([os("--out"), plain.as_os_str()]);
+    assert!(run_quiet(&args).status.success());
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .current_dir(d)
+        .args([
+            "cluster",
+            "slurm",
+            "--shards",
+            "2",
+            "--account",
+            "sea-lab",
+            "sweep",
+        ])
+        .arg(rel)
+        .args(["--budgets", "4%,8%", "--out", "study"])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let printed = String::from_utf8_lossy(&o.stdout);
+    assert!(printed.contains("submit.sh"), "{printed}");
+    let script = std::fs::read_to_string(d.join("study/slurm/shards.sbatch")).unwrap();
+    assert!(script.contains("#SBATCH --array=1-2\n"), "{script}");
+    assert!(script.contains("#SBATCH --account=sea-lab\n"), "{script}");
+    let submit = std::fs::read_to_string(d.join("study/slurm/submit.sh")).unwrap();
+    assert!(submit.contains("--dependency=afterok:$array"), "{submit}");
+    let task = |k: &str| {
+        let o = std::process::Command::new("bash")
+            .arg(d.join("study/slurm/shards.sbatch"))
+            .current_dir(d)
+            .env("SLURM_ARRAY_TASK_ID", k)
+            .env("SLURM_CPUS_PER_TASK", "1")
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "task {k}: {}", stderr(&o));
+        String::from_utf8_lossy(&o.stdout).into_owned()
+    };
+    task("1");
+    task("2");
+    // Resumable: a task whose shard is complete keeps it.
+    assert!(task("1").contains("shard 1 of 2 is complete already: kept"));
+    let o = std::process::Command::new("bash")
+        .arg(d.join("study/slurm/merge.sbatch"))
+        .current_dir(d)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "merge: {}", stderr(&o));
+    assert_same_outputs(&plain, &d.join("study"));
+    // Studies whose solves depend on each other are refused with the reason.
+    let o = run_quiet(&[
+        os("cluster"),
+        os("slurm"),
+        os("portfolio"),
+        plan.as_os_str(),
+        os("--out"),
+        d.join("p").as_os_str(),
+    ]);
+    assert!(!o.status.success());
+    assert!(
+        stderr(&o).contains("needs the one before it"),
+        "{}",
+        stderr(&o)
+    );
+}
+
+#[test]
+fn a_real_slurm_cluster_runs_the_sharded_sweep() {
+    // scripts/slurm-test.sh starts a one-node Slurm cluster (installing slurm-wlm and munge
+    // when missing), so it runs only when asked: DRIFTPLAN_SLURM_TEST=1 runs it and accepts
+    // the script's "skipped" (77, the cluster could not start; the reason is printed);
+    // DRIFTPLAN_SLURM_TEST=require makes a skip a failure.
+    let want = std::env::var("DRIFTPLAN_SLURM_TEST").unwrap_or_default();
+    if want != "1" && want != "require" {
+        eprintln!(
+            "skipped: the real Slurm test runs with DRIFTPLAN_SLURM_TEST=1 (it installs and starts a one-node cluster)"
+        );
+        return;
+    }
+    let tmp = tempfile::tempdir().unwrap();
+    let plan = plan_with_gap(
+        tmp.path(),
+        "max_share = 0.5",
+        "objective = \"min-cost\"",
+        0.0,
+    );
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("scripts/slurm-test.sh");
+    let o = std::process::Command::new("bash")
+        .arg(script)
+        .arg(env!("CARGO_BIN_EXE_driftplan"))
+        .arg(&plan)
+        .output()
+        .unwrap();
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    eprintln!("{text}");
+    match o.status.code() {
+        Some(0) => assert!(text.contains("PASSED"), "{text}"),
+        Some(77) if want != "require" => eprintln!("skipped by the script (reason above)"),
+        other => panic!("scripts/slurm-test.sh ended with {other:?}:\n{text}"),
+    }
 }

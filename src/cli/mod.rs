@@ -14,6 +14,7 @@ use std::time::Instant;
 mod assess;
 mod bench;
 mod check;
+mod cluster;
 mod compare;
 mod demo;
 mod features;
@@ -131,6 +132,9 @@ enum Command {
     /// study's outputs into DIR (or --out), the same bytes as a one-machine run apart from
     /// timing fields (solve times, the manifest's finishing time).
     Merge(merge::Args),
+    /// Run a study's shards on a cluster scheduler: writes (and with --submit submits) a job
+    /// array with one task per shard and a merge job that waits for all of them.
+    Cluster(cluster::Args),
 }
 
 /// Runs one command.
@@ -151,6 +155,7 @@ pub fn run(args: Args) -> Result<()> {
         Command::Irreplaceability(a) => irreplaceability::run(a, &progress),
         Command::Verify(a) => verify::run(a),
         Command::Merge(a) => merge::run(a, &progress),
+        Command::Cluster(a) => cluster::run(a, &progress),
     }
 }
 

@@ -12,24 +12,24 @@ use std::path::{Path, PathBuf};
 #[derive(clap::Args, Debug)]
 pub(crate) struct Args {
     /// The plan file (TOML).
-    plan: PathBuf,
+    pub(crate) plan: PathBuf,
     /// Budgets, e.g. `5%,10%,...,40%` or `0.05,0.1`.
     #[arg(long, default_value = "5%,10%,...,40%")]
-    budgets: String,
+    pub(crate) budgets: String,
     /// What the budgets are shares of: the region's sea `area`, or its total `cost` (the
     /// plan's cost summed over every cell; cost then never falls as the budget grows).
     #[arg(long, default_value = "area", value_parser = ["area", "cost"])]
     budget_of: String,
     /// Output folder.
     #[arg(long)]
-    out: PathBuf,
+    pub(crate) out: PathBuf,
     #[command(flatten)]
-    solver: SolverArgs,
+    pub(crate) solver: SolverArgs,
     /// Solve only part K of N of the sweep's jobs (every N-th of its budgets, then scenario
     /// designs) and write shard.json; `driftplan merge` joins the parts, e.g. `--shard 2/4
     /// --out study/shards/2`.
     #[arg(long, value_name = "K/N")]
-    shard: Option<String>,
+    pub(crate) shard: Option<String>,
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {

@@ -20,6 +20,7 @@
 //! each job needs the one before it; they run on one machine.
 
 pub mod record;
+pub mod slurm;
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
