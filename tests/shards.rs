@@ -9,6 +9,10 @@ use std::path::{Path, PathBuf};
 
 const BUDGETS: &str = "2%,4%,...,12%";
 
+/// A time limit no solve reaches, even on a loaded machine: the merge equals the one-machine
+/// run only while no solve stops at its limit (the two runs share the limit out differently).
+const LIMIT: &str = "3000";
+
 fn sweep(plan: &Path, out: &Path, extra: &[&str]) {
     let mut args = vec![
         os("sweep"),
@@ -18,6 +22,9 @@ fn sweep(plan: &Path, out: &Path, extra: &[&str]) {
         os("--out"),
         out.as_os_str(),
     ];
+    if !extra.contains(&"--time-limit") {
+        args.extend([os("--time-limit"), os(LIMIT)]);
+    }
     args.extend(extra.iter().map(|s| os(s)));
     let o = run_quiet(&args);
     assert!(
@@ -70,7 +77,12 @@ fn assert_same_outputs(plain: &Path, merged: &Path) {
                 "report.html differs beyond its solve time"
             );
         } else {
-            assert!(a == b, "{f} differs between the plain and the merged run");
+            let (a, b) = (String::from_utf8_lossy(&a), String::from_utf8_lossy(&b));
+            let first = a.lines().zip(b.lines()).find(|(x, y)| x != y);
+            assert!(
+                a == b,
+                "{f} differs between the plain and the merged run, first at {first:?}"
+            );
         }
     }
 }
@@ -209,6 +221,8 @@ fn merged_replacement_cost_shards_equal_the_one_machine_run() {
             plan.as_os_str(),
             os("--out"),
             out.as_os_str(),
+            os("--time-limit"),
+            os(LIMIT),
         ];
         args.extend(extra.iter().map(|s| os(s)));
         let o = run_quiet(&args);
@@ -267,7 +281,12 @@ fn the_generated_slurm_scripts_run_by_hand_give_the_plain_run() {
     let rel = plan.strip_prefix(d).unwrap();
     let plain = d.join("plain");
     let mut args = vec![os("sweep"), plan.as_os_str(), os("--budgets"), os("4%,8%")];
-    args.extend([os("--out"), plain.as_os_str()]);
+    args.extend([
+        os("--time-limit"),
+        os(LIMIT),
+        os("--out"),
+        plain.as_os_str(),
+    ]);
     assert!(run_quiet(&args).status.success());
     let o = std::process::Command::new(env!("CARGO_BIN_EXE_driftplan"))
         .current_dir(d)
@@ -281,7 +300,14 @@ fn the_generated_slurm_scripts_run_by_hand_give_the_plain_run() {
             "sweep",
         ])
         .arg(rel)
-        .args(["--budgets", "4%,8%", "--out", "study"])
+        .args([
+            "--budgets",
+            "4%,8%",
+            "--time-limit",
+            LIMIT,
+            "--out",
+            "study",
+        ])
         .output()
         .unwrap();
     assert!(o.status.success(), "{}", stderr(&o));

@@ -2,6 +2,7 @@
 
 use super::{load_with, Progress};
 use anyhow::{Context, Result};
+use driftplan::solve::SolveStatus;
 use driftplan::study::shard;
 use driftplan::{export, pipeline};
 use std::path::PathBuf;
@@ -52,7 +53,19 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
                 scenarios: problem.scenarios.iter().map(|s| s.name.clone()).collect(),
                 rows,
             });
-            super::sweep::write(&plan, &inputs, &sw, matrix.as_ref(), &budget_of, run)
+            let stopped = sw
+                .runs
+                .iter()
+                .filter(|r| r.solution.status == SolveStatus::TimeLimit)
+                .count()
+                + matrix
+                    .iter()
+                    .flat_map(|m| &m.rows)
+                    .filter(|r| r.status == SolveStatus::TimeLimit.as_str())
+                    .count();
+            super::sweep::write(&plan, &inputs, &sw, matrix.as_ref(), &budget_of, run)?;
+            time_limit_note(stopped);
+            Ok(())
         }
         "irreplaceability" => {
             let (cells, solver) = super::irreplaceability::from_arguments(&merged.arguments)?;
@@ -78,6 +91,12 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             );
             let minimise = driftplan::model::robust::is_minimisation(&problem);
             let rows = driftplan::study::replacement::with_intervals(minimise, &base, rows);
+            let stopped = rows
+                .iter()
+                .filter_map(|r| r.without.as_ref())
+                .chain([&base])
+                .filter(|s| s.status == SolveStatus::TimeLimit)
+                .count();
             super::irreplaceability::write(
                 &plan,
                 &inputs,
@@ -88,12 +107,25 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
                 minimise,
                 cells,
                 run,
-            )
+            )?;
+            time_limit_note(stopped);
+            Ok(())
         }
         other => anyhow::bail!(
             "{}: shards of `{other}` cannot be merged by this driftplan (it merges `sweep` and `irreplaceability`)",
             a.dir.display()
         ),
+    }
+}
+
+/// Says when solves stopped at their time limit: then a one-machine run, which shares the limit
+/// out differently, may find other networks.
+fn time_limit_note(stopped: usize) {
+    if stopped > 0 {
+        println!(
+            "note: {stopped} solve{} of the shards stopped at the time limit; a one-machine run shares the limit out differently and may differ there (raise --time-limit for results that do not depend on how the study is split)",
+            if stopped == 1 { "" } else { "s" }
+        );
     }
 }
 
