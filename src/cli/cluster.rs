@@ -5,8 +5,8 @@ use super::{load_with, Progress};
 use anyhow::{Context, Result};
 use clap::{Parser, Subcommand};
 use driftplan::pipeline;
+use driftplan::study::shard;
 use driftplan::study::shard::slurm::{quote, Resources, SlurmJob, SCRIPTS_DIR};
-use driftplan::study::shard::{self, ShardSpec};
 use std::path::{Path, PathBuf};
 
 /// Arguments of `driftplan cluster`.
@@ -136,7 +136,10 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     };
     anyhow::ensure!(shards >= 1, "--shards must be at least 1");
     if let Some(j) = jobs {
-        ShardSpec { k: 1, n: shards }.check(j, "the sweep's budgets and scenario designs")?;
+        anyhow::ensure!(
+            shards <= j,
+            "--shards {shards}: the sweep has only {j} jobs (its budgets, then one design per scenario); use at most {j} shards"
+        );
     }
     let mut task = Resources::estimate(
         grid.len(),

@@ -14,8 +14,8 @@
 //!   amount) pair and every row is counted at full density, an upper bound; 2 KiB a cell for
 //!   the grid, neighbours and layers. A solve: cells × (rows × 36 B + 1 KiB) — the problem's
 //!   copy of the amounts and the solver's column and row copies of the same matrix
-//!   (common practice for a sparse LP matrix, no source; checked against the demo's peak
-//!   resident memory in the tests).
+//!   (common practice for a sparse LP matrix, no source; see docs/architecture.md for a
+//!   measurement on the demo).
 //! * **Time** = 1.5 × the plan's time limit (the whole shard's solves share it) + 10 minutes
 //!   for reading inputs and writing outputs, in whole minutes.
 //! * **The merge** solves nothing: one task's memory with one CPU (it pre-processes the plan
