@@ -186,6 +186,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                         crs: None,
                         valid_range: Some((0.0, 1.0)),
                         missing: Missing::Error,
+                        repair: false,
                     };
                     let layer = sample(&format!("sp{k}"), &layer_spec, &grid, &cache)?;
                     let sp = format!("sp{k}");
@@ -323,9 +324,9 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
         Some(timed(&mut figures, "solve", || {
             let sol = crate::solve::ilp::Highs::default().solve(&problem, &options)?;
             let note = format!(
-                "{}, gap {:.3}%, objective {:.1}",
+                "{}, gap {}, objective {:.1}",
                 sol.status.as_str(),
-                100.0 * sol.gap,
+                crate::solve::progress::gap_percent(sol.gap),
                 sol.objective
             );
             Ok((sol, note))

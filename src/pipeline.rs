@@ -27,6 +27,30 @@ pub enum RunError {
     /// Several input layers could not be read.
     #[error("{} input problems:\n  - {}", .0.len(), .0.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "))]
     Layers(Vec<LayerError>),
+    /// Most of the grid lies outside the layers' data: more likely a wrong region (a bad
+    /// vertex, a hole outside its exterior) than bad layers, so the region file is named first.
+    #[error("{}: the region spans lon {}, lat {}, and most of its grid lies outside the input layers' data; check the region first — the layer problems may come from it:\n  - {}", .region.display(), .lon, .lat, .errors.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "))]
+    RegionBeyondData {
+        /// The plan's region file.
+        region: std::path::PathBuf,
+        /// Longitude range of the grid's cell centres, `min to max`.
+        lon: String,
+        /// Latitude range of the grid's cell centres.
+        lat: String,
+        /// The layer problems.
+        errors: Vec<LayerError>,
+    },
+    /// Some cells are not covered by layers: the layer problems, with a reminder that the
+    /// grid's sea comes from the region and land files, which may be what is wrong.
+    #[error("{}\n  (the grid's sea is {} minus {}: if the uncovered cells are land or lie beyond the data, check those files)", .errors.iter().map(|e| e.to_string()).collect::<Vec<_>>().join("\n  - "), .region.display(), .land.as_ref().map(|l| l.display().to_string()).unwrap_or_else(|| "no land file".into()))]
+    SeaUncovered {
+        /// The plan's region file.
+        region: std::path::PathBuf,
+        /// The plan's land file, if any.
+        land: Option<std::path::PathBuf>,
+        /// The layer problems.
+        errors: Vec<LayerError>,
+    },
     /// Cells that are both required and excluded.
     #[error("{count} cells are both required (by {required}) and excluded (by {excluded}), e.g. cell {example} at lon/lat {lon:.4}, {lat:.4}; fix the polygons or the `min_share` values")]
     Conflict {
@@ -90,8 +114,12 @@ pub struct Inputs {
 
 /// Builds the grid of a plan.
 pub fn grid(plan: &Plan) -> Result<Grid, RunError> {
-    let region = read_multipolygon(&plan.region)?;
-    let land = plan.land.as_deref().map(read_multipolygon).transpose()?;
+    let region = read_multipolygon(&plan.region, plan.repair_polygons)?;
+    let land = plan
+        .land
+        .as_deref()
+        .map(|l| read_multipolygon(l, plan.repair_polygons))
+        .transpose()?;
     Ok(build_grid(&plan.grid, &region, land.as_ref())?)
 }
 
@@ -253,6 +281,34 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
     // One broken file read for many layers (a CSV with a column per species) is one problem.
     let mut seen = std::collections::BTreeSet::new();
     errors.retain(|e| seen.insert(e.to_string()));
+    let mostly_uncovered = errors
+        .iter()
+        .any(|e| matches!(e, LayerError::Uncovered { count, total, .. } if 2 * count > *total));
+    if mostly_uncovered {
+        let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
+        for c in &grid.cells {
+            for k in 0..2 {
+                lo[k] = lo[k].min(c.lonlat[k]);
+                hi[k] = hi[k].max(c.lonlat[k]);
+            }
+        }
+        return Err(RunError::RegionBeyondData {
+            region: plan.region.clone(),
+            lon: format!("{:.3} to {:.3}", lo[0], hi[0]),
+            lat: format!("{:.3} to {:.3}", lo[1], hi[1]),
+            errors,
+        });
+    }
+    if errors
+        .iter()
+        .any(|e| matches!(e, LayerError::Uncovered { .. }))
+    {
+        return Err(RunError::SeaUncovered {
+            region: plan.region.clone(),
+            land: plan.land.clone(),
+            errors,
+        });
+    }
     if !errors.is_empty() {
         return Err(if errors.len() == 1 {
             RunError::Layer(errors.remove(0))
@@ -584,18 +640,43 @@ pub fn assess_solution(
     problem: &Problem,
     solution: &Solution,
 ) -> (Assessment, Option<Vec<crate::assess::zones::ZoneShare>>) {
-    let mut a = assess_network(inputs, &solution.selected);
-    let shares = match (&problem.zoning, &solution.zones) {
-        (Some(z), Some(asg)) => Some(crate::assess::zones::apply_zones(
+    assess_zoned(
+        inputs,
+        problem,
+        &solution.selected,
+        solution.zones.as_deref(),
+    )
+}
+
+/// Assesses a network under the plan: as [`assess_network`], and on a zoned problem re-scored
+/// with each cell's zone (`assignment`: 0 outside, 1 + zone index; `None` puts every chosen
+/// cell in the first zone, [`crate::model::zones::first_zone`]), with each zone's share of
+/// the network and of each reserve.
+pub fn assess_zoned(
+    inputs: &Inputs,
+    problem: &Problem,
+    selected: &[bool],
+    assignment: Option<&[u8]>,
+) -> (Assessment, Option<Vec<crate::assess::zones::ZoneShare>>) {
+    let mut a = assess_network(inputs, selected);
+    let shares = problem.zoning.as_ref().map(|z| {
+        let first;
+        let asg = match assignment {
+            Some(asg) => asg,
+            None => {
+                first = crate::model::zones::first_zone(selected);
+                &first
+            }
+        };
+        crate::assess::zones::apply_zones(
             &mut a,
             &inputs.grid,
             &inputs.features,
             &inputs.cost,
             z,
             asg,
-        )),
-        _ => None,
-    };
+        )
+    });
     (a, shares)
 }
 
@@ -707,7 +788,8 @@ pub struct ReportExtras<'a> {
     pub panels: Option<crate::report::NetworkPanels>,
 }
 
-/// `report.html` of a network under the plan (see [`crate::report`]).
+/// `report.html` of a network under the plan (see [`crate::report`]); a zoned solution's zones
+/// are coloured on the map.
 pub fn report_html(
     plan: &Plan,
     inputs: &Inputs,
@@ -715,6 +797,21 @@ pub fn report_html(
     assessment: &Assessment,
     extras: ReportExtras,
 ) -> Result<String, crate::export::ExportError> {
+    let zones = extras.solution.and_then(|s| s.zones.clone());
+    report_html_zoned(plan, inputs, selected, zones.as_deref(), assessment, extras)
+}
+
+/// [`report_html`] of a network whose cells carry zones (`assignment`: 0 outside, 1 + the
+/// plan zone's index), drawn in each zone's colour when the plan has `[[zones]]`.
+pub fn report_html_zoned(
+    plan: &Plan,
+    inputs: &Inputs,
+    selected: &[bool],
+    assignment: Option<&[u8]>,
+    assessment: &Assessment,
+    extras: ReportExtras,
+) -> Result<String, crate::export::ExportError> {
+    let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
     let mut facts = run_facts(plan, extras.solution, assessment);
     facts.extend(
         crate::features::absent::absent_notes(&inputs.features)
@@ -741,6 +838,12 @@ pub fn report_html(
         stress: extras.stress.map(crate::study::stress::report_table),
         sweep: extras.sweep.map(crate::study::sweep::report_points),
         panels: extras.panels,
+        zones: assignment.filter(|_| !zone_names.is_empty()).map(|asg| {
+            crate::report::ReportZones {
+                names: &zone_names,
+                assignment: asg,
+            }
+        }),
     })
 }
 

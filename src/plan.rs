@@ -14,6 +14,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 pub mod climate;
+pub mod reference;
 pub mod terms;
 pub mod zones;
 
@@ -72,6 +73,8 @@ pub struct LayerTemplate {
     pub valid_range: Option<(f64, f64)>,
     /// What to do with uncovered cells.
     pub missing: Missing,
+    /// Repair invalid polygons instead of refusing them (the plan's `repair_polygons`).
+    pub repair: bool,
 }
 
 impl LayerTemplate {
@@ -92,6 +95,7 @@ impl LayerTemplate {
             crs: self.crs.clone(),
             valid_range: self.valid_range,
             missing: self.missing,
+            repair: self.repair,
         }
     }
 
@@ -109,6 +113,28 @@ impl LayerTemplate {
                 .iter()
                 .any(|t| self.path.contains(t) || f.contains(t))
     }
+}
+
+/// The first brace use in a template that is not `{species}`, `{scenario}` or `{year}` (an
+/// unknown or broken placeholder, a lone brace), if any.
+fn bad_placeholder(text: &str) -> Option<String> {
+    const KNOWN: [&str; 3] = ["{species}", "{scenario}", "{year}"];
+    let mut rest = text;
+    while let Some(i) = rest.find(['{', '}']) {
+        let tail = &rest[i..];
+        match KNOWN.iter().find(|k| tail.starts_with(*k)) {
+            Some(k) => rest = &tail[k.len()..],
+            None => {
+                let end = tail[1..]
+                    .find(['{', '}'])
+                    .map(|j| j + 2)
+                    .unwrap_or(tail.len())
+                    .min(tail.len());
+                return Some(tail[..end].to_string());
+            }
+        }
+    }
+    None
 }
 
 /// A species and its habitat source.
@@ -249,6 +275,9 @@ pub struct Plan {
     pub region: PathBuf,
     /// Land polygons to cut out (GeoJSON, lon/lat).
     pub land: Option<PathBuf>,
+    /// Repair invalid input polygons (geo's `MakeValid`) instead of refusing them; off unless
+    /// the plan says `repair_polygons = true`, so a broken file is never changed silently.
+    pub repair_polygons: bool,
     /// Grid settings.
     pub grid: GridSpec,
     /// Scenario names.
@@ -294,10 +323,12 @@ struct RawPlan {
     name: Option<String>,
     region: Option<String>,
     land: Option<String>,
+    repair_polygons: Option<bool>,
     grid: Option<RawGrid>,
     scenarios: Option<RawScenarios>,
     #[serde(default)]
     species: Vec<RawSpecies>,
+    species_list: Option<RawSpeciesList>,
     temperature: Option<RawLayer>,
     cost: Option<toml::Value>,
     required: Option<RawAreaRule>,
@@ -351,7 +382,7 @@ pub(crate) struct RawLayer {
     extra: Extra,
 }
 
-#[derive(Deserialize)]
+#[derive(Deserialize, Clone)]
 struct RawSpecies {
     name: Option<String>,
     habitat: Option<RawLayer>,
@@ -367,6 +398,19 @@ struct RawAreaRule {
     #[serde(flatten)]
     layer: RawLayer,
     min_share: Option<f64>,
+}
+
+/// `[species_list]`: many species that share one habitat source (a file per scenario and year
+/// with a column per species), so a 40-species plan is not 40 tables.
+#[derive(Deserialize)]
+struct RawSpeciesList {
+    names: Option<Vec<String>>,
+    habitat: Option<RawLayer>,
+    target: Option<f64>,
+    weight: Option<f64>,
+    may_be_absent: Option<bool>,
+    #[serde(flatten)]
+    extra: Extra,
 }
 
 #[derive(Deserialize)]
@@ -411,6 +455,8 @@ struct RawSolver {
 pub(crate) struct Checker {
     dir: PathBuf,
     issues: Vec<PlanIssue>,
+    /// The plan's `repair_polygons`, given to every layer template.
+    repair: bool,
 }
 
 impl Checker {
@@ -450,8 +496,8 @@ impl Checker {
             self.push(
                 key,
                 format!(
-                    "file not found: {} (paths are relative to the plan file)",
-                    path.display()
+                    "{} (paths are relative to the plan file)",
+                    not_a_file(&path)
                 ),
             );
         }
@@ -478,24 +524,7 @@ impl Checker {
         raw: &RawLayer,
         default_missing: Missing,
     ) -> Option<LayerTemplate> {
-        self.unknown(
-            key,
-            &raw.extra,
-            &[
-                "path",
-                "column",
-                "attribute",
-                "band",
-                "variable",
-                "years_window",
-                "layer",
-                "sampling",
-                "crs",
-                "min",
-                "max",
-                "missing",
-            ],
-        );
+        self.unknown(key, &raw.extra, &reference::keys_of("layer"));
         if raw.per.is_some() && key != "cost" {
             self.push(
                 format!("{key}.per"),
@@ -564,6 +593,35 @@ impl Checker {
             .or_else(|| raw.band.map(|b| b.to_string()))
             .or_else(|| raw.variable.clone());
         let is_netcdf = lower.ends_with(".nc");
+        let field_key = if raw.column.is_some() {
+            "column"
+        } else if raw.attribute.is_some() {
+            "attribute"
+        } else {
+            "variable"
+        };
+        for (k, text) in [("path", rel), (field_key, field.as_deref().unwrap_or(""))] {
+            if let Some(bad) = bad_placeholder(text) {
+                self.push(
+                    format!("{key}.{k}"),
+                    format!("`{bad}` in `{text}`: the only placeholders are `{{species}}`, `{{scenario}}` and `{{year}}`, and braces are for them alone"),
+                );
+            }
+        }
+        // `column` and `attribute` name the same thing in different files; a wrong one would
+        // otherwise be ignored silently.
+        if is_vector && raw.column.is_some() {
+            self.push(
+                format!("{key}.column"),
+                "`column` is for CSV point grids; name a vector file's property with `attribute = \"…\"`",
+            );
+        }
+        if (is_csv || is_raster) && raw.attribute.is_some() {
+            self.push(
+                format!("{key}.attribute"),
+                "`attribute` is for vector files; name a CSV column with `column = \"…\"` (a raster band with `band`)",
+            );
+        }
         if raw.years_window.is_some() && !is_netcdf {
             self.push(
                 format!("{key}.years_window"),
@@ -628,6 +686,7 @@ impl Checker {
             crs: raw.crs.clone(),
             valid_range,
             missing,
+            repair: self.repair,
         })
     }
 
@@ -661,15 +720,101 @@ impl Checker {
                 for y in &yr {
                     let p = t.resolve(s, c, *y).path;
                     if seen.insert(p.clone()) && !p.is_file() {
-                        self.push(
-                            format!("{key}.path"),
-                            format!("file not found: {}", p.display()),
-                        );
+                        self.push(format!("{key}.path"), not_a_file(&p));
                     }
                 }
             }
         }
     }
+}
+
+/// One species entry checked: its name (`name_key` names the key of the name), target, weight
+/// and habitat layer (under `key`), with every problem pushed to `ck`. `names` collects the
+/// names seen so far, so a name given twice is reported.
+#[allow(clippy::too_many_arguments)]
+fn species_entry(
+    ck: &mut Checker,
+    name_key: &str,
+    key: &str,
+    s: &RawSpecies,
+    names: &mut std::collections::BTreeSet<String>,
+    scenarios: &[String],
+    years: &[i32],
+) -> Option<SpeciesPlan> {
+    if key != "species_list" {
+        ck.unknown(key, &s.extra, &reference::keys_of("species[]"));
+    }
+    let name = s.name.clone().unwrap_or_default();
+    if !valid_species_name(&name) {
+        ck.push(
+                name_key.to_string(),
+                format!("`{name}`: a species needs a name (e.g. `amber-wrasse` or `Sebastes fasciatus`) without `/`, braces, quotes, backslashes or space at either end"),
+            );
+    } else if !names.insert(name.clone()) {
+        ck.push(
+            name_key.to_string(),
+            format!("species `{name}` is listed twice"),
+        );
+    }
+    let target = s
+        .target
+        .map(|v| ck.share(&format!("{key}.target"), v, true));
+    let weight = s.weight.unwrap_or(1.0);
+    if !(weight.is_finite() && weight >= 0.0) {
+        ck.push(
+            format!("{key}.weight"),
+            format!("must be a non-negative number, got {weight}"),
+        );
+    }
+    let Some(h) = &s.habitat else {
+        ck.push(
+            format!("{key}.habitat"),
+            "missing: `habitat = { path = \"...\", column = \"...\" }`",
+        );
+        return None;
+    };
+    // Habitat polygons say where the species lives: outside them is no habitat, not
+    // missing data. Point grids and rasters that miss cells are still errors.
+    let polygons = h.path.as_deref().is_some_and(|p| {
+        let p = p.to_ascii_lowercase();
+        [".geojson", ".json", ".gpkg", ".shp", ".fgb"]
+            .iter()
+            .any(|e| p.ends_with(e))
+    });
+    let default_missing = if polygons {
+        Missing::Zero
+    } else {
+        Missing::Error
+    };
+    if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, default_missing) {
+        // Habitat is a suitability share of each cell.
+        if t.valid_range.is_none() {
+            t.valid_range = Some((0.0, 1.0));
+        }
+        ck.template_files(&format!("{key}.habitat"), &t, &[&name], scenarios, years);
+        return Some(SpeciesPlan {
+            name,
+            habitat: t,
+            target,
+            weight,
+            may_be_absent: s.may_be_absent.unwrap_or(false),
+        });
+    }
+    None
+}
+
+/// A species name as planners write it, Latin binomials with spaces included
+/// (`Sebastes fasciatus`): any text without `/` (it separates the parts of feature names),
+/// braces (template placeholders), quotes, backslashes or control characters, and without
+/// space at either end. Column and file names derived from it are made safe where they are
+/// written (`export::columns`); tables keep the name as given.
+fn valid_species_name(s: &str) -> bool {
+    !s.is_empty()
+        && s.trim() == s
+        && s.chars().count() <= 100
+        && !s
+            .chars()
+            .any(|c| c.is_control() || matches!(c, '/' | '{' | '}' | '"' | '\\'))
 }
 
 fn valid_name(s: &str) -> bool {
@@ -724,29 +869,9 @@ impl Plan {
         let mut ck = Checker {
             dir: dir.to_path_buf(),
             issues: Vec::new(),
+            repair: raw.repair_polygons.unwrap_or(false),
         };
-        ck.unknown(
-            "",
-            &raw.extra,
-            &[
-                "name",
-                "region",
-                "land",
-                "grid",
-                "scenarios",
-                "species",
-                "temperature",
-                "cost",
-                "required",
-                "excluded",
-                "targets",
-                "budget",
-                "optimise",
-                "solver",
-                "climate",
-                "zones",
-            ],
-        );
+        ck.unknown("", &raw.extra, &reference::keys_of(""));
         let name = raw.name.clone().unwrap_or_else(|| {
             file.file_stem()
                 .map(|s| s.to_string_lossy().into_owned())
@@ -775,7 +900,7 @@ impl Plan {
                 }
             }
             Some(g) => {
-                ck.unknown("grid", &g.extra, &["cell_size_km", "crs", "min_sea_share"]);
+                ck.unknown("grid", &g.extra, &reference::keys_of("grid"));
                 let cell = match g.cell_size_km {
                     Some(v) if v.is_finite() && v > 0.0 => v,
                     Some(v) => {
@@ -816,7 +941,7 @@ impl Plan {
                 (vec![], vec![], vec![])
             }
             Some(s) => {
-                ck.unknown("scenarios", &s.extra, &["names", "years", "weights"]);
+                ck.unknown("scenarios", &s.extra, &reference::keys_of("scenarios"));
                 let names = s.names.clone().unwrap_or_default();
                 if names.is_empty() {
                     ck.push(
@@ -882,73 +1007,80 @@ impl Plan {
         let default_target = match &raw.targets {
             None => 0.3,
             Some(t) => {
-                ck.unknown("targets", &t.extra, &["default"]);
+                ck.unknown("targets", &t.extra, &reference::keys_of("targets"));
                 t.default
                     .map(|v| ck.share("targets.default", v, false))
                     .unwrap_or(0.3)
             }
         };
 
-        // Species.
-        if raw.species.is_empty() {
+        // Species: each `[[species]]` table, then each name of `[species_list]` with the list's
+        // shared keys. (name key, key of the other fields, the species as written.)
+        let mut entries: Vec<(String, String, RawSpecies)> = raw
+            .species
+            .iter()
+            .enumerate()
+            .map(|(i, s)| {
+                (
+                    format!("species[{i}].name"),
+                    format!("species[{i}]"),
+                    s.clone(),
+                )
+            })
+            .collect();
+        if let Some(l) = &raw.species_list {
+            ck.unknown(
+                "species_list",
+                &l.extra,
+                &reference::keys_of("species_list"),
+            );
+            let names = l.names.clone().unwrap_or_default();
+            if names.is_empty() {
+                ck.push(
+                    "species_list.names",
+                    "needs at least one species name, e.g. `names = [\"amber-wrasse\", \"Sebastes fasciatus\"]`",
+                );
+            }
+            for (j, n) in names.into_iter().enumerate() {
+                entries.push((
+                    format!("species_list.names[{j}]"),
+                    "species_list".into(),
+                    RawSpecies {
+                        name: Some(n),
+                        habitat: l.habitat.clone(),
+                        target: l.target,
+                        weight: l.weight,
+                        may_be_absent: l.may_be_absent,
+                        extra: Extra::new(),
+                    },
+                ));
+            }
+        }
+        if entries.is_empty() {
             ck.push(
                 "species",
-                "needs at least one `[[species]]` with `name` and `habitat`",
+                "needs at least one `[[species]]` with `name` and `habitat` (or a `[species_list]`)",
             );
         }
         let mut species = Vec::new();
         let mut names = std::collections::BTreeSet::new();
-        for (i, s) in raw.species.iter().enumerate() {
-            let key = format!("species[{i}]");
-            ck.unknown(
-                &key,
-                &s.extra,
-                &["name", "habitat", "target", "weight", "may_be_absent"],
-            );
-            let name = s.name.clone().unwrap_or_default();
-            if !valid_name(&name) {
-                ck.push(
-                    format!("{key}.name"),
-                    format!("`{name}`: a species needs a name of letters, digits, `-`, `_` or `.`"),
-                );
-            } else if !names.insert(name.clone()) {
-                ck.push(
-                    format!("{key}.name"),
-                    format!("species `{name}` is listed twice"),
-                );
-            }
-            let target = s
-                .target
-                .map(|v| ck.share(&format!("{key}.target"), v, true));
-            let weight = s.weight.unwrap_or(1.0);
-            if !(weight.is_finite() && weight >= 0.0) {
-                ck.push(
-                    format!("{key}.weight"),
-                    format!("must be a non-negative number, got {weight}"),
-                );
-            }
-            let Some(h) = &s.habitat else {
-                ck.push(
-                    format!("{key}.habitat"),
-                    "missing: `habitat = { path = \"...\", column = \"...\" }`",
-                );
-                continue;
-            };
-            if let Some(mut t) = ck.layer(&format!("{key}.habitat"), h, Missing::Error) {
-                // Habitat is a suitability share of each cell.
-                if t.valid_range.is_none() {
-                    t.valid_range = Some((0.0, 1.0));
-                }
-                ck.template_files(&format!("{key}.habitat"), &t, &[&name], &scenarios, &years);
-                species.push(SpeciesPlan {
-                    name,
-                    habitat: t,
-                    target,
-                    weight,
-                    may_be_absent: s.may_be_absent.unwrap_or(false),
-                });
+        // The list's shared keys are checked for every species (their files may differ by
+        // species), but a problem of the shared keys is reported once.
+        let before = ck.issues.len();
+        for (name_key, key, s) in &entries {
+            if let Some(sp) =
+                species_entry(&mut ck, name_key, key, s, &mut names, &scenarios, &years)
+            {
+                species.push(sp);
             }
         }
+        let mut seen = std::collections::BTreeSet::new();
+        let species_issues: Vec<PlanIssue> = ck
+            .issues
+            .drain(before..)
+            .filter(|i| seen.insert((i.key.clone(), i.message.clone())))
+            .collect();
+        ck.issues.extend(species_issues);
 
         let temperature = raw.temperature.as_ref().and_then(|t| {
             let lt = ck.layer("temperature", t, Missing::Error)?;
@@ -1024,7 +1156,7 @@ impl Plan {
         let budget = match &raw.budget {
             None => BudgetPlan::default(),
             Some(b) => {
-                ck.unknown("budget", &b.extra, &["max_cost", "max_share"]);
+                ck.unknown("budget", &b.extra, &reference::keys_of("budget"));
                 if let Some(c) = b.max_cost {
                     if !(c.is_finite() && c >= 0.0) {
                         ck.push(
@@ -1045,18 +1177,7 @@ impl Plan {
         let (objective, robustness) = match &raw.optimise {
             None => (Objective::MinCost, Robustness::EveryScenario),
             Some(o) => {
-                ck.unknown(
-                    "optimise",
-                    &o.extra,
-                    &[
-                        "objective",
-                        "robustness",
-                        "edge_penalty",
-                        "count_coast_edges",
-                        "max_gap_km",
-                        "min_reserve_km2",
-                    ],
-                );
+                ck.unknown("optimise", &o.extra, &reference::keys_of("optimise"));
                 if let Some(w) = o.edge_penalty {
                     if !(w.is_finite() && w >= 0.0) {
                         ck.push("optimise.edge_penalty", format!("must be a non-negative weight per km of exposed edge, e.g. `edge_penalty = 1`; got {w}"));
@@ -1118,7 +1239,7 @@ impl Plan {
         let solver = match &raw.solver {
             None => SolverPlan::default(),
             Some(s) => {
-                ck.unknown("solver", &s.extra, &["time_limit_s", "gap", "threads"]);
+                ck.unknown("solver", &s.extra, &reference::keys_of("solver"));
                 if let Some(t) = s.time_limit_s {
                     if !(t.is_finite() && t > 0.0) {
                         ck.push(
@@ -1172,6 +1293,7 @@ impl Plan {
             hash,
             region,
             land,
+            repair_polygons: ck.repair,
             grid,
             scenarios,
             scenario_weights,
@@ -1209,4 +1331,29 @@ fn line_col(text: &str, offset: usize) -> (usize, usize) {
         .unwrap_or(0)
         + 1;
     (line, col)
+}
+
+/// Why `path`, which is not a regular file, cannot be read: a folder given where a file was
+/// meant says so, rather than "not found".
+pub(crate) fn not_a_file(path: &Path) -> String {
+    if path.is_dir() {
+        format!("{} is a directory (expected a file)", path.display())
+    } else {
+        format!("file not found: {}", path.display())
+    }
+}
+
+#[cfg(test)]
+mod placeholder_tests {
+    use super::bad_placeholder;
+
+    #[test]
+    fn only_the_three_placeholders_pass() {
+        assert_eq!(bad_placeholder("ocean/{scenario}_{year}.csv"), None);
+        assert_eq!(bad_placeholder("{species}"), None);
+        assert_eq!(bad_placeholder("{spec[es}").as_deref(), Some("{spec[es}"));
+        assert_eq!(bad_placeholder("a_{Year}.csv").as_deref(), Some("{Year}"));
+        assert_eq!(bad_placeholder("a_{year.csv").as_deref(), Some("{year.csv"));
+        assert_eq!(bad_placeholder("a}b").as_deref(), Some("}b"));
+    }
 }

@@ -415,6 +415,7 @@ fn velocity_next_to_a_coast_is_trend_over_gradient_in_every_sea_cell() {
                 crs: None,
                 valid_range: None,
                 missing: Missing::Error,
+                repair: false,
             },
             &grid,
             &cache,

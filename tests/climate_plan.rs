@@ -531,6 +531,7 @@ fn template(
         crs: None,
         valid_range: None,
         missing,
+        repair: false,
     }
 }
 
@@ -659,8 +660,8 @@ fn demo_derived() -> (Grid, Derived) {
         "0".into(),
     )
     .unwrap();
-    let region = read_multipolygon(&plan.region).unwrap();
-    let land = read_multipolygon(plan.land.as_ref().unwrap()).unwrap();
+    let region = read_multipolygon(&plan.region, false).unwrap();
+    let land = read_multipolygon(plan.land.as_ref().unwrap(), false).unwrap();
     let grid = build_grid(&plan.grid, &region, Some(&land)).unwrap();
     let cache = SourceCache::default();
     let t = plan.temperature.as_ref().unwrap();

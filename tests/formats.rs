@@ -261,6 +261,7 @@ fn geotiffs_coarser_and_finer_than_the_cells() {
         crs: None,
         valid_range: None,
         missing: Missing::Error,
+        repair: false,
     };
     // Coarse: 0.2° pixels (≈ 14 × 22 km) packed as Int16 with scale 0.001 and offset −90, an
     // "island" of nodata pixels. Tolerance: half the scale (quantisation) — the coastal plane
@@ -433,6 +434,7 @@ fn netcdf_cf_sea_temperature_matches_the_equivalent_csv_lattice() {
         crs: None,
         valid_range: None,
         missing: Missing::Error,
+        repair: false,
     };
     let q = |v: f64| (v * 100.0).round() / 100.0; // the file's packing
     for (window, want_csv) in [
@@ -855,6 +857,7 @@ fn the_climate_demo_netcdf_matches_its_csv_lattice() {
         crs: None,
         valid_range: None,
         missing: Missing::Zero,
+        repair: false,
     };
     for year in [2030, 2090] {
         let cache = SourceCache::new();

@@ -23,6 +23,7 @@ fn spec(path: PathBuf, sampling: Sampling, field: Option<&str>, crs: Option<&str
         crs: crs.map(str::to_string),
         valid_range: None,
         missing: Missing::Zero,
+        repair: false,
     }
 }
 
@@ -451,7 +452,7 @@ fn independent_parse_of_the_region_fixture() {
         }
     }
     assert!((area - (3.25 + 0.375)).abs() < 1e-12, "hand total {area}");
-    let mp = read_multipolygon(&data("region.geojson")).unwrap();
+    let mp = read_multipolygon(&data("region.geojson"), false).unwrap();
     assert_eq!(mp.0.len(), polys);
     assert_eq!(
         mp.0.iter().map(|p| 1 + p.interiors().len()).sum::<usize>(),
@@ -683,7 +684,133 @@ fn a_short_csv_row_is_named_in_plain_words() {
     .unwrap_err()
     .to_string();
     assert!(
-        e.contains("line 3") && e.contains("the row has 2 values but the header has 3 columns"),
+        e.contains("short.csv: line 3: expected 3 fields, found 2"),
         "{e}"
+    );
+}
+
+#[test]
+fn csv_rows_at_one_point_are_kept_once_or_refused_naming_both_lines() {
+    // The same point twice with the same values is one point (kept once, so the lattice of
+    // four reads); with different values no rule can say which is meant, so both lines are
+    // named.
+    let dir = tempfile::tempdir().unwrap();
+    let lattice = "lon,lat,v\n4.5,49.5,1\n5.5,49.5,2\n4.5,50.5,3\n5.5,50.5,4\n";
+    let same = dir.path().join("same.csv");
+    std::fs::write(&same, format!("{lattice}4.5,49.5,1\n")).unwrap();
+    let diff = dir.path().join("diff.csv");
+    std::fs::write(&diff, format!("{lattice}4.5,49.5,7\n")).unwrap();
+    let read = |p: &Path, sampling| {
+        sample(
+            "v",
+            &spec(p.to_path_buf(), sampling, Some("v"), None),
+            &grid_laea(),
+            &SourceCache::new(),
+        )
+    };
+    // Bilinear at the lattice's centre, (5°E, 50°N) = the centre of cell 55: the mean of the
+    // four corners, (1 + 2 + 3 + 4) / 4 = 2.5 (hand value).
+    let layer = read(&same, Sampling::Interpolate).unwrap();
+    assert!(
+        (layer.values[55] - 2.5).abs() < 1e-9,
+        "{}",
+        layer.values[55]
+    );
+    let e = read(&diff, Sampling::Interpolate).unwrap_err().to_string();
+    assert!(
+        e.contains("diff.csv: line 6")
+            && e.contains("also on line 2")
+            && e.contains("`v` (1 there, 7 here)"),
+        "{e}"
+    );
+    // A column named twice (case does not matter) is refused naming it and both positions.
+    let twice = dir.path().join("twice.csv");
+    std::fs::write(&twice, "lon,lat,v,V\n5.0,50.0,1,2\n").unwrap();
+    let e = read(&twice, Sampling::Interpolate).unwrap_err().to_string();
+    assert!(
+        e.contains("twice.csv: line 1") && e.contains("`V` appears twice (columns 3 and 4)"),
+        "{e}"
+    );
+}
+
+#[test]
+fn csv_bytes_that_are_not_utf8_name_line_and_column() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("latin1.csv");
+    std::fs::write(
+        &path,
+        b"lon,lat,v\n4.0,49.5,1\n4.5,49.5,caf\xe9\n".as_slice(),
+    )
+    .unwrap();
+    let e = sample(
+        "v",
+        &spec(path, Sampling::Interpolate, Some("v"), None),
+        &grid_laea(),
+        &SourceCache::new(),
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("latin1.csv: line 3, column `v`: not valid UTF-8"),
+        "{e}"
+    );
+}
+
+#[test]
+fn geojson_with_a_byte_order_mark_reads_and_a_folder_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("bom.geojson");
+    let body = r#"{"type":"Polygon","coordinates":[[[4,49],[5,49],[5,50],[4,50],[4,49]]]}"#;
+    std::fs::write(&path, format!("\u{feff}{body}")).unwrap();
+    let mp = read_multipolygon(&path, false).unwrap();
+    assert_eq!(mp.0.len(), 1);
+    let folder = dir.path().join("folder.geojson");
+    std::fs::create_dir(&folder).unwrap();
+    let e = read_multipolygon(&folder, false).unwrap_err().to_string();
+    assert!(
+        e.contains("folder.geojson") && e.contains("is a directory"),
+        "{e}"
+    );
+}
+
+#[test]
+fn invalid_polygons_are_listed_with_feature_part_and_place_or_repaired_when_asked() {
+    // Feature 0 is valid; feature 1 a bow-tie whose diagonals cross at (4.5, 49.5); feature 2
+    // a square with a hole outside it. Repair (even-odd rule) turns the bow-tie into two
+    // triangles of a quarter of the square each (hand area: 2 × ¼ × 1 × 1 = 0.5 deg²) and the
+    // stray hole into an island of its own.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("bad.geojson");
+    std::fs::write(
+        &path,
+        r#"{"type":"FeatureCollection","features":[
+{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[0,0],[1,0],[1,1],[0,1],[0,0]]]}},
+{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[4,49],[5,50],[5,49],[4,50],[4,49]]]}},
+{"type":"Feature","properties":{},"geometry":{"type":"Polygon","coordinates":[[[10,10],[11,10],[11,11],[10,11],[10,10]],[[20,20],[21,20],[21,21],[20,21],[20,20]]]}}
+]}"#,
+    )
+    .unwrap();
+    let e = read_multipolygon(&path, false).unwrap_err().to_string();
+    assert!(e.contains("bad.geojson: 2 invalid polygons"), "{e}");
+    assert!(
+        e.contains(
+            "feature 1, part 0: the exterior ring crosses or touches itself, at lon 4.5, lat 49.5"
+        ),
+        "{e}"
+    );
+    assert!(
+        e.contains("feature 2, part 0: hole 0 is not inside the exterior ring, at lon 20, lat 20"),
+        "{e}"
+    );
+    assert!(e.contains("repair_polygons = true"), "{e}");
+    let repaired = read_multipolygon(&path, true).unwrap();
+    use geo::{Area, Validation};
+    assert!(repaired.is_valid(), "geo's validation accepts the repair");
+    // Areas in square degrees (planar): 1 (feature 0) + 0.5 (bow-tie) + 1 + 1 (square and the
+    // hole made an island).
+    assert!(
+        (repaired.unsigned_area() - 3.5).abs() < 1e-9,
+        "{}",
+        repaired.unsigned_area()
     );
 }

@@ -108,3 +108,54 @@ fn missing_plan_file_is_a_clear_error() {
     assert!(err.to_string().contains("does-not-exist.toml"));
     assert!(err.to_string().contains("cannot read"));
 }
+
+#[test]
+fn habitat_polygons_default_to_no_habitat_outside_them_and_lattices_to_errors() {
+    // Outside a habitat polygon is "no habitat" (missing = zero); a point grid that misses
+    // cells is still an error unless the plan says otherwise.
+    use driftplan::layers::Missing;
+    let text = demo_plan_text().replacen(
+        "habitat = { path = \"../demo-data/ocean/{scenario}_{year}.csv\", column = \"{species}\" }",
+        "habitat = { path = \"../demo-data/protected.geojson\" }",
+        1,
+    );
+    let plan = load_text(&text).unwrap();
+    assert_eq!(plan.species[0].habitat.missing, Missing::Zero);
+    assert_eq!(plan.species[1].habitat.missing, Missing::Error);
+}
+
+#[test]
+fn a_species_list_equals_the_same_species_one_table_each() {
+    // The demo's twelve [[species]] tables share one habitat source; the same plan written
+    // with one [species_list] gives the same species, in the same order.
+    let text = demo_plan_text();
+    let tables = load_text(&text).unwrap();
+    let names: Vec<String> = tables
+        .species
+        .iter()
+        .map(|s| format!("\"{}\"", s.name))
+        .collect();
+    let head = &text[..text.find("[[species]]").unwrap()];
+    let listed = format!(
+        "{head}[species_list]\nnames = [{}]\nhabitat = {{ path = \"../demo-data/ocean/{{scenario}}_{{year}}.csv\", column = \"{{species}}\" }}\n",
+        names.join(", ")
+    );
+    let list = load_text(&listed).unwrap();
+    assert_eq!(list.species, tables.species);
+    // A shared key's problem is reported once, not once per species; a name twice is named.
+    let broken = listed
+        .replace(
+            "column = \"{species}\"",
+            "column = \"{species}\", sampling = \"odd\"",
+        )
+        .replace(
+            "names = [\"amber-wrasse\"",
+            "names = [\"amber-wrasse\", \"amber-wrasse\"",
+        );
+    let e = load_text(&broken).unwrap_err().to_string();
+    assert_eq!(e.matches("unknown sampling `odd`").count(), 1, "{e}");
+    assert!(
+        e.contains("`species_list.names[1]`: species `amber-wrasse` is listed twice"),
+        "{e}"
+    );
+}

@@ -7,7 +7,9 @@ use driftplan::export::{network_geojson, write_outputs};
 use driftplan::features::{Feature, FeatureKind, FeatureTable, Target};
 use driftplan::grid::{Crs, Grid};
 use driftplan::model::CellStatus;
-use driftplan::report::{report_html, ReportInput, StressCell, StressTable, SweepPoint};
+use driftplan::report::{
+    report_html, ReportInput, ReportZones, StressCell, StressTable, SweepPoint,
+};
 use geo::polygon;
 use geojson::{GeoJson, GeometryValue};
 use std::path::Path;
@@ -105,6 +107,16 @@ fn setup() -> (Grid, Vec<bool>, Vec<CellStatus>, Assessment) {
 }
 
 fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> String {
+    render_zoned(g, sel, status, a, None)
+}
+
+fn render_zoned(
+    g: &Grid,
+    sel: &[bool],
+    status: &[CellStatus],
+    a: &Assessment,
+    zones: Option<ReportZones>,
+) -> String {
     let velocity: Vec<f64> = g
         .cells
         .iter()
@@ -185,6 +197,7 @@ fn render(g: &Grid, sel: &[bool], status: &[CellStatus], a: &Assessment) -> Stri
                 reserves: a.reserves.clone(),
             }],
         }),
+        zones,
     })
     .unwrap()
 }
@@ -301,6 +314,157 @@ fn svg_reserves_are_the_network_geojson_rings() {
     for bad in ["http://", "https://", "<script"] {
         assert!(!html.contains(bad), "report contains `{bad}`");
     }
+}
+
+/// Three zones, two of them used: the ring reserve and the lone cell no-take, the block
+/// and the coastal pair (its clipped triangle included) partial use.
+fn zone_setup() -> (
+    Grid,
+    Vec<bool>,
+    Vec<CellStatus>,
+    Assessment,
+    Vec<String>,
+    Vec<u8>,
+) {
+    let (g, sel, status, a) = setup();
+    let names: Vec<String> = ["no-take", "partial-use", "seasonal"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    let assignment: Vec<u8> = g
+        .cells
+        .iter()
+        .enumerate()
+        .map(|(i, c)| match (sel[i], c.col >= 5) {
+            (false, _) => 0,
+            (true, false) => 1,
+            (true, true) => 2,
+        })
+        .collect();
+    (g, sel, status, a, names, assignment)
+}
+
+/// Area of `M`/`L`/`H`/`V`/`Z` path data whose rings do not overlap (the cell runs and
+/// clipped cells of one zone), by the shoelace formula per ring. Units: SVG units².
+fn path_area(d: &str) -> f64 {
+    // Tokens: a command letter, or a number (numbers are separated by spaces or letters).
+    let mut tokens: Vec<String> = Vec::new();
+    for c in d.chars() {
+        if c.is_ascii_alphabetic() {
+            tokens.push(c.to_string());
+            tokens.push(String::new());
+        } else if c == ' ' {
+            tokens.push(String::new());
+        } else {
+            tokens.last_mut().unwrap().push(c);
+        }
+    }
+    tokens.retain(|t| !t.is_empty());
+    let (mut total, mut ring) = (0.0, Vec::<[f64; 2]>::new());
+    let mut i = 0;
+    let num = |i: usize| -> f64 { tokens[i].parse().unwrap() };
+    while i < tokens.len() {
+        match tokens[i].as_str() {
+            "M" | "L" => {
+                ring.push([num(i + 1), num(i + 2)]);
+                i += 3;
+            }
+            "H" => {
+                let y = ring.last().unwrap()[1];
+                ring.push([num(i + 1), y]);
+                i += 2;
+            }
+            "V" => {
+                let x = ring.last().unwrap()[0];
+                ring.push([x, num(i + 1)]);
+                i += 2;
+            }
+            "Z" => {
+                let n = ring.len();
+                let twice: f64 = (0..n)
+                    .map(|k| {
+                        let (p, q) = (ring[k], ring[(k + 1) % n]);
+                        p[0] * q[1] - q[0] * p[1]
+                    })
+                    .sum();
+                total += twice.abs() / 2.0;
+                ring.clear();
+                i += 1;
+            }
+            other => panic!("unexpected path token {other}"),
+        }
+    }
+    total
+}
+
+/// The value of attribute `name` in the element that starts at `html[at..]`.
+fn attr<'a>(html: &'a str, at: usize, name: &str) -> &'a str {
+    let end = html[at..].find('>').unwrap() + at;
+    let key = format!(" {name}=\"");
+    let k = html[at..end]
+        .find(&key)
+        .unwrap_or_else(|| panic!("no {name}"))
+        + at
+        + key.len();
+    &html[k..k + html[k..].find('"').unwrap()]
+}
+
+#[test]
+fn zoned_cells_are_filled_in_their_zone_colour_with_a_legend_entry_each() {
+    let (g, sel, status, a, names, assignment) = zone_setup();
+    let html = render_zoned(
+        &g,
+        &sel,
+        &status,
+        &a,
+        Some(ReportZones {
+            names: &names,
+            assignment: &assignment,
+        }),
+    );
+    // Okabe & Ito (2008) / Wong (2011, Nature Methods 8:441): bluish green #009E73 and orange
+    // #E69F00; the first zone takes the reserve colour, the second the next hue.
+    let colours = [("no-take", "#009E73"), ("partial-use", "#E69F00")];
+    // The scale bar gives SVG units per km (20 km = 160 units here, see above).
+    let per_km = 160.0 / 20.0;
+    for (code, (zone, colour)) in colours.iter().enumerate() {
+        let code = code as u8 + 1;
+        let at = html
+            .find(&format!(r#"class="zone" data-zone="{zone}""#))
+            .unwrap_or_else(|| panic!("no fill for zone {zone}"));
+        let at = html[..at].rfind('<').unwrap();
+        assert_eq!(attr(&html, at, "fill"), *colour, "{zone}");
+        // Hand: the filled area is the sea area of the zone's cells (10 km cells of 100 km²,
+        // the clipped coastal cell 50 km²).
+        let want: f64 = g
+            .cells
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| assignment[*i] == code)
+            .map(|(_, c)| c.sea_area_km2)
+            .sum();
+        let got = path_area(attr(&html, at, "d")) / (per_km * per_km);
+        assert!(
+            (got - want).abs() < 0.01 * want,
+            "{zone}: {got} km² drawn, {want} km² in the zone"
+        );
+        let n = assignment.iter().filter(|&&v| v == code).count();
+        assert_eq!(attr(&html, at, "data-cells"), n.to_string());
+        // Its legend entry: the same colour and the zone's name with its cell count.
+        let at = html
+            .find(&format!(r#"class="legend-zone" data-zone="{zone}""#))
+            .unwrap_or_else(|| panic!("no legend entry for zone {zone}"));
+        let at = html[..at].rfind('<').unwrap();
+        assert_eq!(attr(&html, at, "fill"), *colour);
+        assert!(html.contains(&format!("Zone {zone} ({n} cells)")), "{zone}");
+    }
+    // The unused zone has neither a fill nor a legend entry; reserves become outlines.
+    assert!(!html.contains(r#"data-zone="seasonal""#));
+    assert_eq!(html.matches(r#"class="legend-zone""#).count(), 2);
+    assert!(html.contains("Reserve outline (4)"));
+    // The unzoned page has no zone paths.
+    let plain = render(&g, &sel, &status, &a);
+    assert!(!plain.contains(r#"class="zone""#) && !plain.contains("legend-zone"));
 }
 
 /// Runs a command with a deadline; returns (status ok, stdout, stderr).
@@ -455,4 +619,39 @@ fn chromium_renders_the_report() {
         100.0 * non_white
     );
     assert!(colours > 50, "only {colours} distinct colours");
+
+    // A zoned network: the DOM Chromium builds holds a fill and a legend entry per zone used,
+    // in the zone's Okabe–Ito colour, and the reserves as outlines over them.
+    let (g, sel, status, a, names, assignment) = zone_setup();
+    let zoned = render_zoned(
+        &g,
+        &sel,
+        &status,
+        &a,
+        Some(ReportZones {
+            names: &names,
+            assignment: &assignment,
+        }),
+    );
+    let zdir = tmp.path().join("zoned");
+    write_outputs(&zdir, &[("report.html", zoned)]).unwrap();
+    let (ok, dom, err) = chromium(
+        &tmp.path().join("p3"),
+        &["--dump-dom".into()],
+        &zdir.join("report.html"),
+    );
+    assert!(ok, "chromium --dump-dom failed:\n{err}");
+    assert!(console_lines(&err).is_empty(), "console errors:\n{err}");
+    for (zone, colour) in [("no-take", "#009E73"), ("partial-use", "#E69F00")] {
+        for class in ["zone", "legend-zone"] {
+            let at = dom
+                .find(&format!(r#"class="{class}" data-zone="{zone}""#))
+                .unwrap_or_else(|| panic!("no {class} for {zone} in the DOM"));
+            let at = dom[..at].rfind('<').unwrap();
+            assert_eq!(attr(&dom, at, "fill"), colour, "{class} {zone}");
+        }
+    }
+    assert_eq!(dom.matches(r#"class="legend-zone""#).count(), 2);
+    assert!(!dom.contains(r#"data-zone="seasonal""#));
+    assert!(dom.contains("Zone partial-use ("));
 }

@@ -82,7 +82,10 @@ fn stress_diagonal_equals_single_scenario_optima() {
             .unwrap();
         let m = stress_test(
             &p,
-            &[("robust".into(), robust.selected.clone())],
+            &[(
+                "robust".into(),
+                driftplan::model::zones::first_zone(&robust.selected),
+            )],
             &opts(),
             &|| {},
         )

@@ -11,7 +11,7 @@ use crate::model::Zoning;
 const MET_REL_TOL: f64 = 1e-9;
 
 /// What one zone holds, over the network or within one reserve.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct ZoneShare {
     /// 1-based zone code as in the `zone` column of the cell outputs.
     pub code: u8,
@@ -107,10 +107,142 @@ pub fn zones_csv(shares: &[ZoneShare]) -> String {
     )
 }
 
+/// The zone rules a given assignment breaks, one sentence each: cells in a zone the plan does
+/// not allow them (the zone's `excluded` polygons, or another zone's `required` ones) and zone
+/// targets missed. A network `solve` made breaks none; one read from a file may.
+pub fn zone_rule_notes(problem: &crate::model::Problem, assignment: &[u8]) -> Vec<String> {
+    let Some(z) = &problem.zoning else {
+        return Vec::new();
+    };
+    let mut notes = Vec::new();
+    for (zi, name) in z.names.iter().enumerate() {
+        let bad: Vec<usize> = assignment
+            .iter()
+            .enumerate()
+            .filter(|(i, &v)| {
+                v as usize == zi + 1 && !z.allowed[zi].get(*i).copied().unwrap_or(false)
+            })
+            .map(|(i, _)| i)
+            .collect();
+        if let Some(first) = bad.first() {
+            notes.push(format!(
+                "{} cell{} (e.g. cell {first}) in zone `{name}`, which the plan does not allow there (the zone's excluded areas, or another zone's required ones)",
+                bad.len(),
+                if bad.len() == 1 { " is" } else { "s are" }
+            ));
+        }
+    }
+    for (zi, name) in z.names.iter().enumerate() {
+        let missed: Vec<&str> = z
+            .targets
+            .iter()
+            .filter(|t| t.zone == zi)
+            .filter(|t| {
+                let held: f64 = problem.features[t.feature]
+                    .amounts
+                    .iter()
+                    .filter(|(c, _)| assignment.get(*c as usize) == Some(&(zi as u8 + 1)))
+                    .map(|(_, a)| a)
+                    .sum();
+                !crate::model::evaluate::at_least(held, t.amount)
+            })
+            .map(|t| problem.features[t.feature].name.as_str())
+            .collect();
+        if let Some(first) = missed.first() {
+            notes.push(format!(
+                "the zone target of `{name}` is missed for {} feature{} (e.g. {first})",
+                missed.len(),
+                if missed.len() == 1 { "" } else { "s" }
+            ));
+        }
+    }
+    notes
+}
+
+/// The `zones` member of `assessment.json`: where the zones came from (`source`: `file` or
+/// `assumed`), the zone assumed for a file without zones (`assumed_zone`, else `null`), the
+/// note shown in the terminal, the zone rules the network breaks ([`zone_rule_notes`]), and
+/// each zone's share of the network (`reserve` `null`) and of
+/// each reserve, as in `zones.csv`.
+pub fn zones_json(
+    source: &crate::assess::network_input::ZoneSource,
+    note: Option<&str>,
+    broken: &[String],
+    shares: &[ZoneShare],
+) -> serde_json::Value {
+    use crate::assess::network_input::ZoneSource;
+    let (kind, assumed) = match source {
+        ZoneSource::Assumed { zone, .. } => ("assumed", Some(zone.as_str())),
+        ZoneSource::File => ("file", None),
+        ZoneSource::Unzoned | ZoneSource::Ignored => ("none", None),
+    };
+    serde_json::json!({
+        "source": kind,
+        "assumed_zone": assumed,
+        "note": note,
+        "rules_broken": broken,
+        "shares": shares.iter().map(|s| serde_json::json!({
+            "zone": s.zone,
+            "zone_code": s.code,
+            "reserve": s.reserve,
+            "cells": s.cells,
+            "area_km2": s.area_km2,
+            "cost": s.cost,
+        })).collect::<Vec<_>>(),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::compare::fixtures::{assessed, cost, grid, table};
+
+    #[test]
+    fn broken_zone_rules_are_named() {
+        use crate::model::{ModelFeature, Objective, Problem, Robustness, Scenario, ZoneTarget};
+        // Hand: feature f holds 4 in cell 0 and 6 in cell 1; partial use may not take cell 1;
+        // no-take must hold at least 5 of f. Cell 0 no-take (holds 4 < 5) and cell 1 partial
+        // use break both rules; cell 1 no-take (6 ≥ 5) and cell 0 partial use break none.
+        let p = Problem {
+            zoning: Some(Zoning {
+                names: vec!["no-take".into(), "partial-use".into()],
+                cost_share: vec![1.0, 0.4],
+                credit: vec![vec![1.0], vec![0.5]],
+                allowed: vec![vec![true, true], vec![true, false]],
+                targets: vec![ZoneTarget {
+                    zone: 0,
+                    feature: 0,
+                    amount: 5.0,
+                }],
+            }),
+            ..Problem::plain(
+                vec![1.0; 2],
+                vec![1.0; 2],
+                vec![Scenario {
+                    name: "s".into(),
+                    weight: 1.0,
+                }],
+                vec![ModelFeature {
+                    name: "f".into(),
+                    scenario: None,
+                    amounts: vec![(0, 4.0), (1, 6.0)],
+                    target: 1.0,
+                    weight: 1.0,
+                }],
+                Objective::MinCost,
+                Robustness::EveryScenario,
+            )
+        };
+        let notes = zone_rule_notes(&p, &[1, 2]);
+        assert_eq!(notes.len(), 2, "{notes:?}");
+        assert!(
+            notes[0].contains("1 cell is")
+                && notes[0].contains("cell 1")
+                && notes[0].contains("`partial-use`")
+        );
+        assert!(notes[1].contains("`no-take`") && notes[1].contains("1 feature (e.g. f)"));
+        assert!(zone_rule_notes(&p, &[2, 1]).is_empty());
+    }
 
     #[test]
     fn zone_credits_and_cost_shares_by_hand() {

@@ -1,9 +1,9 @@
 //! `driftplan assess`: score a given network under the plan.
 
-use super::{file_stem, load, read_network, solve_options, stress, Progress, SolverArgs};
+use super::{file_stem, load, solve_options, stress_assigned, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::{export, pipeline};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 /// Arguments of `driftplan assess`.
 #[derive(clap::Args, Debug)]
@@ -22,66 +22,109 @@ pub(crate) struct Args {
     /// Skip the scenario stress test (one extra solve per scenario).
     #[arg(long)]
     no_stress: bool,
+    /// Under a plan with `[[zones]]`: the zone of every chosen cell when the network file
+    /// names none (default: the plan's first zone). A file's own `zone` property (GeoJSON) or
+    /// column (CSV) always wins.
+    #[arg(long, value_name = "ZONE")]
+    zone: Option<String>,
     #[command(flatten)]
     solver: SolverArgs,
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
-    assess(
-        &a.plan,
-        &a.network,
-        &a.out,
-        a.min_share,
-        a.no_stress,
-        &a.solver,
-        progress,
-    )
+    assess(&a, progress)
 }
 
-fn assess(
-    plan_path: &Path,
-    network: &Path,
-    out: &Path,
-    min_share: f64,
-    no_stress: bool,
-    solver: &SolverArgs,
-    progress: &Progress,
-) -> Result<()> {
+fn assess(args: &Args, progress: &Progress) -> Result<()> {
+    let (network, out) = (&args.network, &args.out);
     let mut run = export::RunFolder::begin(out, "assess")?;
-    let plan = load(plan_path)?;
+    let plan = load(&args.plan)?;
     run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
-    let selected = read_network(network, &inputs, min_share)?;
-    let a = pipeline::assess_network(&inputs, &selected);
-    let name = file_stem(network);
+    let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
+    // The reader's errors already name the file.
+    let read = driftplan::assess::network_input::read_plan_network(
+        network,
+        &inputs.grid,
+        args.min_share,
+        &zone_names,
+        args.zone.as_deref(),
+    )?;
+    let zone_note = read.zone_source.note(network);
+    if let Some(n) = &zone_note {
+        progress.say(&format!("zones: {n}"));
+    }
+    let selected = &read.selected;
+    let warnings = driftplan::assess::network_input::network_warnings(
+        selected,
+        &inputs.status,
+        read.largest_share,
+        args.min_share,
+    );
     let problem = pipeline::problem(&plan, &inputs);
-    let options = solve_options(&plan, solver)?;
-    let matrix = stress(
+    let (a, shares) = pipeline::assess_zoned(&inputs, &problem, selected, read.zones.as_deref());
+    let name = file_stem(network);
+    let options = solve_options(&plan, &args.solver)?;
+    let assignment = read
+        .zones
+        .clone()
+        .unwrap_or_else(|| driftplan::model::zones::first_zone(selected));
+    let matrix = stress_assigned(
         &problem,
-        &[(name.clone(), selected.clone())],
+        &[(name.clone(), assignment.clone())],
         &options,
-        no_stress,
+        args.no_stress,
         progress,
     )?;
-    let cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    let mut cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    cmp.warnings = warnings.iter().map(|w| (name.clone(), w.clone())).collect();
+    // Zone rules a network from a file may break (a solve's never does).
+    let broken = driftplan::assess::zones::zone_rule_notes(&problem, &assignment);
+    let zones_json = shares.as_ref().map(|s| {
+        driftplan::assess::zones::zones_json(&read.zone_source, zone_note.as_deref(), &broken, s)
+    });
+    let (network_geojson, reserves_csv) = match (&read.zones, &shares) {
+        (Some(asg), Some(s)) => (
+            export::network_geojson_zoned(&inputs.grid, &a, asg, s)?,
+            export::reserves_csv_zoned(&a, &zone_names, s),
+        ),
+        _ => (
+            export::geojson::network_geojson(&inputs.grid, &a)?,
+            export::reserves_csv(&a),
+        ),
+    };
+    let mut facts = vec![("network".into(), network.display().to_string())];
+    if let Some(n) = &zone_note {
+        facts.push(("zones".into(), n.clone()));
+    }
+    for w in &warnings {
+        facts.push(("warning".into(), w.clone()));
+    }
+    for b in &broken {
+        facts.push(("zone rule broken".into(), b.clone()));
+    }
+    for z in shares.iter().flatten().filter(|z| z.reserve.is_none()) {
+        facts.push((format!("zone {}", z.zone), zone_line(z)));
+    }
     let mut files = vec![
         ("coverage.csv", export::coverage_csv(&a)),
-        ("reserves.csv", export::reserves_csv(&a)),
-        ("assessment.json", driftplan::compare::compare_json(&cmp)),
+        ("reserves.csv", reserves_csv),
         (
-            "network.geojson",
-            export::geojson::network_geojson(&inputs.grid, &a)?,
+            "assessment.json",
+            driftplan::compare::compare_json_with_zones(&cmp, zones_json.as_ref()),
         ),
+        ("network.geojson", network_geojson),
         (
             "report.html",
-            pipeline::report_html(
+            pipeline::report_html_zoned(
                 &plan,
                 &inputs,
-                &selected,
+                selected,
+                read.zones.as_deref(),
                 &a,
                 pipeline::ReportExtras {
                     stress: matrix.as_ref(),
-                    facts: vec![("network".into(), network.display().to_string())],
+                    facts,
                     ..Default::default()
                 },
             )?,
@@ -89,6 +132,9 @@ fn assess(
     ];
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
+    }
+    if let Some(s) = &shares {
+        files.push(("zones.csv", driftplan::assess::zones::zones_csv(s)));
     }
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
@@ -101,6 +147,15 @@ fn assess(
         a.reserves.len(),
         driftplan::assess::targets_reached_text(&a)
     );
+    for z in shares.iter().flatten().filter(|z| z.reserve.is_none()) {
+        println!("  zone {}: {}", z.zone, zone_line(z));
+    }
+    if let Some(n) = &zone_note {
+        println!("  zones: {n}");
+    }
+    for w in warnings.iter().chain(&broken) {
+        println!("  warning: {w}");
+    }
     for note in driftplan::features::absent::first_notes(
         driftplan::features::absent::absent_notes(&inputs.features),
         10,
@@ -117,4 +172,15 @@ fn assess(
     println!("  outputs {}", out.display());
     println!("{}", export::CAUTION);
     Ok(())
+}
+
+/// One zone's share of the network in words.
+pub(crate) fn zone_line(z: &driftplan::assess::zones::ZoneShare) -> String {
+    format!(
+        "{} cell{}, {:.0} km², cost {:.1}",
+        z.cells,
+        if z.cells == 1 { "" } else { "s" },
+        z.area_km2,
+        z.cost
+    )
 }

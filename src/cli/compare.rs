@@ -1,6 +1,6 @@
 //! `driftplan compare`: several networks side by side.
 
-use super::{file_stem, load, read_network, solve_options, stress, Progress, SolverArgs};
+use super::{file_stem, load, solve_options, stress_assigned, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::{export, pipeline};
 use std::path::{Path, PathBuf};
@@ -73,24 +73,63 @@ fn compare(
     let plan = load(plan_path)?;
     run.set_plan(&plan.file, &plan.hash);
     let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    // Under a zoned plan each file's zones are read (a file without zones: the first zone).
+    let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
+    let problem = pipeline::problem(&plan, &inputs);
     let mut given = Vec::new();
+    let mut assignments = Vec::new();
+    let mut zone_notes = Vec::new();
+    let mut warnings = Vec::new();
     for (i, path) in networks.iter().enumerate() {
         let name = names.get(i).cloned().unwrap_or_else(|| file_stem(path));
-        given.push((name, read_network(path, &inputs, min_share)?));
+        // The reader's errors already name the file.
+        let read = driftplan::assess::network_input::read_plan_network(
+            path,
+            &inputs.grid,
+            min_share,
+            &zone_names,
+            None,
+        )?;
+        if let Some(n) = read.zone_source.note(path) {
+            progress.say(&format!("zones: {n}"));
+            zone_notes.push((format!("zones of `{name}`"), n));
+        }
+        assignments.push(
+            read.zones
+                .clone()
+                .unwrap_or_else(|| driftplan::model::zones::first_zone(&read.selected)),
+        );
+        warnings.extend(
+            driftplan::assess::network_input::network_warnings(
+                &read.selected,
+                &inputs.status,
+                read.largest_share,
+                min_share,
+            )
+            .into_iter()
+            .map(|w| (name.clone(), w)),
+        );
+        given.push((name, read.selected));
     }
     let assessments: Vec<driftplan::assess::Assessment> = given
         .iter()
-        .map(|(_, sel)| pipeline::assess_network(&inputs, sel))
+        .zip(&assignments)
+        .map(|((_, sel), asg)| pipeline::assess_zoned(&inputs, &problem, sel, Some(asg)).0)
         .collect();
     let named: Vec<(String, &driftplan::assess::Assessment)> = given
         .iter()
         .zip(&assessments)
         .map(|((n, _), a)| (n.clone(), a))
         .collect();
-    let cmp = driftplan::compare::compare(&named)?;
-    let problem = pipeline::problem(&plan, &inputs);
+    let mut cmp = driftplan::compare::compare(&named)?;
+    cmp.warnings = warnings;
     let options = solve_options(&plan, solver)?;
-    let matrix = stress(&problem, &given, &options, no_stress, progress)?;
+    let assigned: Vec<(String, Vec<u8>)> = given
+        .iter()
+        .zip(assignments)
+        .map(|((n, _), a)| (n.clone(), a))
+        .collect();
+    let matrix = stress_assigned(&problem, &assigned, &options, no_stress, progress)?;
     let panels = driftplan::report::NetworkPanels {
         title: "Networks side by side".into(),
         note: "One map per network, in the order given; reserves in green, excluded cells tinted, required cells outlined in blue.".into(),
@@ -116,6 +155,10 @@ fn compare(
     for ((name, _), path) in given.iter().zip(networks) {
         facts.push((format!("network `{name}`"), path.display().to_string()));
     }
+    facts.extend(zone_notes);
+    for (name, w) in &cmp.warnings {
+        facts.push(("warning".to_string(), format!("{name}: {w}")));
+    }
     let report = driftplan::report::compare_report_html(&driftplan::report::CompareReport {
         title: &plan.name,
         facts,
@@ -135,6 +178,9 @@ fn compare(
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     print!("{}", driftplan::compare::compare_table(&cmp));
+    for (name, w) in &cmp.warnings {
+        println!("warning: {name}: {w}");
+    }
     if let Some(m) = &matrix {
         println!(
             "stress test (targets reached and benefit; rows: designed for, columns: evaluated in)"

@@ -52,7 +52,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         &clock.options(&options, 0.2, 1),
     )?;
     let base = pipeline::optimise(&base_problem, &clock.options(&options, 0.2, 1))?;
-    let assessment = pipeline::assess_network(&inputs, &base.selected);
+    let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &base_problem, &base);
     let all_units = units(&assessment, &base, a.cells);
     let mine: Vec<usize> = match spec {
         // A shard beyond the units has nothing to re-solve and writes an empty part: the
@@ -125,6 +125,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         &inputs,
         &base,
         &assessment,
+        zone_shares.as_deref(),
         &all_units,
         &rows,
         minimise,
@@ -184,6 +185,7 @@ pub(crate) fn write(
     inputs: &pipeline::Inputs,
     base: &driftplan::solve::Solution,
     assessment: &driftplan::assess::Assessment,
+    zone_shares: Option<&[driftplan::assess::zones::ZoneShare]>,
     units: &[(String, Vec<u32>)],
     rows: &[driftplan::study::Replacement],
     minimise: bool,
@@ -215,7 +217,12 @@ pub(crate) fn write(
         ),
         (
             "network.geojson",
-            export::geojson::network_geojson(&inputs.grid, assessment)?,
+            match (&base.zones, zone_shares) {
+                (Some(asg), Some(shares)) => {
+                    export::network_geojson_zoned(&inputs.grid, assessment, asg, shares)?
+                }
+                _ => export::geojson::network_geojson(&inputs.grid, assessment)?,
+            },
         ),
         (
             "report.html",

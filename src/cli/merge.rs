@@ -79,7 +79,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
                 .ok_or_else(|| anyhow::anyhow!("{}: the shards hold no optimum", a.dir.display()))?
                 .solution(merged.cells)
                 .map_err(|e| anyhow::anyhow!("{}: the optimum: {e}", a.dir.display()))?;
-            let assessment = pipeline::assess_network(&inputs, &base.selected);
+            let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &problem, &base);
             let units = super::irreplaceability::units(&assessment, &base, cells);
             let rows = shard::replacement_outcomes(&merged.outcomes, merged.cells)
                 .map_err(|e| anyhow::anyhow!("{}: {e}", a.dir.display()))?;
@@ -102,6 +102,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
                 &inputs,
                 &base,
                 &assessment,
+                zone_shares.as_deref(),
                 &units,
                 &rows,
                 minimise,

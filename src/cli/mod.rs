@@ -3,7 +3,7 @@
 
 use anyhow::Result;
 use clap::{Parser, Subcommand};
-use driftplan::pipeline::{self, Inputs};
+use driftplan::pipeline;
 use driftplan::plan::{Plan, SolverPlan};
 use driftplan::solve::progress::ProgressSink;
 use driftplan::solve::time;
@@ -68,19 +68,24 @@ enum Command {
     Bench(bench::Args),
     /// The whole run: grid → features → optimise → assess → export.
     ///
-    /// Writes network.geojson, cells.geojson, cells.csv, coverage.csv, summary.json,
-    /// stress.csv (each scenario solved alone and the network scored in every scenario) and
-    /// report.html. When the targets cannot all be reached it writes only diagnosis.csv (per
-    /// feature the best the budget allows), says what the cheapest network meeting every target
-    /// costs, and exits with code 3.
+    /// Writes network.geojson (one polygon per reserve), cells.csv and cells.geojson (every
+    /// cell; cells.geojson above 20 000 cells only with --cells-geojson), coverage.csv,
+    /// reserves.csv, features.csv, edge-shifts.csv, summary.json, driftplan.gpkg, stress.csv
+    /// (each scenario solved alone and the network scored in every scenario), zones.csv (plans
+    /// with zones), report.html, and run.json last (every file's size and SHA-256). When the
+    /// targets cannot all be reached it writes only diagnosis.csv (per feature the best the
+    /// budget allows), says what the cheapest network meeting every target costs, and exits
+    /// with code 3.
     Solve(solve::Args),
     /// Score a given network (GeoJSON polygons or a CSV of cell ids) under the plan.
     ///
-    /// Writes coverage.csv, reserves.csv, assessment.json (every measure), network.geojson
-    /// (the chosen cells dissolved into reserves), stress.csv and report.html.
+    /// Writes coverage.csv, reserves.csv, assessment.json (every measure, and warnings when the
+    /// network lies outside the region, covers excluded cells or leaves out required ones),
+    /// network.geojson (the chosen cells dissolved into reserves), stress.csv, zones.csv (plans
+    /// with zones), report.html and run.json last.
     Assess(assess::Args),
     /// Assess two or more networks side by side: a table, compare.csv, compare.json,
-    /// report.html, stress.csv.
+    /// report.html, stress.csv and run.json last.
     ///
     /// Target coverage comes first: a measure's best is awarded only among the networks that
     /// meet the most targets. One network is an error: use `assess` to score it.
@@ -89,7 +94,8 @@ enum Command {
     /// target is first reached, and how often each cell is chosen.
     ///
     /// Writes sweep.csv, first-reached.csv, selection-frequency.csv, selection-frequency.geojson,
-    /// networks/budget-<share>pct.geojson (one per budget) and report.html. Budgets are shares
+    /// networks/budget-<share>pct.geojson (one per budget), report.html and run.json
+    /// last. Budgets are shares
     /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
     /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
     /// for that benefit.
@@ -327,11 +333,28 @@ impl std::error::Error for CannotBeReached {}
 /// Exit code for "the plan's targets cannot all be reached".
 pub(crate) const EXIT_CANNOT_BE_MET: i32 = 3;
 
-/// The stress test with a progress bar (skipped with one scenario or when asked). The time
-/// limit in `options` is the whole test's.
+/// The stress test of networks given as chosen flags (each chosen cell in the first zone of a
+/// zoned plan): see [`stress_assigned`].
 pub(crate) fn stress(
     problem: &driftplan::model::Problem,
     given: &[(String, Vec<bool>)],
+    options: &driftplan::solve::SolveOptions,
+    skip: bool,
+    progress: &Progress,
+) -> Result<Option<driftplan::study::StressMatrix>> {
+    let given: Vec<(String, Vec<u8>)> = given
+        .iter()
+        .map(|(n, s)| (n.clone(), driftplan::model::zones::first_zone(s)))
+        .collect();
+    stress_assigned(problem, &given, options, skip, progress)
+}
+
+/// The stress test with a progress bar (skipped with one scenario or when asked). Each given
+/// network is a zone assignment (`model::zones`: 0 outside, 1 + zone index; 1 = chosen
+/// without zones). The time limit in `options` is the whole test's.
+pub(crate) fn stress_assigned(
+    problem: &driftplan::model::Problem,
+    given: &[(String, Vec<u8>)],
     options: &driftplan::solve::SolveOptions,
     skip: bool,
     progress: &Progress,
@@ -360,16 +383,6 @@ pub(crate) fn stress(
     let m = driftplan::study::stress_test(problem, given, &options, &|| bar.inc(1))?;
     bar.finish_and_clear();
     Ok(Some(m))
-}
-
-/// Reads a network file into one flag per cell.
-pub(crate) fn read_network(path: &Path, inputs: &Inputs, min_share: f64) -> Result<Vec<bool>> {
-    // The reader's errors already name the file.
-    Ok(driftplan::assess::network_input::read_network(
-        path,
-        &inputs.grid,
-        min_share,
-    )?)
 }
 
 /// The file name without its extension, as a default network name.

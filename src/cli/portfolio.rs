@@ -69,11 +69,11 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         &|_| bar.inc(1),
     )?;
     bar.finish_and_clear();
-    let assessed: Vec<driftplan::assess::Assessment> = pf
+    let (assessed, zone_shares): (Vec<driftplan::assess::Assessment>, Vec<_>) = pf
         .members
         .iter()
-        .map(|m| pipeline::assess_network(&inputs, &m.solution.selected))
-        .collect();
+        .map(|m| pipeline::assess_solution(&inputs, &problem, &m.solution))
+        .unzip();
     let names: Vec<String> = (1..=pf.members.len())
         .map(|k| format!("member-{k}"))
         .collect();
@@ -162,10 +162,18 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         )?,
     ));
     let mut networks = Vec::new();
-    for (k, a) in assessed.iter().enumerate() {
+    for (k, ((a, shares), m)) in assessed
+        .iter()
+        .zip(&zone_shares)
+        .zip(&pf.members)
+        .enumerate()
+    {
         networks.push((
             format!("member-{}.geojson", k + 1),
-            export::geojson::network_geojson(&inputs.grid, a)?,
+            match (&m.solution.zones, shares) {
+                (Some(asg), Some(s)) => export::network_geojson_zoned(&inputs.grid, a, asg, s)?,
+                _ => export::geojson::network_geojson(&inputs.grid, a)?,
+            },
         ));
     }
     let net_refs: Vec<(&str, String)> = networks

@@ -78,7 +78,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     let ranking = driftplan::study::rank(&problem, &shares, of, &step_options, &|_| bar.inc(1))?;
     bar.finish_and_clear();
     let last = &ranking.steps[ranking.steps.len() - 1].run;
-    let shown = pipeline::assess_network(&inputs, &last.solution.selected);
+    let shown = pipeline::assess_solution(&inputs, &problem, &last.solution).0;
     // The rank as a map value: 0 for required cells, the step for ranked ones, NaN for none.
     let rank_values: Vec<f64> = ranking
         .rank

@@ -1,6 +1,6 @@
 //! `driftplan solve`: the whole run, grid → features → optimise → assess → export.
 
-use super::{load_with, solve_options, stress, CannotBeReached, Progress, SolverArgs};
+use super::{load_with, solve_options, stress_assigned, CannotBeReached, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::export;
 use driftplan::model::Problem;
@@ -79,12 +79,6 @@ pub(crate) fn solve(
     let clock = TimeBudget::start(plan.solver.time_limit_s);
     let mut problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, solver)?;
-    // The stress test scores networks without their zones, so a zoned plan skips it.
-    let zoned = problem.zoning.is_some();
-    if zoned && !no_stress && problem.scenarios.len() > 1 {
-        progress.say("zones: the stress test does not score zoned networks yet; skipped");
-    }
-    let no_stress = no_stress || zoned;
     let stress_solves = if no_stress || problem.scenarios.len() < 2 {
         0
     } else {
@@ -141,18 +135,22 @@ pub(crate) fn solve(
     } else {
         "plan".to_string()
     };
-    let matrix = stress(
+    // A zoned network is stressed with its zones (each zone's credit and cost share).
+    let assignment = solution.assignment();
+    let matrix = stress_assigned(
         &problem,
-        &[(label, solution.selected.clone())],
+        &[(label, assignment)],
         &clock.options(&options, 1.0, 1),
         no_stress,
         progress,
     )?;
+    let zoned = solution.zones.as_deref().zip(zone_shares.as_deref());
     write_solution(
         &plan,
         &inputs,
         &solution,
         &assessment,
+        zoned,
         run.dir(),
         outputs,
         progress,
@@ -167,6 +165,12 @@ pub(crate) fn solve(
             pipeline::ReportExtras {
                 solution: Some(&solution),
                 stress: matrix.as_ref(),
+                facts: zone_shares
+                    .iter()
+                    .flatten()
+                    .filter(|z| z.reserve.is_none())
+                    .map(|z| (format!("zone {}", z.zone), super::assess::zone_line(z)))
+                    .collect(),
                 ..Default::default()
             },
         )?,
@@ -248,11 +252,15 @@ fn cannot_be_reached(
     .into())
 }
 
+/// `zones`: a zoned network's assignment and zone shares (network.geojson then has one feature
+/// per reserve and zone, reserves.csv each reserve's cells and area per zone).
+#[allow(clippy::too_many_arguments)]
 fn write_solution(
     plan: &Plan,
     inputs: &Inputs,
     solution: &Solution,
     assessment: &driftplan::assess::Assessment,
+    zones: Option<(&[u8], &[driftplan::assess::zones::ZoneShare])>,
     out: &Path,
     outputs: Outputs,
     progress: &Progress,
@@ -267,11 +275,28 @@ fn write_solution(
     summary.sampling = inputs.sampling.clone();
     summary.velocity_floored_cells = inputs.velocity_floored.iter().cloned().collect();
     summary.grid_crs = Some(inputs.grid.crs.describe());
+    summary.zones = zones
+        .map(|(_, shares)| {
+            shares
+                .iter()
+                .filter(|z| z.reserve.is_none())
+                .cloned()
+                .collect()
+        })
+        .unwrap_or_default();
     let reserves = driftplan::assess::reserve_of_cells(assessment, inputs.grid.len());
-    let mut files = vec![(
-        "network.geojson",
-        export::geojson::network_geojson(&inputs.grid, assessment)?,
-    )];
+    let zone_names: Vec<String> = plan.zones.iter().map(|z| z.name.clone()).collect();
+    let (network, reserves_csv) = match zones {
+        Some((asg, shares)) => (
+            export::network_geojson_zoned(&inputs.grid, assessment, asg, shares)?,
+            export::reserves_csv_zoned(assessment, &zone_names, shares),
+        ),
+        None => (
+            export::geojson::network_geojson(&inputs.grid, assessment)?,
+            export::reserves_csv(assessment),
+        ),
+    };
+    let mut files = vec![("network.geojson", network)];
     if outputs.cells_geojson || inputs.grid.len() <= export::CELLS_GEOJSON_MAX_CELLS {
         files.push((
             "cells.geojson",
@@ -302,7 +327,7 @@ fn write_solution(
             )?,
         ),
         ("coverage.csv", export::coverage_csv(assessment)),
-        ("reserves.csv", export::reserves_csv(assessment)),
+        ("reserves.csv", reserves_csv),
         ("summary.json", export::summary_json(&summary)),
         ("features.csv", export::features_csv(&inputs.features)?),
         (
@@ -369,14 +394,7 @@ fn print_summary(
         .flat_map(|z| z.iter())
         .filter(|z| z.reserve.is_none())
     {
-        println!(
-            "  zone        {}: {} cell{}, {:.0} km², cost {:.1}",
-            z.zone,
-            z.cells,
-            if z.cells == 1 { "" } else { "s" },
-            z.area_km2,
-            z.cost
-        );
+        println!("  zone        {}: {}", z.zone, super::assess::zone_line(z));
     }
     println!(
         "  targets reached {}",

@@ -29,12 +29,21 @@ struct FeatureOut<'a> {
 }
 
 #[derive(Serialize)]
+struct WarningOut<'a> {
+    network: &'a str,
+    warning: &'a str,
+}
+
+#[derive(Serialize)]
 struct ComparisonOut<'a> {
     networks: &'a [String],
     ranking_rule: &'a str,
     ranked: Vec<&'a str>,
+    warnings: Vec<WarningOut<'a>>,
     measures: Vec<MeasureOut<'a>>,
     features: Vec<FeatureOut<'a>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    zones: Option<&'a serde_json::Value>,
     caution: &'a str,
     driftplan_version: &'a str,
 }
@@ -44,6 +53,8 @@ struct ComparisonOut<'a> {
 /// * `ranking_rule`: how `best` is awarded ([`super::RANKING_RULE`]); `ranked`: the networks
 ///   that meet the most targets, the only ones that can be best on a measure other than
 ///   `targets_reached`;
+/// * `warnings`: `[{network, warning}]`, what to know about a given network before trusting
+///   its scores (outside the region, excluded cells covered, required cells left out);
 /// * `measures`: `[{measure, better, values, best}]` where `measure` carries its unit
 ///   (`area_km2`, `exposed_edge_km`), `better` is `higher`/`lower`/`none` and `best` lists
 ///   the best networks by name;
@@ -54,12 +65,24 @@ struct ComparisonOut<'a> {
 ///
 /// Non-finite numbers are written as `null`.
 pub fn compare_json(c: &Comparison) -> String {
+    compare_json_with_zones(c, None)
+}
+
+/// [`compare_json`] with a `zones` member after `features` when `zones` is given (how a zoned
+/// network's zones were read and each zone's share; `assess` writes it into
+/// `assessment.json`).
+pub fn compare_json_with_zones(c: &Comparison, zones: Option<&serde_json::Value>) -> String {
     let names =
         |idx: &[usize]| -> Vec<&str> { idx.iter().map(|&i| c.networks[i].as_str()).collect() };
     let out = ComparisonOut {
         networks: &c.networks,
         ranking_rule: super::RANKING_RULE,
         ranked: names(&c.ranked),
+        warnings: c
+            .warnings
+            .iter()
+            .map(|(network, warning)| WarningOut { network, warning })
+            .collect(),
         measures: c
             .measures
             .iter()
@@ -88,6 +111,7 @@ pub fn compare_json(c: &Comparison) -> String {
                 best: names(&f.best),
             })
             .collect(),
+        zones,
         caution: CAUTION,
         driftplan_version: env!("CARGO_PKG_VERSION"),
     };
@@ -114,6 +138,7 @@ mod tests {
             "networks",
             "ranking_rule",
             "ranked",
+            "warnings",
             "measures",
             "features",
             "caution",

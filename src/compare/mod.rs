@@ -11,7 +11,7 @@ mod measures;
 mod rank;
 mod table;
 
-pub use json::compare_json;
+pub use json::{compare_json, compare_json_with_zones};
 pub use long_csv::{compare_csv, COMPARE_COLUMNS};
 pub use measures::{network_measures, protected_share, Better, MeasureValue};
 pub use rank::{differences, Difference, DifferenceOf};
@@ -104,6 +104,10 @@ pub struct Comparison {
     pub measures: Vec<Measure>,
     /// Per-feature coverage, in feature-table order.
     pub features: Vec<FeatureRow>,
+    /// `(network, warning)`: what a reader should know about a given network before trusting
+    /// its scores (it lies outside the region, covers excluded cells, misses required ones);
+    /// empty from [`compare`], filled by whoever read the networks.
+    pub warnings: Vec<(String, String)>,
 }
 
 impl Comparison {
@@ -192,6 +196,7 @@ pub fn compare(networks: &[(String, &Assessment)]) -> Result<Comparison, Compare
         ranked,
         measures,
         features,
+        warnings: Vec::new(),
     })
 }
 

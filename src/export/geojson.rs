@@ -11,6 +11,7 @@ use super::rings::{
     clean_multipolygon, push_geometry, push_num, push_prop, round6, split_antimeridian, Poly,
 };
 use super::{ExportError, CAUTION};
+use crate::assess::zones::ZoneShare;
 use crate::assess::Assessment;
 use crate::features::FeatureTable;
 use crate::grid::{Grid, GridError, Projector};
@@ -79,6 +80,106 @@ fn json_str(s: &str) -> String {
 /// position), its cells dissolved into one Polygon or MultiPolygon in WGS84 lon/lat.
 /// Properties: `reserve`, `cells` (count), `area_km2` (sea area, km²) and `cost`.
 pub fn network_geojson(grid: &Grid, assessment: &Assessment) -> Result<String, ExportError> {
+    check_reserves(grid, assessment)?;
+    let parts: Vec<Part> = assessment
+        .reserves
+        .iter()
+        .enumerate()
+        .map(|(k, r)| {
+            let mut props = String::new();
+            let _ = write!(
+                props,
+                r#""reserve":{id},"cells":{n},"area_km2":"#,
+                id = k + 1,
+                n = r.cells.len()
+            );
+            push_num(&mut props, r.area_km2);
+            props.push_str(r#","cost":"#);
+            push_num(&mut props, r.cost);
+            Part {
+                cells: r.cells.clone(),
+                properties: props,
+                what: format!("reserve {}", k + 1),
+            }
+        })
+        .collect();
+    parts_geojson(grid, &parts)
+}
+
+/// `network.geojson` of a zoned network (`model::zones`): one Feature per reserve and zone —
+/// the reserve's cells of that zone dissolved — in assessment order, then zone order, `id`
+/// numbering the features from 1. Properties: `reserve` (1-based, as in `reserves.csv`),
+/// `zone` (the zone's name, which `driftplan assess` reads back), `zone_code` (1-based, as in
+/// the cells' `zone` column), `cells`, `area_km2` and `cost` of that part, and `zones`: the
+/// whole reserve's make-up, `{zone name: {"cells": n, "area_km2": km²}}`.
+///
+/// `assignment` holds each cell's zone (0 outside, 1 + zone index) and `shares` the
+/// per-reserve zone shares of `assess::zones::apply_zones` for the same network.
+pub fn network_geojson_zoned(
+    grid: &Grid,
+    assessment: &Assessment,
+    assignment: &[u8],
+    shares: &[ZoneShare],
+) -> Result<String, ExportError> {
+    check_reserves(grid, assessment)?;
+    if assignment.len() != grid.len() {
+        return Err(ExportError::Length {
+            what: "zone assignment".into(),
+            expected: grid.len(),
+            got: assignment.len(),
+        });
+    }
+    let mut parts = Vec::new();
+    for (k, r) in assessment.reserves.iter().enumerate() {
+        let here: Vec<&ZoneShare> = shares.iter().filter(|z| z.reserve == Some(k + 1)).collect();
+        let mut make_up = String::from("{");
+        for (j, z) in here.iter().enumerate() {
+            if j > 0 {
+                make_up.push(',');
+            }
+            let _ = write!(
+                make_up,
+                r#"{}:{{"cells":{},"area_km2":"#,
+                json_str(&z.zone),
+                z.cells
+            );
+            push_num(&mut make_up, z.area_km2);
+            make_up.push('}');
+        }
+        make_up.push('}');
+        for z in &here {
+            let cells: Vec<u32> = r
+                .cells
+                .iter()
+                .copied()
+                .filter(|&c| assignment[c as usize] == z.code)
+                .collect();
+            let mut props = String::new();
+            let _ = write!(
+                props,
+                r#""reserve":{id},"zone":{name},"zone_code":{code},"cells":{n},"area_km2":"#,
+                id = k + 1,
+                name = json_str(&z.zone),
+                code = z.code,
+                n = cells.len()
+            );
+            push_num(&mut props, z.area_km2);
+            props.push_str(r#","cost":"#);
+            push_num(&mut props, z.cost);
+            props.push_str(r#","zones":"#);
+            props.push_str(&make_up);
+            parts.push(Part {
+                cells,
+                properties: props,
+                what: format!("reserve {}, zone `{}`", k + 1, z.zone),
+            });
+        }
+    }
+    parts_geojson(grid, &parts)
+}
+
+/// Checks every reserve's cell ids against the grid.
+fn check_reserves(grid: &Grid, assessment: &Assessment) -> Result<(), ExportError> {
     for (k, r) in assessment.reserves.iter().enumerate() {
         if let Some(&bad) = r.cells.iter().find(|&&c| c as usize >= grid.len()) {
             return Err(ExportError::Length {
@@ -88,28 +189,37 @@ pub fn network_geojson(grid: &Grid, assessment: &Assessment) -> Result<String, E
             });
         }
     }
+    Ok(())
+}
+
+/// One feature of `network.geojson`: cells to dissolve and its properties (JSON members
+/// without the braces).
+struct Part {
+    cells: Vec<u32>,
+    properties: String,
+    what: String,
+}
+
+/// A FeatureCollection of dissolved parts, `id` = 1-based position.
+fn parts_geojson(grid: &Grid, parts: &[Part]) -> Result<String, ExportError> {
     let step = max_step_m(grid);
-    let features: Vec<String> = assessment
-        .reserves
+    let features: Vec<String> = parts
         .par_iter()
         .enumerate()
         .map_init(
             || Projector::new(&grid.crs),
-            |p, (k, r)| {
+            |p, (k, part)| {
                 let projector = worker_projector(p, grid)?;
-                let polys =
-                    to_rfc7946(projector, &dissolve(grid, &r.cells), step, || format!("reserve {}", k + 1))?;
+                let polys = to_rfc7946(projector, &dissolve(grid, &part.cells), step, || {
+                    part.what.clone()
+                })?;
                 let mut f = String::new();
                 let _ = write!(
                     f,
-                    r#"{{"type":"Feature","id":{id},"properties":{{"reserve":{id},"cells":{n},"area_km2":"#,
+                    r#"{{"type":"Feature","id":{id},"properties":{{{props}}},"geometry":"#,
                     id = k + 1,
-                    n = r.cells.len()
+                    props = part.properties
                 );
-                push_num(&mut f, r.area_km2);
-                f.push_str(r#","cost":"#);
-                push_num(&mut f, r.cost);
-                f.push_str(r#"},"geometry":"#);
                 push_geometry(&mut f, &polys);
                 f.push('}');
                 Ok(f)

@@ -22,9 +22,9 @@ pub use run_folder::{verify, RunFolder};
 /// ~8 KB a cell it is ~170 MB at 20 000 cells, and cells.csv holds the same values.
 pub const CELLS_GEOJSON_MAX_CELLS: usize = 20_000;
 
-pub use geojson::{cells_csv, cells_geojson, network_geojson};
+pub use geojson::{cells_csv, cells_geojson, network_geojson, network_geojson_zoned};
 pub use summary::{plan_hash, summary_json, Summary};
-pub use table::{coverage_csv, reserves_csv};
+pub use table::{coverage_csv, reserves_csv, reserves_csv_zoned};
 
 use crate::grid::GridError;
 use std::path::{Path, PathBuf};

@@ -71,6 +71,10 @@ pub struct Summary {
     pub velocity_floored_cells: BTreeMap<String, usize>,
     /// The grid's projected CRS: as given, as a PROJ string, and its EPSG code where it has one.
     pub grid_crs: Option<crate::grid::CrsInfo>,
+    /// A zoned network's zones: each zone's cells, sea area and cost over the network (absent
+    /// without `[[zones]]`).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub zones: Vec<crate::assess::zones::ZoneShare>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
 }
@@ -113,6 +117,7 @@ impl Summary {
             sampling: Vec::new(),
             velocity_floored_cells: BTreeMap::new(),
             grid_crs: None,
+            zones: Vec::new(),
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }

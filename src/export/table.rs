@@ -58,6 +58,39 @@ pub fn reserves_csv(assessment: &Assessment) -> String {
     csv_text(&RESERVE_COLUMNS, rows)
 }
 
+/// `reserves.csv` of a zoned network: the [`RESERVE_COLUMNS`] (cost with each zone's cost
+/// share), then per plan zone (in `zone_names` order) `cells_<zone>` and `area_km2_<zone>`: the
+/// reserve's cells and sea area in that zone. `shares` are `assess::zones::apply_zones`'s.
+pub fn reserves_csv_zoned(
+    assessment: &Assessment,
+    zone_names: &[String],
+    shares: &[crate::assess::zones::ZoneShare],
+) -> String {
+    let mut header: Vec<String> = RESERVE_COLUMNS.iter().map(|c| c.to_string()).collect();
+    for z in zone_names {
+        header.push(format!("cells_{z}"));
+        header.push(format!("area_km2_{z}"));
+    }
+    let rows = assessment.reserves.iter().enumerate().map(|(i, r)| {
+        let mut row = vec![
+            (i + 1).to_string(),
+            r.cells.len().to_string(),
+            format!("{:.6}", r.area_km2),
+            format!("{:.6}", r.cost),
+        ];
+        for z in zone_names {
+            let s = shares
+                .iter()
+                .find(|s| s.reserve == Some(i + 1) && &s.zone == z);
+            row.push(s.map_or(0, |s| s.cells).to_string());
+            row.push(format!("{:.6}", s.map_or(0.0, |s| s.area_km2) + 0.0));
+        }
+        row
+    });
+    let header: Vec<&str> = header.iter().map(String::as_str).collect();
+    csv_text(&header, rows)
+}
+
 /// CSV text of a header and rows (quoted where a field needs it, by the csv crate). Rows may
 /// differ in length from the header only by a caller bug; such rows are written as they are.
 pub fn csv_text(header: &[&str], rows: impl IntoIterator<Item = Vec<String>>) -> String {

@@ -55,45 +55,41 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
         path: path.to_path_buf(),
         source,
     };
+    super::require_file(path)?;
     let file = std::fs::File::open(path).map_err(io)?;
     let mut reader = ::csv::ReaderBuilder::new()
         .trim(::csv::Trim::All)
         .from_reader(file);
-    let csv_err = |e: ::csv::Error| {
-        let line = e.position().map_or(0, |p| p.line());
+    let csv_err = |e: ::csv::Error, header: &[String]| {
+        let (line, column, message) = describe_error(&e, header);
         match e.into_kind() {
             ::csv::ErrorKind::Io(source) => io(source),
-            ::csv::ErrorKind::UnequalLengths {
-                expected_len, len, ..
-            } => LayerError::Csv {
+            _ => LayerError::Csv {
                 path: path.to_path_buf(),
                 line,
-                column: "?".into(),
-                message: format!(
-                    "the row has {len} values but the header has {expected_len} columns (expected one value per header column on every line)"
-                ),
-            },
-            ::csv::ErrorKind::Utf8 { .. } => LayerError::Csv {
-                path: path.to_path_buf(),
-                line,
-                column: "?".into(),
-                message: "the text is not UTF-8 (expected a UTF-8 CSV file)".into(),
-            },
-            kind => LayerError::Csv {
-                path: path.to_path_buf(),
-                line,
-                column: "?".into(),
-                message: format!("{kind:?} (expected one value per header column on every line)"),
+                column,
+                message,
             },
         }
     };
     let header: Vec<String> = reader
         .headers()
-        .map_err(csv_err)?
+        .map_err(|e| csv_err(e, &[]))?
         .iter()
         .map(str::to_string)
         .collect();
     let lower: Vec<String> = header.iter().map(|h| h.to_lowercase()).collect();
+    if let Some((a, b)) = repeated_name(&lower) {
+        return Err(LayerError::CsvHeader {
+            path: path.to_path_buf(),
+            message: format!(
+                "column `{}` appears twice (columns {} and {}); expected each column name once",
+                header[b],
+                a + 1,
+                b + 1
+            ),
+        });
+    }
     let find = |name: &str| lower.iter().position(|h| h == name);
     let names = coordinate_names(coords);
     let Some((ix, iy)) = names.iter().find_map(|(a, b)| Some((find(a)?, find(b)?))) else {
@@ -117,7 +113,7 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
         .collect();
     let (mut xs, mut ys, mut lines) = (Vec::new(), Vec::new(), Vec::new());
     for record in reader.records() {
-        let record = record.map_err(csv_err)?;
+        let record = record.map_err(|e| csv_err(e, &header))?;
         let line = record.position().map_or(0, |p| p.line());
         let coord = |i: usize| -> Result<f64, LayerError> {
             parse_number(&record[i]).map_err(|message| LayerError::Csv {
@@ -160,16 +156,109 @@ pub(crate) fn parse_file(path: &Path, coords: Coords) -> Result<CsvTable, LayerE
             message: "no data rows (expected a header and at least one row)".into(),
         });
     }
-    Ok(CsvTable {
+    let mut table = CsvTable {
         path: path.to_path_buf(),
         xs,
         ys,
         lines,
         columns,
-    })
+    };
+    table.drop_repeated_points(&header[ix], &header[iy])?;
+    Ok(table)
+}
+
+/// The first pair of equal names (already lower-cased), as 0-based column indices.
+fn repeated_name(names: &[String]) -> Option<(usize, usize)> {
+    let mut order: Vec<usize> = (0..names.len()).collect();
+    order.sort_by(|&a, &b| names[a].cmp(&names[b]).then(a.cmp(&b)));
+    order
+        .windows(2)
+        .filter(|w| names[w[0]] == names[w[1]])
+        .map(|w| (w[0], w[1]))
+        .min_by_key(|&(_, b)| b)
+}
+
+/// A csv-crate error in plain words: `(line, column, message)`, the line 1-based (0 when the
+/// crate gives none), the column named from `header` where the error has one (`?` otherwise).
+/// The network reader shares it, so both CSV readers speak alike.
+pub(crate) fn describe_error(e: &::csv::Error, header: &[String]) -> (u64, String, String) {
+    let line = e.position().map_or(0, |p| p.line());
+    match e.kind() {
+        ::csv::ErrorKind::UnequalLengths {
+            expected_len, len, ..
+        } => (
+            line,
+            "?".into(),
+            format!("expected {expected_len} fields, found {len} (one per header column)"),
+        ),
+        ::csv::ErrorKind::Utf8 { err, .. } => {
+            let column = header
+                .get(err.field())
+                .cloned()
+                .unwrap_or_else(|| format!("{}", err.field() + 1));
+            (
+                line.max(1),
+                column,
+                "not valid UTF-8 (expected a UTF-8 text file; re-save it as UTF-8)".into(),
+            )
+        }
+        ::csv::ErrorKind::Io(source) => (line, "?".into(), format!("cannot read: {source}")),
+        _ => (line, "?".into(), format!("cannot read this row: {e}")),
+    }
 }
 
 impl CsvTable {
+    /// Rows at the same point: identical ones are kept once; different values at one point
+    /// are an error naming both lines, since no rule could say which value is meant.
+    fn drop_repeated_points(&mut self, x_name: &str, y_name: &str) -> Result<(), LayerError> {
+        let key = |i: usize| (self.xs[i].to_bits(), self.ys[i].to_bits());
+        let mut order: Vec<usize> = (0..self.xs.len()).collect();
+        order.sort_by_key(|&i| (key(i), i));
+        let mut drop = vec![false; self.xs.len()];
+        for w in order.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            if key(a) != key(b) {
+                continue;
+            }
+            let differs = self.columns.iter().find(|c| {
+                let (va, vb) = (c.values[a], c.values[b]);
+                !(va == vb || (va.is_nan() && vb.is_nan()))
+            });
+            if let Some(c) = differs {
+                return Err(LayerError::Csv {
+                    path: self.path.clone(),
+                    line: self.lines[b],
+                    column: format!("{x_name},{y_name}"),
+                    message: format!(
+                        "({}, {}) is also on line {}, with a different `{}` ({} there, {} here); expected one row per point",
+                        self.xs[a], self.ys[a], self.lines[a], c.name, c.values[a], c.values[b]
+                    ),
+                });
+            }
+            drop[b] = true;
+        }
+        if drop.iter().any(|&d| d) {
+            let keep = |v: &mut Vec<f64>| {
+                let mut i = 0;
+                v.retain(|_| {
+                    i += 1;
+                    !drop[i - 1]
+                })
+            };
+            keep(&mut self.xs);
+            keep(&mut self.ys);
+            for c in &mut self.columns {
+                keep(&mut c.values);
+            }
+            let mut i = 0;
+            self.lines.retain(|_| {
+                i += 1;
+                !drop[i - 1]
+            });
+        }
+        Ok(())
+    }
+
     /// The values of column `name` (matched case-insensitively), one per row; an error when the
     /// column is absent or any entry of it is unparsable, NaN or infinite.
     pub(crate) fn column(&self, name: &str) -> Result<&[f64], LayerError> {

@@ -32,11 +32,14 @@ pub(crate) struct GeoFile {
 
 /// Reads and parses a GeoJSON file. Malformed JSON reports serde's line and column.
 pub(crate) fn parse_file(path: &Path) -> Result<GeoFile, LayerError> {
+    super::require_file(path)?;
     let text = std::fs::read_to_string(path).map_err(|source| LayerError::Io {
         path: path.to_path_buf(),
         source,
     })?;
-    let parsed: GeoJson = serde_json::from_str(&text).map_err(|e| LayerError::Json {
+    // A byte-order mark (written by some Windows tools) is not JSON; skip it.
+    let text = text.strip_prefix('\u{feff}').unwrap_or(&text);
+    let parsed: GeoJson = serde_json::from_str(text).map_err(|e| LayerError::Json {
         path: path.to_path_buf(),
         line: e.line(),
         column: e.column(),
@@ -241,11 +244,18 @@ impl GeoFile {
     }
 
     /// Every feature's polygons, as `(feature index, polygons)`. Any other geometry is an error.
+    ///
+    /// Every feature is checked against the simple-features rules ([`super::validity`]); the
+    /// error lists every invalid polygon of the file with its feature, part and place. With
+    /// `repair`, an invalid feature is instead repaired by geo's `MakeValid` (even-odd rule: a
+    /// bow-tie becomes two triangles, a hole outside its exterior an island of its own).
     pub(crate) fn polygons(
         &self,
         coords: Coords,
+        repair: bool,
     ) -> Result<Vec<(usize, MultiPolygon<f64>)>, LayerError> {
         let mut out = Vec::with_capacity(self.features.len());
+        let mut problems = Vec::new();
         for f in &self.features {
             let Some(g) = &f.geometry else {
                 return Err(self.geometry_error(
@@ -255,7 +265,37 @@ impl GeoFile {
             };
             let mut polys = Vec::new();
             self.collect_polygons(f.index, g, coords, &mut polys)?;
-            out.push((f.index, MultiPolygon(polys)));
+            let mut mp = MultiPolygon(polys);
+            let found = super::validity::invalidities(&mp);
+            if !found.is_empty() {
+                if repair {
+                    use geo::MakeValid;
+                    mp = mp.make_valid().map_err(|e| {
+                        self.geometry_error(
+                            f.index,
+                            format!("invalid ({}), and the repair failed: {e}", found[0].what),
+                        )
+                    })?;
+                } else {
+                    let (x, y) = match coords {
+                        Coords::LonLat => ("lon", "lat"),
+                        Coords::Projected => ("x", "y"),
+                    };
+                    problems.extend(found.into_iter().map(|p| {
+                        format!(
+                            "feature {}, part {}: {}, at {x} {}, {y} {}",
+                            f.index, p.part, p.what, p.at[0], p.at[1]
+                        )
+                    }));
+                }
+            }
+            out.push((f.index, mp));
+        }
+        if !problems.is_empty() {
+            return Err(LayerError::InvalidPolygons {
+                path: self.path.clone(),
+                problems,
+            });
         }
         Ok(out)
     }
@@ -407,14 +447,17 @@ fn projection_error(path: &Path) -> impl Fn(crate::grid::GridError) -> LayerErro
 /// Errors name the file and feature: malformed JSON (serde's line/column), non-polygon or null
 /// geometries, non-finite coordinates, lon outside −180..180 or lat outside −90..90, rings that
 /// are unclosed or have fewer than 4 positions.
-pub fn read_multipolygon(path: &Path) -> Result<MultiPolygon<f64>, LayerError> {
+///
+/// Polygons are checked against the simple-features rules; with `repair` invalid ones are
+/// repaired instead of refused (see [`GeoFile::polygons`]).
+pub fn read_multipolygon(path: &Path, repair: bool) -> Result<MultiPolygon<f64>, LayerError> {
     let (file, projector) = lonlat_file(path)?;
     let coords = if projector.is_some() {
         Coords::Projected
     } else {
         Coords::LonLat
     };
-    let polys = file.polygons(coords)?;
+    let polys = file.polygons(coords, repair)?;
     let mp = MultiPolygon(polys.into_iter().flat_map(|(_, mp)| mp.0).collect());
     match projector {
         None => Ok(mp),
@@ -507,11 +550,11 @@ mod tests {
     fn reads_polygons_from_all_three_forms() {
         let multi = r#"{"type":"MultiPolygon","coordinates":[[[[2,2],[3,2],[3,3],[2,2]]],[[[5,5],[6,5],[6,6],[5,5]]]]}"#;
         let fc = write(&collection(&[feature(SQUARE, "{}"), feature(multi, "{}")]));
-        assert_eq!(read_multipolygon(fc.path()).unwrap().0.len(), 3);
+        assert_eq!(read_multipolygon(fc.path(), false).unwrap().0.len(), 3);
         let f = write(&feature(SQUARE, "null"));
-        assert_eq!(read_multipolygon(f.path()).unwrap().0.len(), 1);
+        assert_eq!(read_multipolygon(f.path(), false).unwrap().0.len(), 1);
         let g = write(SQUARE);
-        let mp = read_multipolygon(g.path()).unwrap();
+        let mp = read_multipolygon(g.path(), false).unwrap();
         // Shoelace area of the unit square in degree units: 1 (hand computation).
         assert_eq!(geo::Area::unsigned_area(&mp), 1.0);
     }
@@ -520,29 +563,29 @@ mod tests {
     fn validation_names_the_feature() {
         let point = r#"{"type":"Point","coordinates":[1,2]}"#;
         let f = write(&collection(&[feature(SQUARE, "{}"), feature(point, "{}")]));
-        let e = read_multipolygon(f.path()).unwrap_err().to_string();
+        let e = read_multipolygon(f.path(), false).unwrap_err().to_string();
         assert!(
             e.contains("feature 1") && e.contains("Point") && e.contains("expected Polygon"),
             "{e}"
         );
         let open = r#"{"type":"Polygon","coordinates":[[[0,0],[1,0],[1,1],[0,1]]]}"#;
-        let e = read_multipolygon(write(open).path())
+        let e = read_multipolygon(write(open).path(), false)
             .unwrap_err()
             .to_string();
         assert!(e.contains("not closed"), "{e}");
         let short = r#"{"type":"Polygon","coordinates":[[[0,0],[1,0],[0,0]]]}"#;
-        let e = read_multipolygon(write(short).path())
+        let e = read_multipolygon(write(short).path(), false)
             .unwrap_err()
             .to_string();
         assert!(e.contains("3 positions") && e.contains("at least 4"), "{e}");
         let far = r#"{"type":"Polygon","coordinates":[[[0,0],[181,0],[1,1],[0,0]]]}"#;
-        let e = read_multipolygon(write(far).path())
+        let e = read_multipolygon(write(far).path(), false)
             .unwrap_err()
             .to_string();
         assert!(e.contains("181") && e.contains("−180..180"), "{e}");
         let huge = r#"{"type":"Polygon","coordinates":[[[0,0],[1e999,0],[1,1],[0,0]]]}"#;
         assert!(matches!(
-            read_multipolygon(write(huge).path()),
+            read_multipolygon(write(huge).path(), false),
             Err(LayerError::Json { .. })
         ));
     }
@@ -550,11 +593,12 @@ mod tests {
     #[test]
     fn malformed_json_gives_line_and_column() {
         let f = write("{\"type\": \"FeatureCollection\",\n \"features\": [ oops ]}");
-        match read_multipolygon(f.path()) {
+        match read_multipolygon(f.path(), false) {
             Err(LayerError::Json { line, column, .. }) => assert_eq!((line, column), (2, 16)),
             other => panic!("expected a JSON error, got {other:?}"),
         }
-        let missing = read_multipolygon(Path::new("/nonexistent/region.geojson")).unwrap_err();
+        let missing =
+            read_multipolygon(Path::new("/nonexistent/region.geojson"), false).unwrap_err();
         assert!(missing.to_string().contains("/nonexistent/region.geojson"));
     }
 

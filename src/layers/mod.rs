@@ -19,14 +19,17 @@ mod points;
 mod raster;
 mod report;
 mod sample;
+mod validity;
 mod vector;
 
 pub use cache::SourceCache;
+pub(crate) use csv::describe_error as describe_csv_error;
 pub use geojson::{read_lines, read_multipolygon, read_points};
 pub use points::NEAREST_MAX_SPACINGS;
 pub use raster::RASTER_EXTENSIONS;
 pub use report::sampling_lines;
 pub use sample::sample;
+pub use validity::{invalidities, self_crossing, Invalidity};
 pub use vector::FORMATS;
 
 /// How a source file becomes one value per cell.
@@ -98,6 +101,8 @@ pub struct LayerSpec {
     pub valid_range: Option<(f64, f64)>,
     /// Policy for uncovered cells.
     pub missing: Missing,
+    /// Repair invalid polygons (geo's `MakeValid`, even-odd rule) instead of refusing them.
+    pub repair: bool,
 }
 
 /// How one point-lattice layer was sampled: the rule and the number of cells each fallback
@@ -188,13 +193,13 @@ pub enum LayerError {
         message: String,
     },
     /// A CSV value is unparsable, NaN or infinite, or a row is malformed.
-    #[error("{path}: line {line}, column `{column}`: {message}")]
+    #[error("{path}: line {line}{}: {message}", column_part(column))]
     Csv {
         /// The file.
         path: PathBuf,
         /// 1-based line number in the file (the header is line 1).
         line: u64,
-        /// The column name (or `?` when the row itself is malformed).
+        /// The column name (or `?` when the row itself is malformed, and no column is named).
         column: String,
         /// What is wrong and what was expected.
         message: String,
@@ -235,6 +240,15 @@ pub enum LayerError {
         /// What is wrong and what was expected.
         message: String,
     },
+    /// Polygons that break the simple-features rules (a ring crossing itself, a hole outside
+    /// its exterior, overlapping parts): every one found, with its feature, part and place.
+    #[error("{path}: {} invalid polygon{} (OGC simple-features rules):\n    - {}{}\n  fix them in a GIS, or set `repair_polygons = true` at the top of the plan to repair them (crossing rings are split into valid parts by the even-odd rule)", .problems.len(), if .problems.len() == 1 { "" } else { "s" }, .problems.iter().take(10).cloned().collect::<Vec<_>>().join("\n    - "), if .problems.len() > 10 { format!("\n    - … and {} more", .problems.len() - 10) } else { String::new() })]
+    InvalidPolygons {
+        /// The file.
+        path: PathBuf,
+        /// `feature F, part P: what, at (x, y)` for each problem, in file order.
+        problems: Vec<String>,
+    },
     /// A CRS is unknown to PROJ or a coordinate cannot be transformed.
     #[error("{path}: {source}")]
     Projection {
@@ -243,4 +257,30 @@ pub enum LayerError {
         /// The grid stage's projection error.
         source: crate::grid::GridError,
     },
+}
+
+/// An [`LayerError::Io`] when `path` is a directory or does not exist, so every reader says
+/// "is a directory" or "no such file" before a library tries (GDAL would open a folder of
+/// shapefiles as one dataset).
+pub(crate) fn require_file(path: &std::path::Path) -> Result<(), LayerError> {
+    let kind = if path.is_dir() {
+        std::io::Error::other("is a directory (expected a file)")
+    } else if !path.exists() {
+        std::io::Error::new(std::io::ErrorKind::NotFound, "no such file")
+    } else {
+        return Ok(());
+    };
+    Err(LayerError::Io {
+        path: path.to_path_buf(),
+        source: kind,
+    })
+}
+
+/// `, column `name`` for a CSV message, or nothing when the problem is the row as a whole (`?`).
+pub(crate) fn column_part(column: &str) -> String {
+    if column == "?" {
+        String::new()
+    } else {
+        format!(", column `{column}`")
+    }
 }

@@ -63,12 +63,7 @@ pub(crate) fn read(path: &Path, band: usize) -> Result<Raster, LayerError> {
 /// Opens `source` (a file, or a GDAL subdataset name such as `NETCDF:"f.nc":tos`) as a raster.
 fn open(path: &Path, source: &str) -> Result<Dataset, LayerError> {
     crate::grid::crs::quiet_gdal();
-    if !path.exists() {
-        return Err(LayerError::Io {
-            path: path.to_path_buf(),
-            source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such file"),
-        });
-    }
+    super::require_file(path)?;
     Dataset::open_ex(
         source,
         gdal::DatasetOptions {

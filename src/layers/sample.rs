@@ -233,16 +233,17 @@ fn polygon_index(
 ) -> Result<(std::sync::Arc<GeoFile>, std::sync::Arc<PolygonIndex>), LayerError> {
     let file = geo_file(spec, cache)?;
     let kind = format!(
-        "polygons|{:?}|{:?}|{}",
+        "polygons|{:?}|{:?}|{}|{}",
         spec.crs,
         spec.layer,
+        spec.repair,
         grid_key(grid)
     );
     let index = cache.get_or_load(&spec.path, &kind, || {
         let crs = file_crs(spec, &file);
         let to_grid = ToGrid::new(&spec.path, crs, grid)?;
         let projected = file
-            .polygons(coords(crs))?
+            .polygons(coords(crs), spec.repair)?
             .iter()
             .map(|(_, mp)| to_grid.polygon(mp))
             .collect::<Result<Vec<_>, _>>()?;

@@ -45,12 +45,7 @@ pub(crate) fn unreadable(path: &Path, reason: &str) -> LayerError {
 
 fn read_ogr(path: &Path, layer: Option<&str>) -> Result<GeoFile, LayerError> {
     crate::grid::crs::quiet_gdal();
-    if !path.exists() {
-        return Err(LayerError::Io {
-            path: path.to_path_buf(),
-            source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such file"),
-        });
-    }
+    super::require_file(path)?;
     let ds = Dataset::open_ex(
         path,
         gdal::DatasetOptions {

@@ -1,6 +1,6 @@
 //! Model stage: a solver-neutral statement of the reserve-selection problem. It takes the
 //! features, costs and rules and returns a [`Problem`]; it knows no solver (`solve::*` translate
-//! it). [`evaluate`] recomputes everything about a network from raw amounts and is the
+//! it). [`evaluate()`] recomputes everything about a network from raw amounts and is the
 //! independent check every solver and test relies on.
 //!
 //! The formulations (minimum set, maximum coverage, robustness rules, edge penalty, max gap) are

@@ -126,10 +126,31 @@ pub fn combine(problem: &Problem, benefits: &[f64], best: Option<&[f64]>) -> f64
 
 /// Scenario `s` alone: its own features and the scenario-free ones (renumbered to scenario
 /// 0), that one scenario (weight 1), rule `EveryScenario`, no Bₛ*; everything else (objective,
-/// costs, status, budget, edge penalty, max gap, minimum size) as in `problem`.
+/// costs, status, budget, edge penalty, max gap, minimum size) as in `problem`. Zones keep
+/// their costs and allowed cells; their credits and zone targets follow the features kept
+/// (a zone target on a feature of another scenario is dropped with its feature).
 pub fn restrict_to_scenario(problem: &Problem, s: usize) -> Problem {
-    let features = problem
-        .scenario_features(s)
+    let kept = problem.scenario_features(s);
+    let zoning = problem.zoning.as_ref().map(|z| crate::model::Zoning {
+        credit: z
+            .credit
+            .iter()
+            .map(|row| kept.iter().map(|&k| row[k]).collect())
+            .collect(),
+        targets: z
+            .targets
+            .iter()
+            .filter_map(|t| {
+                let at = kept.iter().position(|&k| k == t.feature)?;
+                Some(crate::model::ZoneTarget {
+                    feature: at,
+                    ..t.clone()
+                })
+            })
+            .collect(),
+        ..z.clone()
+    });
+    let features = kept
         .into_iter()
         .map(|k| {
             let mut f = problem.features[k].clone();
@@ -144,6 +165,7 @@ pub fn restrict_to_scenario(problem: &Problem, s: usize) -> Problem {
         features,
         robustness: Robustness::EveryScenario,
         scenario_best: None,
+        zoning,
         ..problem.clone()
     }
 }
@@ -238,5 +260,45 @@ mod tests {
             vec!["q", "r"]
         );
         assert_eq!(sub.features[0].scenario, Some(0));
+    }
+
+    #[test]
+    fn zone_credits_and_targets_follow_the_kept_features() {
+        use crate::model::{ZoneTarget, Zoning};
+        // Features p (scenario a), q (scenario b), r (both). Scenario b keeps q and r, so
+        // partial use's credits (0.1, 0.2, 0.3) become (0.2, 0.3); the zone target on q
+        // (feature 1) becomes feature 0 and the one on p is dropped.
+        let mut p = two_scenarios();
+        p.zoning = Some(Zoning {
+            names: vec!["no-take".into(), "partial-use".into()],
+            cost_share: vec![1.0, 0.5],
+            credit: vec![vec![1.0; 3], vec![0.1, 0.2, 0.3]],
+            allowed: vec![vec![true; 2]; 2],
+            targets: vec![
+                ZoneTarget {
+                    zone: 0,
+                    feature: 0,
+                    amount: 1.0,
+                },
+                ZoneTarget {
+                    zone: 0,
+                    feature: 1,
+                    amount: 0.5,
+                },
+            ],
+        });
+        let sub = restrict_to_scenario(&p, 1);
+        sub.validate().unwrap();
+        let z = sub.zoning.unwrap();
+        assert_eq!(z.credit, vec![vec![1.0, 1.0], vec![0.2, 0.3]]);
+        assert_eq!(
+            z.targets,
+            vec![ZoneTarget {
+                zone: 0,
+                feature: 0,
+                amount: 0.5
+            }]
+        );
+        assert_eq!(z.cost_share, vec![1.0, 0.5]);
     }
 }

@@ -42,7 +42,7 @@
 //! ```
 
 use super::terms::{Decay, Interpolation, Target};
-use super::{Checker, Extra, LayerTemplate, RawLayer};
+use super::{reference, Checker, Extra, LayerTemplate, RawLayer};
 use crate::climate::{ExposureMetric, TrajectoryParams};
 use crate::layers::{Missing, Sampling};
 use serde::Deserialize;
@@ -477,7 +477,7 @@ fn edge(ck: &mut Checker, key: &str, raw: &RawEdge, default_q: f64) -> EdgePlan 
     ck.unknown(
         key,
         &raw.extra,
-        &["band_km", "quantile", "axis", "target", "weight"],
+        &reference::keys_of("climate.leading-edge, climate.trailing-edge"),
     );
     EdgePlan {
         band_km: positive_km(ck, &format!("{key}.band_km"), raw.band_km, 100.0),
@@ -494,21 +494,7 @@ pub(crate) fn validate(
     ck: &mut Checker,
     ctx: &Context<'_>,
 ) -> Option<ClimatePlan> {
-    ck.unknown(
-        "climate",
-        &raw.extra,
-        &[
-            "velocity",
-            "trajectories",
-            "corridor",
-            "leading-edge",
-            "trailing-edge",
-            "refugium",
-            "boundary",
-            "distinctness",
-            "time",
-        ],
-    );
+    ck.unknown("climate", &raw.extra, &reference::keys_of("climate"));
 
     // Velocity.
     let velocity = match &raw.velocity {
@@ -519,7 +505,7 @@ pub(crate) fn validate(
             ck.unknown(
                 "climate.velocity",
                 &v.extra,
-                &["min_gradient_c_per_km", "speed", "bearing"],
+                &reference::keys_of("climate.velocity"),
             );
             match (&v.speed, &v.bearing) {
                 (None, None) => {
@@ -592,7 +578,7 @@ pub(crate) fn validate(
             ck.unknown(
                 "climate.trajectories",
                 &t.extra,
-                &["horizon_years", "step_years", "corridor_quantile"],
+                &reference::keys_of("climate.trajectories"),
             );
             let mut years = |key: &str, v: Option<f64>, default: f64| match v {
                 None => default,
@@ -625,7 +611,7 @@ pub(crate) fn validate(
         ck.unknown(
             "climate.corridor",
             &c.extra,
-            &["min_habitat_share", "target", "weight"],
+            &reference::keys_of("climate.corridor"),
         );
         CorridorPlan {
             min_habitat_share: c
@@ -662,17 +648,7 @@ pub(crate) fn validate(
         ck.unknown(
             key,
             &r.extra,
-            &[
-                "metric",
-                "low_quantile",
-                "min_habitat_share",
-                "per_species",
-                "low_exposure_only",
-                "polygons",
-                "score",
-                "target",
-                "weight",
-            ],
+            &reference::keys_of("climate.refugium"),
         );
         let supplied_key = if r.polygons.is_some() {
             Some("polygons")
@@ -759,21 +735,7 @@ pub(crate) fn validate(
 
     let boundary = raw.boundary.as_ref().map(|b| {
         let key = "climate.boundary";
-        ck.unknown(
-            key,
-            &b.extra,
-            &[
-                "lines",
-                "band_km",
-                "decay",
-                "scale_km",
-                "edge_density",
-                "edge_band_km",
-                "axis",
-                "target",
-                "weight",
-            ],
-        );
+        ck.unknown(key, &b.extra, &reference::keys_of("climate.boundary"));
         let lines = b
             .lines
             .as_deref()
@@ -823,16 +785,7 @@ pub(crate) fn validate(
         ck.unknown(
             key,
             &d.extra,
-            &[
-                "points",
-                "attribute",
-                "radius_km",
-                "method",
-                "power",
-                "layer",
-                "target",
-                "weight",
-            ],
+            &reference::keys_of("climate.distinctness"),
         );
         let goal = goal(ck, key, d.target, d.weight);
         let source = match (&d.points, &d.layer) {
@@ -922,11 +875,7 @@ pub(crate) fn validate(
         },
         Some(t) => {
             let key = "climate.time";
-            ck.unknown(
-                key,
-                &t.extra,
-                &["weights", "discount_rate", "combine_years"],
-            );
+            ck.unknown(key, &t.extra, &reference::keys_of("climate.time"));
             let discount_rate = match (t.weights.as_deref(), t.discount_rate) {
                 (None | Some("equal"), None) => None,
                 (None | Some("equal"), Some(_)) => {

@@ -19,7 +19,7 @@
 
 use serde::Deserialize;
 
-use super::{Checker, Extra, LayerTemplate, Missing, RawLayer, Sampling};
+use super::{reference, Checker, Extra, LayerTemplate, Missing, RawLayer, Sampling};
 
 /// One zone as the plan states it.
 #[derive(Debug, Clone, PartialEq)]
@@ -91,16 +91,7 @@ pub(crate) fn check(ck: &mut Checker, raw: &[RawZone], species: &[&str]) -> Vec<
         ck.unknown(
             &format!("zones[{i}]"),
             &z.extra,
-            &[
-                "name",
-                "cost_share",
-                "credit",
-                "credit_by_kind",
-                "credit_by_species",
-                "target",
-                "required",
-                "excluded",
-            ],
+            &reference::keys_of("zones[]"),
         );
         let name = match &z.name {
             Some(n) if super::valid_name(n) => n.clone(),

@@ -54,6 +54,18 @@ pub struct ReportInput<'a> {
     pub sweep: Option<Vec<SweepPoint>>,
     /// Several networks drawn side by side (each budget of a sweep), after the network map.
     pub panels: Option<NetworkPanels>,
+    /// The zone of each cell of a zoned network: the map fills each zone in its own colour.
+    pub zones: Option<ReportZones<'a>>,
+}
+
+/// A zoned network's zones ([`crate::model::zones`]) as the report draws them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReportZones<'a> {
+    /// Zone names, in plan order (the first gets the reserve colour).
+    pub names: &'a [String],
+    /// Per cell id: 0 outside the network, 1 + the zone's index (a code beyond `names` is
+    /// not drawn).
+    pub assignment: &'a [u8],
 }
 
 /// One network of several drawn side by side.
@@ -148,7 +160,7 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
     let _ = write!(
         s,
         "\n<h2>Network</h2>\n<figure>{}<figcaption>{} reserves, {} of {} cells chosen. Map in the grid's equal-area projection (projected metres); the scale bar is exact in that projection.</figcaption></figure>\n",
-        network_map::network_map(grid, input.status, input.reserves),
+        network_map::network_map(grid, input.status, input.reserves, input.zones.as_ref()),
         input.reserves.len(),
         chosen,
         grid.len()
@@ -258,6 +270,9 @@ fn check(input: &ReportInput) -> Result<(), ExportError> {
     };
     len("selected".into(), input.selected.len())?;
     len("status".into(), input.status.len())?;
+    if let Some(z) = &input.zones {
+        len("zone assignment".into(), z.assignment.len())?;
+    }
     for (name, values) in &input.feature_maps {
         len(format!("feature map `{name}`"), values.len())?;
     }
@@ -342,6 +357,7 @@ mod tests {
                 },
             ]),
             panels: None,
+            zones: None,
         }
     }
 

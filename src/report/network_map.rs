@@ -1,10 +1,12 @@
 //! The network map: sea cells, excluded and required cells, reserves dissolved exactly as in
-//! `network.geojson`, a scale bar and a legend, as one inline SVG.
+//! `network.geojson`, a scale bar and a legend, as one inline SVG. A zoned network's cells are
+//! filled in their zone's colour under the reserve outlines, with a legend entry per zone.
 
 use super::cells_path::cells_path;
 use super::escape::esc;
 use super::frame::{km_label, round1, scale_bar, MapFrame, PAD};
-use super::palette::{EXCLUDED, REQUIRED, RESERVE, SEA};
+use super::palette::{zone_colour, EXCLUDED, REQUIRED, RESERVE, SEA};
+use super::ReportZones;
 use crate::assess::Reserve;
 use crate::export::dissolve::dissolve;
 use crate::grid::Grid;
@@ -24,12 +26,20 @@ pub(crate) fn network_frame(grid: &Grid) -> MapFrame {
     MapFrame::fit(grid, MAX_W, MAX_H)
 }
 
-/// Inline SVG of the network. `status` and `reserves` are checked by the caller (one status
-/// per cell, reserve cell ids in range).
-pub(crate) fn network_map(grid: &Grid, status: &[CellStatus], reserves: &[Reserve]) -> String {
+/// Height of the second legend row, which lists the zones. Units: SVG units.
+const ZONE_ROW: f64 = 24.0;
+
+/// Inline SVG of the network. `status`, `reserves` and `zones` are checked by the caller (one
+/// status and zone per cell, reserve cell ids in range).
+pub(crate) fn network_map(
+    grid: &Grid,
+    status: &[CellStatus],
+    reserves: &[Reserve],
+    zones: Option<&ReportZones>,
+) -> String {
     let frame = network_frame(grid);
     let w = (frame.width + 2.0 * PAD).max(MIN_SVG_W);
-    let h = frame.height + 2.0 * PAD + FOOTER;
+    let h = frame.height + 2.0 * PAD + FOOTER + if zones.is_some() { ZONE_ROW } else { 0.0 };
     let mut s = String::new();
     let _ = write!(
         s,
@@ -74,13 +84,35 @@ pub(crate) fn network_map(grid: &Grid, status: &[CellStatus], reserves: &[Reserv
         &excluded,
         &format!(r#"fill="url(#dp-excluded)" stroke="{EXCLUDED}" stroke-width="0.8""#),
     );
+    // Zones: each zone's cells in its colour; the reserves are then drawn as outlines on top.
+    let present = zones.map(|z| zones_present(z)).unwrap_or_default();
+    if let Some(z) = zones {
+        s.push_str(r#"<g class="zones">"#);
+        for &(zi, n) in &present {
+            let d = cells_path(grid, &frame, |id| {
+                z.assignment.get(id as usize) == Some(&(zi as u8 + 1))
+            });
+            let _ = write!(
+                s,
+                r#"<path class="zone" data-zone="{name}" data-cells="{n}" fill="{c}" fill-opacity="0.85" stroke="none" fill-rule="evenodd" d="{d}"><title>Zone {name}: {n} cells</title></path>"#,
+                name = esc(&z.names[zi]),
+                c = zone_colour(zi),
+            );
+        }
+        s.push_str("</g>");
+    }
+    let reserve_fill = if zones.is_some() {
+        r#"fill="none""#.to_string()
+    } else {
+        format!(r#"fill="{RESERVE}" fill-opacity="0.85""#)
+    };
     s.push_str(r#"<g class="reserves">"#);
     for (k, r) in reserves.iter().enumerate() {
         let mut d = String::new();
         frame.push_multipolygon(&mut d, &dissolve(grid, &r.cells));
         let _ = write!(
             s,
-            r##"<path class="reserve" data-reserve="{}" fill="{RESERVE}" fill-opacity="0.85" stroke="#1a1a1a" stroke-width="1.2" fill-rule="evenodd" d="{d}"><title>Reserve {}: {} cells, {:.1} km²</title></path>"##,
+            r##"<path class="reserve" data-reserve="{}" {reserve_fill} stroke="#1a1a1a" stroke-width="1.2" fill-rule="evenodd" d="{d}"><title>Reserve {}: {} cells, {:.1} km²</title></path>"##,
             k + 1,
             k + 1,
             r.cells.len(),
@@ -98,9 +130,54 @@ pub(crate) fn network_map(grid: &Grid, status: &[CellStatus], reserves: &[Reserv
         &format!(r#"fill="url(#dp-required)" stroke="{REQUIRED}" stroke-width="1""#),
     );
     push_scale_bar(&mut s, &frame);
-    push_legend(&mut s, &frame, reserves.len());
+    push_legend(&mut s, &frame, reserves.len(), zones.is_some());
+    if let Some(z) = zones {
+        push_zone_legend(&mut s, &frame, z, &present);
+    }
     s.push_str("</svg>");
     s
+}
+
+/// The zones with at least one cell, as `(zone index, cells)` in plan order.
+fn zones_present(z: &ReportZones) -> Vec<(usize, usize)> {
+    let mut counts = vec![0usize; z.names.len()];
+    for &v in z.assignment {
+        if let Some(c) = (v as usize).checked_sub(1).and_then(|i| counts.get_mut(i)) {
+            *c += 1;
+        }
+    }
+    counts
+        .into_iter()
+        .enumerate()
+        .filter(|(_, n)| *n > 0)
+        .collect()
+}
+
+/// The second legend row: one swatch per zone present, named with its cell count.
+fn push_zone_legend(s: &mut String, frame: &MapFrame, z: &ReportZones, present: &[(usize, usize)]) {
+    let y = round1(PAD + frame.height + 40.0 + ZONE_ROW);
+    s.push_str(r#"<g class="legend zone-legend" font-size="12">"#);
+    let mut x = PAD;
+    for &(zi, n) in present {
+        let label = format!(
+            "Zone {} ({n} cell{})",
+            z.names[zi],
+            if n == 1 { "" } else { "s" }
+        );
+        let _ = write!(
+            s,
+            r##"<rect class="legend-zone" data-zone="{name}" x="{x}" y="{y}" width="16" height="12" fill="{c}" fill-opacity="0.85" stroke="#1a1a1a" stroke-width="0.5"/><text x="{tx}" y="{ty}">{label}</text>"##,
+            name = esc(&z.names[zi]),
+            x = round1(x),
+            c = zone_colour(zi),
+            tx = round1(x + 22.0),
+            ty = round1(y + 10.5),
+            label = esc(&label)
+        );
+        // About 7 units a character at 12 px, and at least the first row's spacing.
+        x += (30.0 + 7.0 * label.chars().count() as f64).max(150.0);
+    }
+    s.push_str("</g>");
 }
 
 /// Largest side of a small network map, several of which sit side by side. Units: SVG units.
@@ -203,19 +280,27 @@ fn push_scale_bar(s: &mut String, frame: &MapFrame) {
     );
 }
 
-fn push_legend(s: &mut String, frame: &MapFrame, n_reserves: usize) {
+fn push_legend(s: &mut String, frame: &MapFrame, n_reserves: usize, zoned: bool) {
     let y = round1(PAD + frame.height + 40.0);
-    let items: [(String, String); 4] = [
+    let reserve = if zoned {
         (
-            format!(r##"fill="{SEA}" stroke="#999999" stroke-width="0.5""##),
-            "Sea, not chosen".into(),
-        ),
+            r##"fill="none" stroke="#1a1a1a" stroke-width="1.2""##.to_string(),
+            format!("Reserve outline ({n_reserves})"),
+        )
+    } else {
         (
             format!(
                 r##"fill="{RESERVE}" fill-opacity="0.85" stroke="#1a1a1a" stroke-width="1.2""##
             ),
             format!("Reserve ({n_reserves})"),
+        )
+    };
+    let items: [(String, String); 4] = [
+        (
+            format!(r##"fill="{SEA}" stroke="#999999" stroke-width="0.5""##),
+            "Sea, not chosen".into(),
         ),
+        reserve,
         (
             format!(r#"fill="url(#dp-required)" stroke="{REQUIRED}""#),
             "Required cell".into(),
@@ -348,7 +433,7 @@ mod tests {
             largest_gap_km: 0.0,
         };
         let gj = network_geojson(&g, &assessment).unwrap();
-        let svg = network_map(&g, &vec![CellStatus::Free; g.len()], &res);
+        let svg = network_map(&g, &vec![CellStatus::Free; g.len()], &res, None);
         let frame = network_frame(&g);
         let projector = g.projector().unwrap();
         let GeoJson::FeatureCollection(fc) = GeoJson::from_str(&gj).unwrap() else {
@@ -394,7 +479,7 @@ mod tests {
     fn rules_are_drawn_with_their_classes() {
         let g = Grid::full_rectangle(Crs::auto_laea(4.0, 56.0), 5_000.0, [0.0, 0.0], 3, 1).unwrap();
         let status = [CellStatus::Required, CellStatus::Free, CellStatus::Excluded];
-        let svg = network_map(&g, &status, &[]);
+        let svg = network_map(&g, &status, &[], None);
         assert!(svg.contains(r#"class="required""#));
         assert!(svg.contains(r#"class="excluded""#));
         assert!(!svg.contains(r#"class="reserve""#));

@@ -15,6 +15,18 @@ pub(crate) const RESERVE: &str = "#009E73";
 pub(crate) const REQUIRED: &str = "#0072B2";
 /// Excluded cells: vermillion.
 pub(crate) const EXCLUDED: &str = "#D55E00";
+/// Management zones, in plan order: the Okabe–Ito hues not taken by the cell rules (blue,
+/// vermillion) — bluish green (the reserve colour, for the first and strictest zone), orange,
+/// reddish purple, yellow, sky blue, black. A plan with more zones reuses them in turn.
+pub(crate) const ZONES: [&str; 6] = [
+    "#009E73", "#E69F00", "#CC79A7", "#F0E442", "#56B4E9", "#000000",
+];
+
+/// The colour of zone `index` (0-based, plan order).
+pub(crate) fn zone_colour(index: usize) -> &'static str {
+    ZONES[index % ZONES.len()]
+}
+
 /// Unselected sea: a light tint of the sky blue (20% sky blue on white), quiet under the classes.
 pub(crate) const SEA: &str = "#DDF0FB";
 /// Cells without a finite value on a feature map.
@@ -109,6 +121,20 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn zone_colours_are_okabe_ito_and_clear_of_the_rules() {
+        // Every zone colour is one of the Okabe–Ito eight, none is the required or excluded
+        // colour, and the six differ.
+        let mut v = ZONES.to_vec();
+        assert!(v.iter().all(|c| OKABE_ITO.contains(c)));
+        assert!(!v.contains(&REQUIRED) && !v.contains(&EXCLUDED));
+        v.sort_unstable();
+        v.dedup();
+        assert_eq!(v.len(), 6);
+        assert_eq!(zone_colour(0), RESERVE);
+        assert_eq!(zone_colour(6), zone_colour(0));
     }
 
     #[test]

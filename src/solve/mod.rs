@@ -4,7 +4,7 @@
 //! [`ilp::Highs`] is the exact solver (HiGHS through good_lp); [`greedy::Greedy`] and
 //! [`anneal::Anneal`] are heuristic baselines on the same [`crate::model::Problem`] and
 //! objective; [`brute::BruteForce`] enumerates small problems for checks. All of them report
-//! the objective in the problem's own sense, as [`crate::model::evaluate`] recomputes it.
+//! the objective in the problem's own sense, as [`crate::model::evaluate()`] recomputes it.
 
 use crate::model::robust::{effective_robustness, scenario_problem};
 use crate::model::{evaluate, ModelError, Problem, Robustness, ScenarioResult};
@@ -127,6 +127,16 @@ pub struct Solution {
     pub scenario_best: Option<Vec<f64>>,
     /// Zone of each cell for a zoned problem (`model::zones`: 0 outside, 1 + zone index).
     pub zones: Option<Vec<u8>>,
+}
+
+impl Solution {
+    /// The network as a zone assignment (`model::zones`: 0 outside, 1 + zone index): the
+    /// solve's zones, or each chosen cell as 1 when it assigned none.
+    pub fn assignment(&self) -> Vec<u8> {
+        self.zones
+            .clone()
+            .unwrap_or_else(|| crate::model::zones::first_zone(&self.selected))
+    }
 }
 
 /// One feature that cannot reach its target.

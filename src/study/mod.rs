@@ -19,8 +19,9 @@ pub use replacement::{replacement_costs, Replacement};
 pub use stress::{single_scenario_problem, stress_test, stress_test_part, StressMatrix, StressRow};
 pub use sweep::{parse_budgets, sweep, sweep_of, Sweep, SweepBudget, SweepRun};
 
-/// Studies score their networks with `model::evaluate`, which knows no zone assignment, so a
-/// zoned problem is refused with a clear word rather than scored as if unzoned.
+/// The budget sweep's outputs (its networks, selection frequency and first-reached budgets)
+/// know no zones yet, so it refuses a zoned problem with a clear word rather than showing it
+/// as if unzoned. The stress test, portfolio, rank and replacement cost handle zones.
 pub(crate) fn unzoned(
     problem: &crate::model::Problem,
     study: &str,

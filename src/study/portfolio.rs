@@ -2,6 +2,10 @@
 //! objective and each meeting every rule the plan sets, made as different from each other as
 //! the share allows.
 //!
+//! Zoned problems ([`crate::model::zones`]) keep their zones: each member is a zone
+//! assignment scored with its zones' costs and credits, and members differ in the cells they
+//! choose (a cell changing zone only is not a difference).
+//!
 //! Member 1 is the optimum. Member k keeps the plan's objective within the share of it
 //! ([`Problem::keep_objective`]) and maximises its total Hamming distance to members 1…k−1,
 //! each of which it must differ from in at least `min_difference` cells (a no-good cut;
@@ -11,7 +15,7 @@
 
 use crate::model::alternative::jaccard_distance;
 use crate::model::robust::is_minimisation;
-use crate::model::{evaluate, Alternative, Problem};
+use crate::model::{evaluate_zoned, Alternative, Problem};
 use crate::solve::ilp::Highs;
 use crate::solve::{with_scenario_best, Solution, SolveError, SolveOptions, Solver};
 
@@ -21,7 +25,7 @@ pub struct Member {
     /// The network and how its solve ended (for members after the first, the status, bound and
     /// gap are those of the distance stage).
     pub solution: Solution,
-    /// The plan's objective of the network (as `model::evaluate` recomputes it).
+    /// The plan's objective of the network (as `model::evaluate_zoned` recomputes it).
     pub objective: f64,
     /// Cells in which it differs from each earlier member, in member order.
     pub differs_from_earlier: Vec<usize>,
@@ -101,7 +105,6 @@ pub fn portfolio(
     options: &SolveOptions,
     on_member: &dyn Fn(usize),
 ) -> Result<Portfolio, SolveError> {
-    super::unzoned(problem, "a portfolio")?;
     problem.validate()?;
     if !(within.is_finite() && within >= 0.0) {
         return Err(SolveError::Model(crate::model::ModelError::Combination(
@@ -138,7 +141,7 @@ pub fn portfolio(
             Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => break,
             Err(other) => return Err(other),
         };
-        let objective = evaluate(&base, &s.selected).objective;
+        let objective = evaluate_zoned(&base, &s.assignment()).objective;
         members.push(Member {
             differs_from_earlier: alt.distances(&s.selected),
             objective,
@@ -159,7 +162,7 @@ pub fn portfolio(
 /// its cost, area and cells, and the fewest cells in which it differs from an earlier member.
 pub fn portfolio_csv(p: &Portfolio, problem: &Problem) -> String {
     let rows = p.members.iter().enumerate().map(|(k, m)| {
-        let e = evaluate(problem, &m.solution.selected);
+        let e = evaluate_zoned(problem, &m.solution.assignment());
         let from_opt = if p.optimum.abs() > 0.0 {
             format!(
                 "{:.6}",

@@ -10,6 +10,9 @@
 //!
 //! Nesting has a price: step k's network is the best *containing* step k − 1's, which may be
 //! worse than the best at sₖ alone; the sweep gives that unnested curve.
+//!
+//! Zoned problems ([`crate::model::zones`]) are ranked with their zones: each step is a zoned
+//! network, and nesting keeps the cells (an earlier cell may change zone at a later step).
 
 use crate::model::{CellStatus, Objective, Problem, Robustness};
 use crate::solve::ilp::Highs;
@@ -53,7 +56,7 @@ pub fn full_share(
     q.keep_objective = None;
     match Highs::default().solve(&q, options) {
         Ok(s) => {
-            let e = crate::model::evaluate(&q, &s.selected);
+            let e = crate::model::evaluate_zoned(&q, &s.assignment());
             let (used, total) = match of {
                 SweepBudget::Area(total) => (e.area_km2, total),
                 SweepBudget::Cost(total) => (e.cost, total),
@@ -81,7 +84,6 @@ pub fn rank(
     options: &SolveOptions,
     on_step: &dyn Fn(usize),
 ) -> Result<Ranking, SolveError> {
-    super::unzoned(problem, "the priority ranking")?;
     problem.validate()?;
     let started = std::time::Instant::now();
     let mut rank: Vec<Option<u32>> = problem

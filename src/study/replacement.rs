@@ -13,6 +13,9 @@
 //! problem, so z₀ is the best objective among the base solve and all re-solves
 //! ([`best_base`]): a replacement cost is never negative because the base solve stopped at a
 //! gap.
+//!
+//! Zoned problems ([`crate::model::zones`]) are re-solved with their zones: a forbidden cell
+//! takes no zone, and the others may change zone to make up for it.
 
 use rayon::prelude::*;
 
@@ -72,7 +75,6 @@ pub fn replacement_solves(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Vec<Replacement>, SolveError> {
-    super::unzoned(problem, "replacement cost")?;
     problem.validate()?;
     let one_thread = SolveOptions {
         threads: Some(1),

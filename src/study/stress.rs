@@ -3,10 +3,14 @@
 //! network — those single-scenario ones and the given (robust) ones — is evaluated under every
 //! scenario. The diagonal is each scenario's own optimum; a robust network's row shows what it
 //! gives up in the scenario it was not tailored to, and its worst case sits beside theirs.
+//!
+//! Zoned problems ([`crate::model::zones`]) are solved with their zones in every scenario, and
+//! every network is evaluated with its own zone assignment: each zone's credit counts toward
+//! the targets and its cost share toward the cost.
 
 use rayon::prelude::*;
 
-use crate::model::{evaluate, Problem, ScenarioResult};
+use crate::model::{evaluate_zoned, Problem, ScenarioResult};
 use crate::solve::ilp::Highs;
 use crate::solve::{SolveError, SolveOptions, Solver};
 
@@ -24,6 +28,9 @@ pub struct StressRow {
     pub evaluated: Vec<ScenarioResult>,
     /// The network (empty when there is none).
     pub selected: Vec<bool>,
+    /// Zone of each cell of a zoned network ([`crate::model::zones`]: 0 outside, 1 + zone
+    /// index); `None` without zones or without a network.
+    pub zones: Option<Vec<u8>>,
 }
 
 impl StressRow {
@@ -64,9 +71,13 @@ pub fn single_scenario_problem(problem: &Problem, s: usize) -> Problem {
 /// limit cuts a solve short), then evaluates those networks and each of `given` under every
 /// scenario of `problem`. `problem` should carry Bₛ* (least-regret) so regrets are reported.
 /// `on_solved` is called after each scenario solve (for a progress bar).
+///
+/// Each given network is an assignment, one value per cell: 0 outside, otherwise 1 + its zone
+/// index on a zoned problem, or any non-zero value for "chosen" on one without zones
+/// ([`crate::model::evaluate_zoned`]).
 pub fn stress_test(
     problem: &Problem,
-    given: &[(String, Vec<bool>)],
+    given: &[(String, Vec<u8>)],
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<StressMatrix, SolveError> {
@@ -79,13 +90,22 @@ pub fn stress_test(
 /// [`stress_test`] makes.
 pub fn stress_test_part(
     problem: &Problem,
-    given: &[(String, Vec<bool>)],
+    given: &[(String, Vec<u8>)],
     which: &[usize],
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<StressMatrix, SolveError> {
-    super::unzoned(problem, "the stress test")?;
     problem.validate()?;
+    if let Some((name, bad)) = given.iter().find(|(_, a)| a.len() != problem.n_cells()) {
+        return Err(SolveError::Model(crate::model::ModelError::Combination(
+            format!(
+                "network `{name}` has {} cell values but the problem has {} cells",
+                bad.len(),
+                problem.n_cells()
+            ),
+        )));
+    }
+    let zoned = problem.zoning.is_some();
     let one_thread = SolveOptions {
         threads: Some(1),
         ..options.clone()
@@ -96,13 +116,17 @@ pub fn stress_test_part(
             let sub = single_scenario_problem(problem, s);
             let name = problem.scenarios[s].name.clone();
             let row = match Highs::default().solve(&sub, &one_thread) {
-                Ok(sol) => Ok(StressRow {
-                    designed_for: name,
-                    status: sol.status.as_str().to_string(),
-                    gap: sol.gap,
-                    evaluated: evaluate(problem, &sol.selected).scenarios,
-                    selected: sol.selected,
-                }),
+                Ok(sol) => {
+                    let assignment = sol.assignment();
+                    Ok(StressRow {
+                        designed_for: name,
+                        status: sol.status.as_str().to_string(),
+                        gap: sol.gap,
+                        evaluated: evaluate_zoned(problem, &assignment).scenarios,
+                        selected: sol.selected,
+                        zones: zoned.then_some(assignment),
+                    })
+                }
                 Err(e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))) => {
                     Ok(StressRow {
                         designed_for: name,
@@ -110,6 +134,7 @@ pub fn stress_test_part(
                         gap: f64::NAN,
                         evaluated: Vec::new(),
                         selected: Vec::new(),
+                        zones: None,
                     })
                 }
                 Err(e) => Err(e),
@@ -119,13 +144,14 @@ pub fn stress_test_part(
         })
         .collect();
     let mut rows = solved.into_iter().collect::<Result<Vec<_>, _>>()?;
-    for (name, sel) in given {
+    for (name, assignment) in given {
         rows.push(StressRow {
             designed_for: name.clone(),
             status: "given".into(),
             gap: f64::NAN,
-            evaluated: evaluate(problem, sel).scenarios,
-            selected: sel.clone(),
+            evaluated: evaluate_zoned(problem, assignment).scenarios,
+            selected: assignment.iter().map(|&v| v > 0).collect(),
+            zones: zoned.then(|| assignment.clone()),
         });
     }
     Ok(StressMatrix {
@@ -265,6 +291,7 @@ mod tests {
                     gap: 0.0,
                     evaluated: vec![result("a", 2, 2.0), result("b", 1, 1.5)],
                     selected: vec![true],
+                    zones: None,
                 },
                 StressRow {
                     designed_for: "b".into(),
@@ -272,6 +299,7 @@ mod tests {
                     gap: f64::NAN,
                     evaluated: vec![],
                     selected: vec![],
+                    zones: None,
                 },
             ],
         }

@@ -16,7 +16,7 @@
 
 use rayon::prelude::*;
 
-use crate::model::{evaluate, Objective, Problem, Robustness};
+use crate::model::{evaluate_zoned, Objective, Problem, Robustness};
 use crate::solve::ilp::Highs;
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
 
@@ -251,7 +251,7 @@ pub fn solve_at_budget(
         SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
     }
     let first = Highs::default().solve(&p, options)?;
-    let e = evaluate(&p, &first.selected);
+    let e = evaluate_zoned(&p, &first.assignment());
     let mut q = p.clone();
     q.objective = Objective::MinCost;
     q.robustness = Robustness::EveryScenario;
@@ -278,7 +278,7 @@ pub fn solve_at_budget(
         Some(cheap) => {
             // The least-cost network holding every target under the same budget and
             // rules; every target reached is the most benefit there is: proven optimal.
-            let e = evaluate(&p, &cheap.selected);
+            let e = evaluate_zoned(&p, &cheap.assignment());
             let cost_gap = cheap.gap;
             let solution = crate::solve::Solution {
                 objective: e.objective,
@@ -309,13 +309,14 @@ pub fn solve_at_budget(
                 },
                 Err(other) => return Err(other),
             };
-            let kept = evaluate(&p, &cheap.selected);
+            let kept = evaluate_zoned(&p, &cheap.assignment());
             // The benefit stage's status, bound and gap stand: the second stage only
             // chooses among networks with (within slack) the same benefit.
             let solution = crate::solve::Solution {
                 objective: kept.objective,
                 scenarios: kept.scenarios.clone(),
                 selected: cheap.selected,
+                zones: cheap.zones,
                 seconds: first.seconds + cheap.seconds,
                 ..first
             };

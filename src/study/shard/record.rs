@@ -230,6 +230,7 @@ pub struct DesignRecord {
     gap: Exact,
     evaluated: Vec<ScenarioRecord>,
     chosen: Option<Vec<u32>>,
+    zones: Option<Vec<u8>>,
 }
 
 impl From<&StressRow> for DesignRecord {
@@ -240,6 +241,7 @@ impl From<&StressRow> for DesignRecord {
             gap: Exact(r.gap),
             evaluated: r.evaluated.iter().map(Into::into).collect(),
             chosen: (!r.selected.is_empty()).then(|| chosen(&r.selected)),
+            zones: r.zones.clone(),
         }
     }
 }
@@ -257,6 +259,7 @@ impl DesignRecord {
                 Some(c) => flags(c, cells)
                     .ok_or_else(|| bad(&format!("a design names a cell beyond {cells}")))?,
             },
+            zones: self.zones.clone(),
         })
     }
 }
