@@ -206,15 +206,8 @@ fn merged_shards_equal_the_one_machine_sweep() {
     assert!(stderr(&o).contains("only 9 jobs"), "{}", stderr(&o));
 }
 
-#[test]
-fn merged_replacement_cost_shards_equal_the_one_machine_run() {
-    let tmp = tempfile::tempdir().unwrap();
-    let d = tmp.path();
-    let plan = common::plan_with(
-        d,
-        "",
-        "objective = \"min-cost\"\nrobustness = \"every-scenario\"",
-    );
+/// Replacement cost of `plan` on one machine and in two shards merged: the same outputs.
+fn replacement_shards_equal_plain(d: &Path, plan: &Path) -> PathBuf {
     let irr = |out: &Path, extra: &[&str]| {
         let mut args = vec![
             os("irreplaceability"),
@@ -246,6 +239,44 @@ fn merged_replacement_cost_shards_equal_the_one_machine_run() {
     let o = merge(&study);
     assert!(o.status.success(), "{}", stderr(&o));
     assert_same_outputs(&plain, &study);
+    study
+}
+
+#[test]
+fn merged_replacement_cost_of_a_zoned_plan_equals_the_one_machine_run() {
+    // The coarse demo with no-take and partial-use zones (as tests/zones_cli.rs): the optimum's
+    // zones and each re-solve's zones cross the shard files too.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(
+        d,
+        "",
+        "objective = \"min-cost\"\nrobustness = \"every-scenario\"",
+    );
+    let mut text = std::fs::read_to_string(&plan).unwrap();
+    text.push_str(
+        "\n[[zones]]\nname = \"no-take\"\ntarget = 0.1\n\n[[zones]]\nname = \"partial-use\"\ncost_share = 0.4\ncredit = 0.5\n",
+    );
+    let zoned = d.join("scenarios/zoned.toml");
+    std::fs::write(&zoned, text).unwrap();
+    let study = replacement_shards_equal_plain(d, &zoned);
+    let network = std::fs::read_to_string(study.join("network.geojson")).unwrap();
+    assert!(
+        network.contains("no-take"),
+        "the merged network carries its zones"
+    );
+}
+
+#[test]
+fn merged_replacement_cost_shards_equal_the_one_machine_run() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = common::plan_with(
+        d,
+        "",
+        "objective = \"min-cost\"\nrobustness = \"every-scenario\"",
+    );
+    let study = replacement_shards_equal_plain(d, &plan);
     // Shards of a sweep and of replacement cost do not mix.
     let mixed = d.join("mixed");
     copy_dir(&study, &mixed);
