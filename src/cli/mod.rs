@@ -98,7 +98,8 @@ enum Command {
     /// last. Budgets are shares
     /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
     /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
-    /// for that benefit.
+    /// for that benefit. With `--shard K/N` it solves every N-th job only (budgets, then
+    /// scenario designs) and writes shard.json and run.json; `merge` joins the shards.
     Sweep(sweep::Args),
     /// Several near-optimal networks, each within a share of the optimum and as different from
     /// the others as that share allows.
@@ -120,7 +121,9 @@ enum Command {
     ///
     /// Writes irreplaceability.csv (per unit: cells forbidden, objective without it,
     /// replacement cost with the interval it lies in, status, gap), network.geojson and
-    /// report.html. A unit without which no network meets every rule is irreplaceable.
+    /// report.html. A unit without which no network meets every rule is irreplaceable. With
+    /// `--shard K/N` it solves the optimum and every N-th unit's re-solve, and writes
+    /// shard.json and run.json; `merge` joins the shards.
     Irreplaceability(irreplaceability::Args),
     /// Say whether an output folder holds one complete run, whole.
     ///
