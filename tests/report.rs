@@ -191,18 +191,24 @@ fn render_zoned(
                 cost: 12.0,
                 benefit: 0.41,
                 gap: 0.0,
+                targets_reached: 6,
+                targets_total: 12,
             },
             SweepPoint {
                 budget_share: 0.2,
                 cost: 23.5,
                 benefit: 0.72,
                 gap: 0.002,
+                targets_reached: 6,
+                targets_total: 12,
             },
             SweepPoint {
                 budget_share: 0.3,
                 cost: 35.0,
                 benefit: 0.93,
                 gap: 0.0,
+                targets_reached: 12,
+                targets_total: 12,
             },
         ]),
         panels: Some(driftplan::report::NetworkPanels {
@@ -639,6 +645,11 @@ fn chromium_renders_the_report() {
         assert!(dom.contains(label), "no graticule label {label}");
     }
     assert!(dom.contains("class=\"north-arrow\""));
+    // The sweep curve marks the smallest budget reaching every target (30% here).
+    assert!(
+        dom.contains("every target reached from 30%"),
+        "no budget marker"
+    );
     for n in 1..=4 {
         assert!(dom.contains(&format!("class=\"reserve-label\" data-reserve=\"{n}\"")));
     }

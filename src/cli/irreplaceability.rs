@@ -3,14 +3,16 @@
 use super::{load_with, solve_options, Progress, SolverArgs};
 use anyhow::Result;
 use driftplan::solve::time;
+use driftplan::study::shard::{self, ShardSpec};
 use driftplan::{export, pipeline};
+use std::collections::BTreeMap;
 use std::path::PathBuf;
 
 /// Arguments of `driftplan irreplaceability`.
 #[derive(clap::Args, Debug)]
 pub(crate) struct Args {
     /// The plan file (TOML).
-    plan: PathBuf,
+    pub(crate) plan: PathBuf,
     /// Re-solve once per chosen cell instead of once per reserve (many more solves).
     #[arg(long)]
     cells: bool,
@@ -19,9 +21,13 @@ pub(crate) struct Args {
     per_solve_limit: Option<f64>,
     /// Output folder.
     #[arg(long)]
-    out: PathBuf,
+    pub(crate) out: PathBuf,
     #[command(flatten)]
-    solver: SolverArgs,
+    pub(crate) solver: SolverArgs,
+    /// Re-solve only part K of N of the units (every N-th reserve or cell of the optimum,
+    /// which every shard solves first) and write shard.json; `driftplan merge` joins the parts.
+    #[arg(long, value_name = "K/N")]
+    pub(crate) shard: Option<String>,
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
@@ -31,6 +37,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             "--per-solve-limit must be a positive number of seconds, got {t}"
         );
     }
+    let spec = a.shard.as_deref().map(ShardSpec::parse).transpose()?;
     let mut run = export::RunFolder::begin(&a.out, "irreplaceability")?;
     let plan = load_with(&a.plan, &a.solver)?;
     run.set_plan(&plan.file, &plan.hash);
@@ -46,19 +53,14 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     )?;
     let base = pipeline::optimise(&base_problem, &clock.options(&options, 0.2, 1))?;
     let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &base_problem, &base);
-    let units: Vec<(String, Vec<u32>)> = if a.cells {
-        (0..base.selected.len() as u32)
-            .filter(|&c| base.selected[c as usize])
-            .map(|c| (format!("cell {c}"), vec![c]))
-            .collect()
-    } else {
-        assessment
-            .reserves
-            .iter()
-            .enumerate()
-            .map(|(k, r)| (format!("reserve {}", k + 1), r.cells.clone()))
-            .collect()
+    let all_units = units(&assessment, &base, a.cells);
+    let mine: Vec<usize> = match spec {
+        // A shard beyond the units has nothing to re-solve and writes an empty part: the
+        // units are known only after the optimum, later than a job array is sized.
+        Some(spec) => spec.jobs(all_units.len()),
+        None => (0..all_units.len()).collect(),
     };
+    let units: Vec<(String, Vec<u32>)> = mine.iter().map(|&j| all_units[j].clone()).collect();
     let rounds = time::parallel_rounds(units.len(), time::workers());
     let per = a
         .per_solve_limit
@@ -72,7 +74,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             .unwrap_or_default()
     ));
     let bar = progress.bar(units.len() as u64, "re-solves");
-    let rows = driftplan::study::replacement_costs(
+    let rows = driftplan::study::replacement::replacement_solves(
         &base_problem,
         &base,
         &units,
@@ -83,11 +85,118 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         &|| bar.inc(1),
     )?;
     bar.finish_and_clear();
+    if let Some(spec) = spec {
+        let part = shard::ShardPart {
+            format: shard::FORMAT,
+            study: "irreplaceability".into(),
+            arguments: arguments(&a),
+            plan: super::sweep::absolute(&plan.file),
+            plan_sha256: plan.hash.clone(),
+            shard: spec.k,
+            shards: spec.n,
+            jobs: all_units.len(),
+            cells: inputs.grid.len(),
+            base: Some((&base).into()),
+            results: mine
+                .iter()
+                .zip(&rows)
+                .map(|(&job, r)| shard::JobResult {
+                    job,
+                    outcome: shard::Outcome::Unit(r.into()),
+                })
+                .collect(),
+        };
+        export::write_outputs(run.dir(), &[(shard::SHARD_FILE, part.to_json())])?;
+        run.finish("done")?;
+        println!(
+            "shard {}/{}: {} of {} re-solves; outputs {} (join the shards with `driftplan merge`)",
+            spec.k,
+            spec.n,
+            mine.len(),
+            all_units.len(),
+            a.out.display()
+        );
+        return Ok(());
+    }
     let minimise = driftplan::model::robust::is_minimisation(&base_problem);
-    let best = driftplan::study::replacement::best_base(minimise, &base, &rows);
+    let rows = driftplan::study::replacement::with_intervals(minimise, &base, rows);
+    write(
+        &plan,
+        &inputs,
+        &base,
+        &assessment,
+        zone_shares.as_deref(),
+        &all_units,
+        &rows,
+        minimise,
+        a.cells,
+        run,
+    )
+}
+
+/// The units of the study: each chosen cell (`cells`) or each reserve of the optimum.
+pub(crate) fn units(
+    assessment: &driftplan::assess::Assessment,
+    base: &driftplan::solve::Solution,
+    cells: bool,
+) -> Vec<(String, Vec<u32>)> {
+    if cells {
+        (0..base.selected.len() as u32)
+            .filter(|&c| base.selected[c as usize])
+            .map(|c| (format!("cell {c}"), vec![c]))
+            .collect()
+    } else {
+        assessment
+            .reserves
+            .iter()
+            .enumerate()
+            .map(|(k, r)| (format!("reserve {}", k + 1), r.cells.clone()))
+            .collect()
+    }
+}
+
+/// The arguments that decide the study's results, as a shard records them.
+fn arguments(a: &Args) -> BTreeMap<String, String> {
+    let exact = |v: f64| format!("{v:?}");
+    let mut m = super::sweep::solver_arguments(&a.solver);
+    m.insert("cells".into(), a.cells.to_string());
+    m.insert(
+        "per_solve_limit".into(),
+        a.per_solve_limit.map(exact).unwrap_or_default(),
+    );
+    m
+}
+
+/// `--cells` and the solver overrides back from a shard's arguments.
+pub(crate) fn from_arguments(args: &BTreeMap<String, String>) -> Result<(bool, SolverArgs)> {
+    let cells = match args.get("cells").map(String::as_str) {
+        Some("true") => true,
+        Some("false") => false,
+        other => anyhow::bail!("the shards' `cells` argument is {other:?}, expected true or false"),
+    };
+    Ok((cells, super::sweep::solver_from_arguments(args)?))
+}
+
+/// Writes the study's outputs into `run` and prints its table: the one-machine run and the
+/// merge of its shards both end here.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn write(
+    plan: &driftplan::plan::Plan,
+    inputs: &pipeline::Inputs,
+    base: &driftplan::solve::Solution,
+    assessment: &driftplan::assess::Assessment,
+    zone_shares: Option<&[driftplan::assess::zones::ZoneShare]>,
+    units: &[(String, Vec<u32>)],
+    rows: &[driftplan::study::Replacement],
+    minimise: bool,
+    cells: bool,
+    run: export::RunFolder,
+) -> Result<()> {
+    let out = run.out().to_path_buf();
+    let best = driftplan::study::replacement::best_base(minimise, base, rows);
     // Per-cell map value: the replacement cost of the unit holding the cell (NaN outside).
     let mut map = vec![f64::NAN; base.selected.len()];
-    for (r, (_, cells)) in rows.iter().zip(&units) {
+    for (r, (_, cells)) in rows.iter().zip(units) {
         for &c in cells {
             map[c as usize] = if r.irreplaceable() { f64::MAX } else { r.cost };
         }
@@ -104,31 +213,31 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     let files = vec![
         (
             "irreplaceability.csv",
-            driftplan::study::replacement::replacement_csv(&best, &rows),
+            driftplan::study::replacement::replacement_csv(&best, rows),
         ),
         (
             "network.geojson",
-            match (&base.zones, &zone_shares) {
+            match (&base.zones, zone_shares) {
                 (Some(asg), Some(shares)) => {
-                    export::network_geojson_zoned(&inputs.grid, &assessment, asg, shares)?
+                    export::network_geojson_zoned(&inputs.grid, assessment, asg, shares)?
                 }
-                _ => export::geojson::network_geojson(&inputs.grid, &assessment)?,
+                _ => export::geojson::network_geojson(&inputs.grid, assessment)?,
             },
         ),
         (
             "report.html",
             pipeline::report_html(
-                &plan,
-                &inputs,
+                plan,
+                inputs,
                 &base.selected,
-                &assessment,
+                assessment,
                 pipeline::ReportExtras {
-                    solution: Some(&base),
+                    solution: Some(base),
                     facts: vec![(
                         "irreplaceability".into(),
                         format!(
                             "replacement cost per {}: how much the objective worsens when it is forbidden; irreplaceable units (no network meets every rule without them) are drawn at the top of the scale",
-                            if a.cells { "cell" } else { "reserve" }
+                            if cells { "cell" } else { "reserve" }
                         ),
                     )],
                     maps: vec![("replacement cost".into(), shown)],
@@ -143,7 +252,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
         "{:<14} {:>6} {:>14}  status",
         "unit", "cells", "replacement"
     );
-    for r in &rows {
+    for r in rows {
         println!(
             "{:<14} {:>6} {:>14}  {}",
             r.label,
@@ -162,7 +271,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             best.objective, base.objective
         );
     }
-    println!("outputs {}", a.out.display());
-    super::closing_lines(&a.out);
+    println!("outputs {}", out.display());
+    super::closing_lines(&out);
     Ok(())
 }

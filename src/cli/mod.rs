@@ -14,11 +14,13 @@ use std::time::Instant;
 mod assess;
 mod bench;
 mod check;
+mod cluster;
 mod compare;
 mod demo;
 mod features;
 mod grid;
 mod irreplaceability;
+mod merge;
 mod portfolio;
 mod rank;
 mod solve;
@@ -96,7 +98,8 @@ enum Command {
     /// last. Budgets are shares
     /// of the region's sea area (or total cost, `--budget-of cost`); `...` continues an even
     /// step (`5%,10%,...,40%`). Each budget gets the best benefit it allows at the least cost
-    /// for that benefit.
+    /// for that benefit. With `--shard K/N` it solves every N-th job only (budgets, then
+    /// scenario designs) and writes shard.json and run.json; `merge` joins the shards.
     Sweep(sweep::Args),
     /// Several near-optimal networks, each within a share of the optimum and as different from
     /// the others as that share allows.
@@ -118,7 +121,9 @@ enum Command {
     ///
     /// Writes irreplaceability.csv (per unit: cells forbidden, objective without it,
     /// replacement cost with the interval it lies in, status, gap), network.geojson and
-    /// report.html. A unit without which no network meets every rule is irreplaceable.
+    /// report.html. A unit without which no network meets every rule is irreplaceable. With
+    /// `--shard K/N` it solves the optimum and every N-th unit's re-solve, and writes
+    /// shard.json and run.json; `merge` joins the shards.
     Irreplaceability(irreplaceability::Args),
     /// Say whether an output folder holds one complete run, whole.
     ///
@@ -128,6 +133,17 @@ enum Command {
     /// run.json; with --plan, also that the run is of that plan as it is now. Exit code 0: one
     /// complete run; 1: not (the reasons are listed).
     Verify(verify::Args),
+    /// Join the shards of a study (run with `--shard K/N --out DIR/shards/K`) into the
+    /// outputs of a one-machine run.
+    ///
+    /// Checks that every shard 1 … N is there, is one complete run (its run.json verifies)
+    /// and has the same plan hash, driftplan version and study arguments; then writes the
+    /// study's outputs into DIR (or --out), the same bytes as a one-machine run apart from
+    /// timing fields (solve times, the manifest's finishing time).
+    Merge(merge::Args),
+    /// Run a study's shards on a cluster scheduler: writes (and with --submit submits) a job
+    /// array with one task per shard and a merge job that waits for all of them.
+    Cluster(cluster::Args),
 }
 
 /// Runs one command.
@@ -147,6 +163,8 @@ pub fn run(args: Args) -> Result<()> {
         Command::Rank(a) => rank::run(a, &progress),
         Command::Irreplaceability(a) => irreplaceability::run(a, &progress),
         Command::Verify(a) => verify::run(a),
+        Command::Merge(a) => merge::run(a, &progress),
+        Command::Cluster(a) => cluster::run(a, &progress),
     }
 }
 

@@ -60,6 +60,7 @@ const KNOWN_OUTPUTS: &[&str] = &[
     "selection-frequency.geojson",
     "grid.geojson",
     "grid.csv",
+    "shard.json",
 ];
 
 /// Staging folders of runs in progress in this process, for [`abandon_all`]. Also held by

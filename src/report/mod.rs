@@ -130,6 +130,10 @@ pub struct SweepPoint {
     pub benefit: f64,
     /// The solver's relative gap to its bound (0–1).
     pub gap: f64,
+    /// Targets the budget's network reaches.
+    pub targets_reached: usize,
+    /// Targets in all.
+    pub targets_total: usize,
 }
 
 /// Page style: system fonts only (no web fonts), print-friendly.
@@ -232,13 +236,23 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
             "<h2>Budget sweep</h2>\n<p class=\"small\">The best benefit each budget buys, at the least cost for that benefit. {}.</p>",
             esc(&capital(BENEFIT))
         );
-        let series = [Series {
+        let mut series = vec![Series {
             label: "benefit".into(),
             points: points
                 .iter()
                 .map(|p| (100.0 * p.budget_share, p.benefit))
                 .collect(),
         }];
+        // The smallest budget whose network reaches every target, marked on the curve.
+        if let Some(p) = points
+            .iter()
+            .find(|p| p.targets_total > 0 && p.targets_reached == p.targets_total)
+        {
+            series.push(Series {
+                label: format!("every target reached from {:.0}%", 100.0 * p.budget_share),
+                points: vec![(100.0 * p.budget_share, p.benefit)],
+            });
+        }
         s.push_str(&line_chart(&Chart {
             title: "Benefit by budget",
             x_label: "budget (% of region)",
@@ -381,12 +395,16 @@ mod tests {
                     cost: 10.0,
                     benefit: 0.5,
                     gap: 0.0,
+                    targets_reached: 6,
+                    targets_total: 12,
                 },
                 SweepPoint {
                     budget_share: 0.3,
                     cost: 30.0,
                     benefit: 0.9,
                     gap: 0.01,
+                    targets_reached: 6,
+                    targets_total: 12,
                 },
             ]),
             panels: None,

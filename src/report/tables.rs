@@ -125,6 +125,8 @@ mod tests {
             cost: 1234.6,
             benefit: 0.87,
             gap: 0.001,
+            targets_reached: 3,
+            targets_total: 4,
         }]);
         // Hand: 0.3 → 30 %, cost 1234.6 → 1235 (four significant digits), gap 0.001 → 0.1 %.
         assert!(

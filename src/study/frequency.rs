@@ -34,6 +34,19 @@ impl SelectionFrequency {
         (0..self.share.len()).map(|i| self.class(i)).collect()
     }
 
+    /// Every cell's class as a number for a map, lowest to highest: 0 never, 1 occasional,
+    /// 2 frequent, 3 core.
+    pub fn class_codes(&self) -> Vec<f64> {
+        (0..self.share.len())
+            .map(|i| match self.class(i) {
+                "core" => 3.0,
+                "frequent" => 2.0,
+                "occasional" => 1.0,
+                _ => 0.0,
+            })
+            .collect()
+    }
+
     /// The robust core: cells chosen in every network.
     pub fn core(&self) -> Vec<bool> {
         (0..self.share.len())
@@ -143,6 +156,7 @@ mod tests {
         assert_eq!(f.share, vec![1.0, 0.5, 0.25, 0.0]);
         let classes: Vec<&str> = (0..4).map(|i| f.class(i)).collect();
         assert_eq!(classes, vec!["core", "frequent", "occasional", "never"]);
+        assert_eq!(f.class_codes(), vec![3.0, 2.0, 1.0, 0.0]);
         assert_eq!(f.core(), vec![true, false, false, false]);
         let csv = frequency_csv(&f);
         assert!(

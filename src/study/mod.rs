@@ -8,6 +8,7 @@ pub mod frequency;
 pub mod portfolio;
 pub mod rank;
 pub mod replacement;
+pub mod shard;
 pub mod stress;
 pub mod sweep;
 
@@ -15,7 +16,7 @@ pub use frequency::{selection_frequency, SelectionFrequency};
 pub use portfolio::{portfolio, Portfolio};
 pub use rank::{rank, Ranking};
 pub use replacement::{replacement_costs, Replacement};
-pub use stress::{single_scenario_problem, stress_test, StressMatrix, StressRow};
+pub use stress::{single_scenario_problem, stress_test, stress_test_part, StressMatrix, StressRow};
 pub use sweep::{parse_budgets, sweep, sweep_of, Sweep, SweepBudget, SweepRun};
 
 /// The budget sweep's outputs (its networks, selection frequency and first-reached budgets)

@@ -60,8 +60,22 @@ pub fn replacement_costs(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<Vec<Replacement>, SolveError> {
+    let rows = replacement_solves(problem, base, units, options, on_solved)?;
+    Ok(with_intervals(is_minimisation(problem), base, rows))
+}
+
+/// The re-solves of [`replacement_costs`] without the intervals (`cost`, `at_least` and
+/// `at_most` are NaN for a re-solved unit): a shard's part of the study (`study::shard`). The
+/// intervals need every re-solve ([`best_base`]), so [`with_intervals`] adds them once all
+/// parts are joined.
+pub fn replacement_solves(
+    problem: &Problem,
+    base: &Solution,
+    units: &[(String, Vec<u32>)],
+    options: &SolveOptions,
+    on_solved: &(dyn Fn() + Sync),
+) -> Result<Vec<Replacement>, SolveError> {
     problem.validate()?;
-    let minimise = is_minimisation(problem);
     let one_thread = SolveOptions {
         threads: Some(1),
         progress: None,
@@ -116,7 +130,16 @@ pub fn replacement_costs(
             Ok(row)
         })
         .collect();
-    let mut rows: Vec<Replacement> = rows.into_iter().collect::<Result<_, _>>()?;
+    rows.into_iter().collect()
+}
+
+/// Fills in each re-solved row's replacement cost and interval (module doc), measured from the
+/// best objective among `base` and every row's network.
+pub fn with_intervals(
+    minimise: bool,
+    base: &Solution,
+    mut rows: Vec<Replacement>,
+) -> Vec<Replacement> {
     // A network found without a unit is a network of the whole problem too (forbidding only
     // restricts it), so the best of all of them is the base value the rises are measured from
     // when the base solve stopped at a gap and a re-solve did better.
@@ -126,7 +149,7 @@ pub fn replacement_costs(
             (r.cost, r.at_least, r.at_most) = interval(minimise, &best, s.objective, s.bound);
         }
     }
-    Ok(rows)
+    rows
 }
 
 /// `base` with its objective replaced by the best objective among it and the re-solves.

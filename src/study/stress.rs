@@ -81,6 +81,20 @@ pub fn stress_test(
     options: &SolveOptions,
     on_solved: &(dyn Fn() + Sync),
 ) -> Result<StressMatrix, SolveError> {
+    let every: Vec<usize> = (0..problem.scenarios.len()).collect();
+    stress_test_part(problem, given, &every, options, on_solved)
+}
+
+/// [`stress_test`] with only the scenarios `which` (indices, ascending) solved alone: a shard's
+/// part of a study (`study::shard`); the rows of all parts, in scenario order, are the rows
+/// [`stress_test`] makes.
+pub fn stress_test_part(
+    problem: &Problem,
+    given: &[(String, Vec<u8>)],
+    which: &[usize],
+    options: &SolveOptions,
+    on_solved: &(dyn Fn() + Sync),
+) -> Result<StressMatrix, SolveError> {
     problem.validate()?;
     if let Some((name, bad)) = given.iter().find(|(_, a)| a.len() != problem.n_cells()) {
         return Err(SolveError::Model(crate::model::ModelError::Combination(
@@ -96,9 +110,9 @@ pub fn stress_test(
         threads: Some(1),
         ..options.clone()
     };
-    let solved: Vec<Result<StressRow, SolveError>> = (0..problem.scenarios.len())
-        .into_par_iter()
-        .map(|s| {
+    let solved: Vec<Result<StressRow, SolveError>> = which
+        .par_iter()
+        .map(|&s| {
             let sub = single_scenario_problem(problem, s);
             let name = problem.scenarios[s].name.clone();
             let row = match Highs::default().solve(&sub, &one_thread) {

@@ -450,6 +450,8 @@ pub fn report_points(s: &Sweep) -> Vec<crate::report::SweepPoint> {
             cost: r.cost,
             benefit: r.solution.objective,
             gap: r.solution.gap,
+            targets_reached: r.targets_reached,
+            targets_total: r.reached.len(),
         })
         .collect()
 }
