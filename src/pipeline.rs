@@ -60,6 +60,14 @@ pub enum RunError {
         /// The layer problems.
         errors: Vec<LayerError>,
     },
+    /// An inputs cache cannot be used for this plan.
+    #[error("{}: {message}", .path.display())]
+    Cache {
+        /// The cache file.
+        path: std::path::PathBuf,
+        /// What is wrong and what to do.
+        message: String,
+    },
     /// Cells that are both required and excluded.
     #[error("{count} cells are both required (by {required}) and excluded (by {excluded}), e.g. cell {example} at lon/lat {lon:.4}, {lat:.4}; fix the polygons or the `min_share` values")]
     Conflict {
@@ -97,7 +105,7 @@ pub enum RunError {
 }
 
 /// Everything the optimiser and the outputs need, derived from a plan.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct Inputs {
     /// The planning grid.
     pub grid: Grid,
@@ -119,6 +127,81 @@ pub struct Inputs {
     pub sampling: Vec<SamplingReport>,
     /// Per scenario: cells whose temperature gradient was below the velocity floor.
     pub velocity_floored: Vec<(String, usize)>,
+}
+
+/// File name of the inputs cache in a `driftplan features` output folder.
+pub const INPUTS_CACHE: &str = "inputs.bin";
+
+/// What the cache says it holds, checked before its inputs are used.
+#[derive(serde::Serialize, serde::Deserialize)]
+struct CacheHeader {
+    format: String,
+    version: u32,
+    driftplan: String,
+    plan_hash: String,
+}
+
+const CACHE_FORMAT: &str = "driftplan-inputs";
+const CACHE_VERSION: u32 = 1;
+
+/// The inputs cache: a header (format, version, driftplan version, the plan file's SHA-256)
+/// and the prepared [`Inputs`] (grid, layers, features), bincode-encoded so every number comes
+/// back bit for bit (NaN included). Study shards read it instead of the plan's files, so 100
+/// shards do not sample the same rasters 100 times.
+pub fn inputs_cache_bytes(plan: &Plan, inputs: &Inputs) -> Result<Vec<u8>, RunError> {
+    let header = CacheHeader {
+        format: CACHE_FORMAT.into(),
+        version: CACHE_VERSION,
+        driftplan: env!("CARGO_PKG_VERSION").into(),
+        plan_hash: plan.hash.clone(),
+    };
+    bincode::serialize(&(header, inputs)).map_err(|e| RunError::Cache {
+        path: INPUTS_CACHE.into(),
+        message: format!("cannot encode the inputs: {e}"),
+    })
+}
+
+/// Reads an inputs cache written by `driftplan features` for `plan`: refused, naming the file,
+/// when it is not a cache, is of another format version or driftplan version, or was made
+/// from another plan (the plan file's SHA-256 differs: rebuild it with `driftplan features`).
+pub fn load_inputs_cache(path: &std::path::Path, plan: &Plan) -> Result<Inputs, RunError> {
+    let err = |message: String| RunError::Cache {
+        path: path.to_path_buf(),
+        message,
+    };
+    let bytes = std::fs::read(path).map_err(|e| err(format!("cannot read it: {e}")))?;
+    let not_cache = || {
+        err(format!(
+            "not an inputs cache (expected the {INPUTS_CACHE} that `driftplan features PLAN --out DIR` writes)"
+        ))
+    };
+    let header: CacheHeader = bincode::deserialize(&bytes).map_err(|_| not_cache())?;
+    if header.format != CACHE_FORMAT {
+        return Err(not_cache());
+    }
+    if header.version != CACHE_VERSION || header.driftplan != env!("CARGO_PKG_VERSION") {
+        return Err(err(format!(
+            "written by driftplan {} (cache format {}), this is {} (format {CACHE_VERSION}); rebuild it with `driftplan features`",
+            header.driftplan,
+            header.version,
+            env!("CARGO_PKG_VERSION")
+        )));
+    }
+    if header.plan_hash != plan.hash {
+        return Err(err(format!(
+            "made from another version of the plan (SHA-256 {}…, {} is now {}…); rebuild it with `driftplan features {} --out DIR`",
+            &header.plan_hash[..header.plan_hash.len().min(12)],
+            plan.file.display(),
+            &plan.hash[..plan.hash.len().min(12)],
+            plan.file.display()
+        )));
+    }
+    let (_, inputs): (CacheHeader, Inputs) = bincode::deserialize(&bytes).map_err(|e| {
+        err(format!(
+            "damaged: {e}; rebuild it with `driftplan features`"
+        ))
+    })?;
+    Ok(inputs)
 }
 
 /// Builds the grid of a plan.

@@ -427,3 +427,84 @@ fn a_real_slurm_cluster_runs_the_sharded_sweep() {
         other => panic!("scripts/slurm-test.sh ended with {other:?}:\n{text}"),
     }
 }
+
+/// A shard that reads the inputs cache `driftplan features` wrote gives the same outputs as one
+/// that reads the plan's files; a cache of another plan, or a file that is no cache, is refused
+/// naming the file.
+#[test]
+fn a_shard_reading_the_inputs_cache_equals_one_reading_the_files() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let plan = plan_with_gap(d, "max_share = 0.4", "objective = \"max-benefit\"", 0.0);
+    let feats = d.join("features");
+    let o = run_quiet(&[
+        os("features"),
+        plan.as_os_str(),
+        os("--out"),
+        feats.as_os_str(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let cache = feats.join("inputs.bin");
+    assert!(cache.is_file());
+    let (from_files, from_cache) = (d.join("files"), d.join("cache"));
+    sweep(&plan, &from_files, &["--shard", "1/2"]);
+    sweep(
+        &plan,
+        &from_cache,
+        &["--shard", "1/2", "--inputs", cache.to_str().unwrap()],
+    );
+    // Shards hold their results in shard.json: the same but for each solve's seconds.
+    fn without_seconds(v: &mut serde_json::Value) {
+        match v {
+            serde_json::Value::Object(m) => {
+                m.remove("seconds");
+                m.values_mut().for_each(without_seconds);
+            }
+            serde_json::Value::Array(a) => a.iter_mut().for_each(without_seconds),
+            _ => {}
+        }
+    }
+    let read = |dir: &Path| {
+        let mut v: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(dir.join("shard.json")).unwrap())
+                .unwrap();
+        without_seconds(&mut v);
+        v
+    };
+    let (a, b) = (read(&from_files), read(&from_cache));
+    assert!(a.to_string().len() > 200, "{a}");
+    assert_eq!(a, b, "the cache changed a shard's results");
+
+    // The plan edited after the cache was made: its hash differs, the cache is refused.
+    let text = std::fs::read_to_string(&plan).unwrap();
+    std::fs::write(&plan, format!("{text}\n# edited\n")).unwrap();
+    let o = run_quiet(&[
+        os("sweep"),
+        plan.as_os_str(),
+        os("--budgets"),
+        os("4%"),
+        os("--inputs"),
+        cache.as_os_str(),
+        os("--out"),
+        d.join("stale").as_os_str(),
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    let e = stderr(&o);
+    assert!(
+        e.contains("inputs.bin") && e.contains("another version of the plan"),
+        "{e}"
+    );
+    // A file that is no cache.
+    let o = run_quiet(&[
+        os("sweep"),
+        plan.as_os_str(),
+        os("--budgets"),
+        os("4%"),
+        os("--inputs"),
+        plan.as_os_str(),
+        os("--out"),
+        d.join("bogus").as_os_str(),
+    ]);
+    let e = stderr(&o);
+    assert!(e.contains("not an inputs cache"), "{e}");
+}

@@ -43,9 +43,14 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         ),
     ];
     export::write_outputs(run.dir(), &files)?;
+    export::write_atomic(
+        &run.dir().join(pipeline::INPUTS_CACHE),
+        &pipeline::inputs_cache_bytes(&plan, &inputs)?,
+    )?;
     run.finish("done")?;
     progress.say(&format!(
-        "wrote cells.geojson, cells.csv and features.csv to {}",
+        "wrote cells.geojson, cells.csv, features.csv and {} (the inputs cache that `sweep` and `irreplaceability` read with --inputs) to {}",
+        pipeline::INPUTS_CACHE,
         args.out.display()
     ));
     Ok(())

@@ -28,6 +28,12 @@ pub(crate) struct Args {
     /// which every shard solves first) and write shard.json; `driftplan merge` joins the parts.
     #[arg(long, value_name = "K/N")]
     pub(crate) shard: Option<String>,
+    /// Read the grid, layers and features from the inputs cache that `driftplan features PLAN
+    /// --out DIR` wrote (DIR/inputs.bin) instead of the plan's files: shards of a study then
+    /// do not each sample the same rasters. The cache must come from this plan file as it is
+    /// now (its SHA-256 is checked).
+    #[arg(long, value_name = "FILE")]
+    pub(crate) inputs: Option<PathBuf>,
 }
 
 pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
@@ -41,7 +47,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     let mut run = export::RunFolder::begin(&a.out, "irreplaceability")?;
     let plan = load_with(&a.plan, &a.solver)?;
     run.set_plan(&plan.file, &plan.hash);
-    let inputs = pipeline::prepare(&plan, &|m| progress.say(m))?;
+    let inputs = super::prepare_or_cached(&plan, a.inputs.as_deref(), progress)?;
     let problem = pipeline::problem(&plan, &inputs);
     let options = solve_options(&plan, &a.solver)?;
     let clock = time::TimeBudget::start(plan.solver.time_limit_s);

@@ -388,6 +388,22 @@ pub(crate) fn stress_assigned(
     Ok(Some(m))
 }
 
+/// The plan's inputs: from the inputs cache when one is given (checked against the plan),
+/// else prepared from the plan's files.
+pub(crate) fn prepare_or_cached(
+    plan: &driftplan::plan::Plan,
+    cache: Option<&Path>,
+    progress: &Progress,
+) -> Result<pipeline::Inputs> {
+    Ok(match cache {
+        Some(path) => {
+            progress.say(&format!("reading the inputs cache {}", path.display()));
+            pipeline::load_inputs_cache(path, plan)?
+        }
+        None => pipeline::prepare(plan, &|m| progress.say(m))?,
+    })
+}
+
 /// The last lines of a command that wrote a report: the caution, then the report to open.
 pub(crate) fn closing_lines(out: &Path) {
     println!("{}", driftplan::export::CAUTION);

@@ -61,6 +61,7 @@ const KNOWN_OUTPUTS: &[&str] = &[
     "grid.geojson",
     "grid.csv",
     "shard.json",
+    "inputs.bin",
 ];
 
 /// Staging folders of runs in progress in this process, for [`abandon_all`]. Also held by

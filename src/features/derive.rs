@@ -32,7 +32,7 @@ use std::collections::BTreeMap;
 
 /// How fast one species' range edges move in one scenario, measured along the leading-edge
 /// axis (latitude unless `[climate.leading-edge]` names a line) with the plan's edge quantiles.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct EdgeShift {
     /// Species name.
     pub species: String,

@@ -12,7 +12,9 @@ pub mod time;
 pub use crate::plan::terms::Target;
 
 /// What kind of thing a feature is.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
+)]
 pub enum FeatureKind {
     /// A species' suitable habitat in one scenario and year (km²).
     Habitat,
@@ -46,7 +48,7 @@ impl FeatureKind {
 }
 
 /// One feature: sparse amounts per cell plus what the network must hold of it.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Feature {
     /// Unique name, e.g. `habitat/silver-bream/ssp2-4.5/2050`.
     pub name: String,
@@ -71,7 +73,7 @@ pub struct Feature {
 }
 
 /// Every feature of a run.
-#[derive(Debug, Clone, PartialEq, Default)]
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize, serde::Deserialize)]
 pub struct FeatureTable {
     /// Scenario names, in plan order.
     pub scenarios: Vec<String>,

@@ -7,7 +7,7 @@
 use geo::MultiPolygon;
 
 /// A projected, equal-area coordinate reference system, as PROJ understands it.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Crs {
     /// A PROJ string (`+proj=laea ...`) or an authority code (`EPSG:3035`).
     pub definition: String,
@@ -39,7 +39,7 @@ pub struct GridSpec {
 }
 
 /// One rook neighbour of a cell and the length of the edge both cells share.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Neighbour {
     /// Neighbouring cell id.
     pub cell: u32,
@@ -48,7 +48,7 @@ pub struct Neighbour {
 }
 
 /// One planning cell: the sea part of one square of the lattice.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Cell {
     /// Column in the lattice (0 = west).
     pub col: u32,
@@ -67,7 +67,7 @@ pub struct Cell {
 }
 
 /// The planning grid. Cell ids are indices into `cells` and into every dense per-cell vector.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
 pub struct Grid {
     /// The projected CRS cells live in.
     pub crs: Crs,

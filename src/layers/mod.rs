@@ -128,7 +128,7 @@ impl LayerSpec {
 /// How one point-lattice layer was sampled: the rule and the number of cells each fallback
 /// served. `check`, the run header and summary.json show these, so a coastal lattice that
 /// fell back to nearest point never does so silently.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct SamplingReport {
     /// Layer name (e.g. `habitat/kelp/ssp2-4.5/2050`, `sst_c/ssp1-2.6/2030`).
     pub layer: String,
@@ -150,7 +150,7 @@ pub struct SamplingReport {
 }
 
 /// Per-cell values of one layer.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Layer {
     /// Layer name as used in outputs (e.g. `cost`, `sst_ssp2-4.5_2050`).
     pub name: String,

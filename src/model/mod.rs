@@ -23,7 +23,7 @@ pub use validate::ModelError;
 pub use zones::{ZoneTarget, Zoning};
 
 /// Whether a cell may, must or must not be chosen.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub enum CellStatus {
     /// The optimiser decides.
     Free,

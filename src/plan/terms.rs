@@ -3,7 +3,7 @@
 //! plan, which owns their meaning, so no stage earlier than `features` depends on `features`.
 
 /// How much of a feature's total the network must hold.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Target {
     /// A share (0–1) of the feature's total amount.
     Share(f64),
