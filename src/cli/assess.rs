@@ -103,6 +103,20 @@ fn assess(
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
     }
+    let links = export::connectivity::connectivity_files(
+        &inputs.grid,
+        &plan.scenarios,
+        &inputs.connectivity,
+        &inputs.features,
+        Some(&selected),
+    );
+    // Only the network's summary: the matrices are the plan's, written by `features`.
+    files.extend(
+        links
+            .iter()
+            .filter(|(n, _)| n == "connectivity.csv")
+            .map(|(n, t)| (n.as_str(), t.clone())),
+    );
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     println!(
