@@ -297,6 +297,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            min_neighbours: None,
             keep_objective: None,
             alternative: None,
             zoning: None,

@@ -668,6 +668,18 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
                 .map(|l| l.iter().map(|n| n.cell).collect())
                 .collect(),
         }),
+        min_neighbours: plan
+            .rules
+            .min_chosen_neighbours
+            .map(|k| crate::model::MinNeighbours {
+                k,
+                neighbours: inputs
+                    .grid
+                    .neighbours
+                    .iter()
+                    .map(|l| l.iter().map(|n| n.cell).collect())
+                    .collect(),
+            }),
     }
 }
 
