@@ -160,6 +160,26 @@ fn matrices_round_trip_and_the_network_columns_recompute() {
             .unwrap();
         assert!(share >= 0.3 - 1e-6, "{share}");
     }
+    // compare: one row per network and scenario, the same retention as solve's.
+    let net_file = out3.join("network.geojson");
+    let out4 = d.join("compare");
+    let r = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(["compare", "--quiet", "--no-stress", "--names", "a,b"])
+        .arg(&solved_plan)
+        .arg(&net_file)
+        .arg(&net_file)
+        .arg("--out")
+        .arg(&out4)
+        .output()
+        .unwrap();
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let cmp = rows(&out4.join("connectivity.csv"));
+    assert_eq!(cmp.len(), 6);
+    assert_eq!(
+        (cmp[0]["network"].as_str(), cmp[3]["network"].as_str()),
+        ("a", "b")
+    );
+    assert_eq!(cmp[0]["network_retention"], net[0]["network_retention"]);
 }
 
 #[test]

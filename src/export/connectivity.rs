@@ -128,6 +128,30 @@ pub fn connectivity_csv(
     csv_text(&CONNECTIVITY_COLUMNS, rows)
 }
 
+/// `connectivity.csv` of `compare`: the network columns for each network given, with its name
+/// in a first column `network`, so networks can be compared on connectivity.
+pub fn compare_connectivity_csv(
+    grid: &Grid,
+    scenarios: &[String],
+    links: &[SpeciesLinks],
+    features: &FeatureTable,
+    networks: &[(String, Vec<bool>)],
+) -> String {
+    let mut header = vec!["network"];
+    header.extend(CONNECTIVITY_COLUMNS);
+    let mut rows = Vec::new();
+    for (name, sel) in networks {
+        let text = connectivity_csv(grid, scenarios, links, features, Some(sel));
+        let mut r = csv::Reader::from_reader(text.as_bytes());
+        for rec in r.records().flatten() {
+            let mut row = vec![name.clone()];
+            row.extend(rec.iter().map(str::to_string));
+            rows.push(row);
+        }
+    }
+    csv_text(&header, rows)
+}
+
 /// Every connectivity file of a run (none without `[connectivity]`): the matrices and
 /// `connectivity.csv`.
 pub fn connectivity_files(
