@@ -75,14 +75,14 @@ impl<'a> Tracker<'a> {
         // Step ends inside the window; a window shorter than a step gets the step end at or
         // after its start.
         let tol = 1e-9 * dt_s;
-        let first = ((from * DAY_S - tol) / dt_s).ceil().max(1.0) as usize;
+        let first = (((from * DAY_S - tol) / dt_s).ceil().max(1.0) as usize).min(steps);
         let last = (((to * DAY_S + tol) / dt_s).floor() as usize).clamp(first, steps);
         Tracker {
             field,
             dt_s,
             steps,
             sigma_m: (2.0 * k * dt_s).sqrt(),
-            settle_steps: first.min(steps)..=last,
+            settle_steps: first..=last,
         }
     }
 
