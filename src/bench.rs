@@ -43,6 +43,8 @@ pub struct BenchSpec {
     pub baselines: bool,
     /// Run HiGHS (off: only the baselines, annealing gets the time limit).
     pub exact: bool,
+    /// Larvae tracked from every cell for a `connectivity` stage (0: no such stage).
+    pub particles_per_cell: u32,
 }
 
 /// Resets the kernel's peak-RSS counter (Linux `clear_refs` value 5), so each stage's peak is
@@ -219,6 +221,63 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                 .collect()
         })
         .collect();
+    if spec.particles_per_cell > 0 {
+        progress("bench: connectivity");
+        // One species, 10 days adrift with K = 10 m²/s in a synthetic gyre (0.3 m/s at the
+        // region's edge, turning about its centre) that runs into the land block.
+        let mid = {
+            let (mut a, mut b) = ([f64::MAX; 2], [f64::MIN; 2]);
+            for c in &grid.cells {
+                for k in 0..2 {
+                    a[k] = a[k].min(c.centre[k]);
+                    b[k] = b[k].max(c.centre[k]);
+                }
+            }
+            (
+                [(a[0] + b[0]) / 2.0, (a[1] + b[1]) / 2.0],
+                (b[0] - a[0]).max(1.0) / 2.0,
+            )
+        };
+        let (c0, half) = mid;
+        let u: Vec<f64> = grid
+            .cells
+            .iter()
+            .map(|c| -0.3 * (c.centre[1] - c0[1]) / half)
+            .collect();
+        let v: Vec<f64> = grid
+            .cells
+            .iter()
+            .map(|c| 0.3 * (c.centre[0] - c0[0]) / half)
+            .collect();
+        let larvae = crate::plan::connectivity::Larvae {
+            larval_days: 10.0,
+            diffusivity_m2_s: 10.0,
+            settle_window_days: (10.0, 10.0),
+        };
+        timed(&mut figures, "connectivity", || {
+            let (m, origin) = crate::connectivity::disperse(
+                crate::connectivity::CurrentField::new(&grid, &u, &v),
+                &larvae,
+                spec.particles_per_cell,
+                1,
+                6.0,
+            );
+            let steps = match origin {
+                crate::connectivity::Origin::Particles { step_s, .. } => {
+                    (10.0 * 86_400.0 / step_s).round()
+                }
+                crate::connectivity::Origin::Supplied(_) => 0.0,
+            };
+            Ok((
+                (),
+                format!(
+                    "{} particles per cell, {steps} RK4 steps, {} links",
+                    spec.particles_per_cell,
+                    m.links()
+                ),
+            ))
+        })?;
+    }
     let velocity = timed(&mut figures, "climate velocity", || {
         let v = crate::climate::velocity::climate_velocity(
             &grid,
@@ -293,6 +352,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            min_neighbours: None,
             keep_objective: None,
             alternative: None,
             zoning: None,

@@ -14,6 +14,7 @@ pub mod assess;
 pub mod bench;
 pub mod climate;
 pub mod compare;
+pub mod connectivity;
 pub mod demo;
 pub mod export;
 pub mod features;

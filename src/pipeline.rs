@@ -127,6 +127,8 @@ pub struct Inputs {
     pub sampling: Vec<SamplingReport>,
     /// Per scenario: cells whose temperature gradient was below the velocity floor.
     pub velocity_floored: Vec<(String, usize)>,
+    /// Dispersal matrices per species and scenario (empty without `[connectivity]`).
+    pub connectivity: Vec<crate::connectivity::SpeciesLinks>,
 }
 
 /// File name of the inputs cache in a `driftplan features` output folder.
@@ -472,8 +474,23 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         edge_shifts = derived.edge_shifts;
         velocity_floored = derived.velocity_floored;
     }
+    let mut connectivity = Vec::new();
+    if let Some(cp) = &plan.connectivity {
+        progress("tracking larvae in the currents (connectivity)");
+        connectivity = dispersal(plan, cp, &grid, &cache)?;
+        if let Some(goal) = &cp.reachability {
+            features.features.extend(reachability_features(
+                plan,
+                &grid,
+                &features,
+                &connectivity,
+                goal,
+            ));
+        }
+    }
     progress(&format!("features: {}", features.features.len()));
     Ok(Inputs {
+        connectivity,
         grid,
         layers,
         cost,
@@ -485,6 +502,124 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
         sampling: cache.sampling_reports(),
         velocity_floored,
     })
+}
+
+/// The dispersal matrix of every `[connectivity]` species in every scenario: particles in the
+/// scenario's currents (sampled once per distinct file and column), or the supplied matrix.
+pub fn dispersal(
+    plan: &Plan,
+    cp: &crate::plan::connectivity::ConnectivityPlan,
+    grid: &Grid,
+    cache: &SourceCache,
+) -> Result<Vec<crate::connectivity::SpeciesLinks>, RunError> {
+    use crate::connectivity::{disperse, species_seed, CurrentField, Origin, SpeciesLinks};
+    use crate::plan::connectivity::DispersalSource;
+    // currents[scenario] = (u, v), m/s per cell.
+    let mut currents: Vec<(Vec<f64>, Vec<f64>)> = Vec::new();
+    if let Some((u, v)) = &cp.currents {
+        for (k, sc) in plan.scenarios.iter().enumerate() {
+            if k > 0 && !u.varies_by_scenario_or_year() && !v.varies_by_scenario_or_year() {
+                currents.push(currents[0].clone());
+                continue;
+            }
+            let read = |t: &crate::plan::LayerTemplate, c: &str| {
+                sample(
+                    &format!("current_{c}/{sc}"),
+                    &t.resolve("", sc, 0),
+                    grid,
+                    cache,
+                )
+            };
+            currents.push((read(u, "u")?.values, read(v, "v")?.values));
+        }
+    }
+    let mut out = Vec::new();
+    for sd in &cp.species {
+        let si = plan
+            .species
+            .iter()
+            .position(|s| s.name == sd.name)
+            .unwrap_or(0);
+        for (k, sc) in plan.scenarios.iter().enumerate() {
+            let (matrix, origin) = match &sd.source {
+                DispersalSource::Particles(larvae) => {
+                    let same_as_first = k > 0 && currents[k] == currents[0];
+                    if same_as_first {
+                        let first: &SpeciesLinks = out
+                            .iter()
+                            .rev()
+                            .find(|l: &&SpeciesLinks| l.species == sd.name && l.scenario == 0)
+                            .expect("scenario 0 comes first");
+                        (first.matrix.clone(), first.origin.clone())
+                    } else {
+                        let (u, v) = &currents[k];
+                        disperse(
+                            CurrentField::new(grid, u, v),
+                            larvae,
+                            cp.particles_per_cell,
+                            species_seed(cp.seed, si),
+                            cp.max_step_hours,
+                        )
+                    }
+                }
+                DispersalSource::Supplied(path) => {
+                    let p = std::path::PathBuf::from(path.replace("{scenario}", sc));
+                    let rows = crate::layers::read_dispersal_matrix(&p, grid.len())?;
+                    (crate::connectivity::Dispersal { rows }, Origin::Supplied(p))
+                }
+            };
+            out.push(SpeciesLinks {
+                species: sd.name.clone(),
+                scenario: k,
+                matrix,
+                origin,
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// One `reachability/<species>/<scenario>` feature per dispersal matrix, from the species'
+/// first-year and last-year habitat (see [`crate::features::reachability`]).
+pub fn reachability_features(
+    plan: &Plan,
+    grid: &Grid,
+    table: &FeatureTable,
+    links: &[crate::connectivity::SpeciesLinks],
+    goal: &crate::plan::climate::Goal,
+) -> Vec<crate::features::Feature> {
+    let (Some(first), Some(last)) = (plan.years.first(), plan.years.last()) else {
+        return Vec::new();
+    };
+    let habitat = |sp: &str, sc: usize, year: i32| {
+        table
+            .features
+            .iter()
+            .find(|f| {
+                f.kind == crate::features::FeatureKind::Habitat
+                    && f.species.as_deref() == Some(sp)
+                    && f.scenario == Some(sc)
+                    && f.year == Some(year)
+            })
+            .map(|f| f.amounts.as_slice())
+            .unwrap_or(&[])
+    };
+    links
+        .iter()
+        .map(|l| {
+            crate::features::reachability::reachability_feature(
+                grid,
+                &l.species,
+                l.scenario,
+                &plan.scenarios[l.scenario],
+                habitat(&l.species, l.scenario, *first),
+                habitat(&l.species, l.scenario, *last),
+                &l.matrix,
+                goal.target(),
+                goal.weight,
+            )
+        })
+        .collect()
 }
 
 /// What a planner should know about how the inputs were read: per group of point-lattice
@@ -624,6 +759,18 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
                 .map(|l| l.iter().map(|n| n.cell).collect())
                 .collect(),
         }),
+        min_neighbours: plan
+            .rules
+            .min_chosen_neighbours
+            .map(|k| crate::model::MinNeighbours {
+                k,
+                neighbours: inputs
+                    .grid
+                    .neighbours
+                    .iter()
+                    .map(|l| l.iter().map(|n| n.cell).collect())
+                    .collect(),
+            }),
     }
 }
 
@@ -1141,6 +1288,7 @@ mod tests {
             edge_shifts: vec![],
             sampling: vec![],
             velocity_floored: vec![],
+            connectivity: vec![],
             grid,
         };
         let maps = derived_feature_maps(&inputs);

@@ -14,6 +14,7 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 pub mod climate;
+pub mod connectivity;
 pub mod reference;
 pub mod terms;
 pub mod zones;
@@ -260,6 +261,9 @@ pub struct SpatialRules {
     /// Minimum reserve size: no lone chosen cell smaller than this (`model::min_size`).
     /// Units: km².
     pub min_reserve_km2: Option<f64>,
+    /// Key `min_chosen_neighbours`: every chosen free cell has at least this many chosen
+    /// rook neighbours (`model::neighbours`); `None`: off.
+    pub min_chosen_neighbours: Option<u32>,
 }
 
 /// A validated plan: every path absolute, every value checked.
@@ -312,6 +316,8 @@ pub struct Plan {
     pub zones: Vec<zones::ZonePlan>,
     /// Derived climate-adaptation features (`[climate]`), if asked for.
     pub climate: Option<climate::ClimatePlan>,
+    /// Larval dispersal and reachability (`[connectivity]`), if asked for.
+    pub connectivity: Option<connectivity::ConnectivityPlan>,
 }
 
 // ---------------------------------------------------------------- raw, as written in TOML
@@ -338,6 +344,7 @@ struct RawPlan {
     optimise: Option<RawOptimise>,
     solver: Option<RawSolver>,
     climate: Option<climate::RawClimate>,
+    connectivity: Option<connectivity::RawConnectivity>,
     #[serde(default)]
     zones: Vec<zones::RawZone>,
     #[serde(flatten)]
@@ -436,6 +443,7 @@ struct RawOptimise {
     count_coast_edges: Option<bool>,
     max_gap_km: Option<f64>,
     min_reserve_km2: Option<f64>,
+    min_chosen_neighbours: Option<i64>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -1193,7 +1201,16 @@ impl Plan {
                         ck.push("optimise.min_reserve_km2", format!("must be a positive area in km², e.g. `min_reserve_km2 = 50`; got {m}"));
                     }
                 }
+                let min_chosen_neighbours = match o.min_chosen_neighbours {
+                    None | Some(0) => None,
+                    Some(k @ 1..=4) => Some(k as u32),
+                    Some(k) => {
+                        ck.push("optimise.min_chosen_neighbours", format!("must be a whole number from 0 to 4 (a square cell has four rook neighbours), e.g. `min_chosen_neighbours = 1`; got {k}"));
+                        None
+                    }
+                };
                 rules = SpatialRules {
+                    min_chosen_neighbours,
                     edge_penalty: o.edge_penalty.filter(|w| *w > 0.0),
                     count_coast_edges: o.count_coast_edges.unwrap_or(false),
                     max_gap_km: o.max_gap_km,
@@ -1283,6 +1300,10 @@ impl Plan {
         });
 
         let zones = zones::check(&mut ck, &raw.zones, &species_names);
+        let connectivity = raw
+            .connectivity
+            .as_ref()
+            .map(|c| connectivity::validate(c, &mut ck, &species_names, &scenarios));
 
         if !ck.issues.is_empty() {
             return Err(fail(ck.issues));
@@ -1310,6 +1331,7 @@ impl Plan {
             rules,
             solver,
             climate,
+            connectivity,
             zones,
         })
     }

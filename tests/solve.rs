@@ -4,8 +4,8 @@
 
 use driftplan::model::compact::unit_grid_penalty;
 use driftplan::model::{
-    evaluate, Budget, CellStatus, EdgePenalty, MinReserve, ModelFeature, Objective, Problem,
-    Robustness, Scenario, Spacing,
+    evaluate, Budget, CellStatus, EdgePenalty, MinNeighbours, MinReserve, ModelFeature, Objective,
+    Problem, Robustness, Scenario, Spacing,
 };
 use driftplan::solve::anneal::Anneal;
 use driftplan::solve::brute::BruteForce;
@@ -55,6 +55,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         spacing: None,
         scenario_best: None,
         min_reserve: None,
+        min_neighbours: None,
         keep_objective: None,
         alternative: None,
         zoning: None,
@@ -586,6 +587,132 @@ fn highs_matches_brute_force_with_min_reserve() {
     }
     assert!(compared >= 10, "only {compared} cases compared");
     assert!(binding >= 3, "the rule changed only {binding} optima");
+}
+
+#[test]
+fn neighbour_rule_by_hand() {
+    // Hand-worked: 1×4 strip, costs [1, 3, 1, 2], the feature in cells 0 and 2 (target 2).
+    // Without the rule {0, 2} (cost 2). With k = 1 every chosen cell needs a chosen neighbour:
+    // {0,1,2} keeps it (0 and 2 lean on 1, 1 on both) at cost 5; {0,1}+{2,3} costs 7; so 5.
+    // With k = 2 the strip's end cells (one neighbour) can never be chosen, so the feature
+    // in cell 0 is out of reach: infeasible.
+    let mut p = base(
+        vec![1.0, 3.0, 1.0, 2.0],
+        vec![feature("f", None, &[1., 0., 1., 0.], 2.0)],
+        1,
+    );
+    p.min_neighbours = Some(MinNeighbours {
+        k: 1,
+        neighbours: rook(1, 4),
+    });
+    assert_eq!(
+        evaluate(&p, &[true, false, true, false]).short_of_neighbours,
+        vec![0, 2]
+    );
+    for s in [&Highs::default() as &dyn Solver, &BruteForce] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert_eq!(ids(&sol.selected), vec![0, 1, 2], "{}", sol.solver);
+        assert!(close(sol.objective, 5.0));
+    }
+    // Heuristics refuse the rule rather than return a network that breaks it.
+    assert!(Greedy.solve(&p, &opts()).is_err());
+    p.min_neighbours = Some(MinNeighbours {
+        k: 2,
+        neighbours: rook(1, 4),
+    });
+    assert!(Highs::default().solve(&p, &opts()).is_err());
+    assert!(BruteForce.solve(&p, &opts()).is_err());
+}
+
+#[test]
+fn highs_matches_brute_force_with_the_neighbour_rule() {
+    // Independent check by enumeration (model::evaluate scores every network), k = 1 and 2 on
+    // a 3×4 grid, both objectives.
+    let mut compared = 0;
+    let mut binding = 0;
+    for seed in 0..3 {
+        let mut full = random_instance(seed);
+        full.edge_penalty = None;
+        full.spacing = None;
+        for objective in [Objective::MinCost, Objective::MaxBenefit] {
+            for k in [1, 2] {
+                let mut p = full.clone();
+                p.objective = objective;
+                p.robustness = Robustness::EveryScenario;
+                if objective == Objective::MinCost {
+                    p.budget = Budget::default();
+                }
+                let plain = BruteForce.solve(&p, &opts());
+                p.min_neighbours = Some(MinNeighbours {
+                    k,
+                    neighbours: rook(3, 4),
+                });
+                let h = Highs::default().solve(&p, &opts());
+                let b = BruteForce.solve(&p, &opts());
+                let what = format!("seed {seed} {objective:?} k {k}");
+                match (&h, &b) {
+                    (Ok(h), Ok(b)) => {
+                        assert!(close(h.objective, b.objective), "{what}");
+                        let e = evaluate(&p, &h.selected);
+                        assert!(e.feasible && e.short_of_neighbours.is_empty(), "{what}");
+                        if plain.is_ok_and(|q| !close(q.objective, b.objective)) {
+                            binding += 1;
+                        }
+                        compared += 1;
+                    }
+                    (Err(_), Err(_)) => {}
+                    _ => panic!("{what}: highs {h:?} brute {b:?}"),
+                }
+            }
+        }
+    }
+    assert!(compared >= 6, "only {compared} cases compared");
+    assert!(binding >= 2, "the rule changed only {binding} optima");
+}
+
+#[test]
+fn reachability_feature_optimum_matches_brute_force_and_hand() {
+    // Three 10 km cells; first-year habitat 100 km² in cells 0 and 1, last-year habitat
+    // 100 km² in cell 2. P[0→2] = 0.6, P[1→2] = 0.3 (hand-made matrix). Reachability amounts
+    // (features::reachability): cell 0 = 1·0.6·100 = 60, cell 1 = 1·0.3·100 = 30, total 90.
+    // A target of 0.5 (45): cell 1 alone holds 30 < 45 and cell 2 holds nothing, so the
+    // cheapest network is {0} at cost 4, although cell 1 costs 1 (hand).
+    use driftplan::connectivity::Dispersal;
+    use driftplan::features::reachability::reachability_feature;
+    use driftplan::features::Target;
+    use driftplan::grid::{Crs, Grid};
+    let g = Grid::full_rectangle(Crs::auto_laea(10.0, 50.0), 10_000.0, [0.0, 0.0], 3, 1).unwrap();
+    let m = Dispersal {
+        rows: vec![vec![(2, 0.6)], vec![(2, 0.3)], vec![]],
+    };
+    let f = reachability_feature(
+        &g,
+        "cod",
+        0,
+        "s1",
+        &[(0, 100.0), (1, 100.0)],
+        &[(2, 100.0)],
+        &m,
+        Target::Share(0.5),
+        1.0,
+    );
+    assert!((f.total - 90.0).abs() < 1e-9);
+    let mut p = base(
+        vec![4.0, 1.0, 1.0],
+        vec![feature(
+            "reach",
+            None,
+            &[f.amounts[0].1, f.amounts[1].1, 0.0],
+            f.target.amount(f.total),
+        )],
+        1,
+    );
+    p.area_km2 = vec![100.0; 3];
+    for s in [&Highs::default() as &dyn Solver, &BruteForce] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert_eq!(ids(&sol.selected), vec![0], "{}", sol.solver);
+        assert!(close(sol.objective, 4.0));
+    }
 }
 
 #[test]

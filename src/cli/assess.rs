@@ -136,6 +136,21 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
     if let Some(s) = &shares {
         files.push(("zones.csv", driftplan::assess::zones::zones_csv(s)));
     }
+
+    let links = export::connectivity::connectivity_files(
+        &inputs.grid,
+        &plan.scenarios,
+        &inputs.connectivity,
+        &inputs.features,
+        Some(selected),
+    );
+    // Only the network's summary: the matrices are the plan's, written by `features`.
+    files.extend(
+        links
+            .iter()
+            .filter(|(n, _)| n == "connectivity.csv")
+            .map(|(n, t)| (n.as_str(), t.clone())),
+    );
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     println!(

@@ -28,6 +28,9 @@ pub(crate) struct Args {
     /// Skip HiGHS: run only the baselines (annealing gets the time limit).
     #[arg(long)]
     no_exact: bool,
+    /// Also time larval dispersal (a `connectivity` stage) with this many particles per cell.
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    particles: u32,
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
@@ -45,6 +48,7 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             edge_penalty: args.edge_penalty,
             baselines: args.baselines,
             exact: !args.no_exact,
+            particles_per_cell: args.particles,
         };
         for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
             println!(

@@ -175,6 +175,18 @@ fn compare(
     if let Some(m) = &matrix {
         files.push(("stress.csv", driftplan::study::stress::stress_csv(m)));
     }
+    if !inputs.connectivity.is_empty() {
+        files.push((
+            "connectivity.csv",
+            export::connectivity::compare_connectivity_csv(
+                &inputs.grid,
+                &plan.scenarios,
+                &inputs.connectivity,
+                &inputs.features,
+                &given,
+            ),
+        ));
+    }
     export::write_outputs(run.dir(), &files)?;
     run.finish("done")?;
     print!("{}", driftplan::compare::compare_table(&cmp));

@@ -42,6 +42,15 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             export::edge_shifts_csv(&inputs.edge_shifts)?,
         ),
     ];
+    let extra = export::connectivity::connectivity_files(
+        &inputs.grid,
+        &plan.scenarios,
+        &inputs.connectivity,
+        &inputs.features,
+        None,
+    );
+    let mut files = files;
+    files.extend(extra.iter().map(|(n, t)| (n.as_str(), t.clone())));
     export::write_outputs(run.dir(), &files)?;
     export::write_atomic(
         &run.dir().join(pipeline::INPUTS_CACHE),

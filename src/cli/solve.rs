@@ -181,6 +181,14 @@ pub(crate) fn solve(
     if let Some(z) = &zone_shares {
         files.push(("zones.csv", driftplan::assess::zones::zones_csv(z)));
     }
+    let links = export::connectivity::connectivity_files(
+        &inputs.grid,
+        &plan.scenarios,
+        &inputs.connectivity,
+        &inputs.features,
+        Some(&solution.selected),
+    );
+    files.extend(links.iter().map(|(n, t)| (n.as_str(), t.clone())));
     export::write_outputs(run.dir(), &files)?;
     let out = run.out().to_path_buf();
     run.finish("done")?;

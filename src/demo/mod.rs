@@ -473,6 +473,18 @@ pub fn generate() -> std::io::Result<Vec<(PathBuf, Vec<u8>)>> {
         PathBuf::from("scenarios").join("demo-climate.toml"),
         climate_plan_toml(),
     ));
+
+    // Connectivity: an invented surface current field and the plan that tracks larvae in it.
+    let mut cur = String::from("lon,lat,u,v\n");
+    for &(lon, lat) in &pts {
+        let (u, v) = current_m_s(lon, lat);
+        let _ = writeln!(cur, "{lon},{lat},{},{}", round(u, 4), round(v, 4));
+    }
+    files.push((data.join("currents.csv"), cur));
+    files.push((
+        PathBuf::from("scenarios").join("demo-connectivity.toml"),
+        connectivity_plan_toml(),
+    ));
     let mut out: Vec<(PathBuf, Vec<u8>)> = files
         .into_iter()
         .map(|(p, t)| (p, t.into_bytes()))
@@ -812,6 +824,63 @@ target = 0.3
 [climate.time]
 weights = "equal"
 "#
+}
+
+/// The demo's invented surface current (u east, v north; m/s): a poleward (southward)
+/// boundary current over the shelf, strongest 30 km offshore, an equatorward counter-current
+/// beyond the shelf break around 130 km out, and gentle cross-shelf meanders.
+fn current_m_s(lon: f64, lat: f64) -> (f64, f64) {
+    let d = offshore_km(lon, lat).max(0.0);
+    let along =
+        -0.35 * (-((d - 30.0) / 25.0).powi(2)).exp() + 0.15 * (-((d - 130.0) / 40.0).powi(2)).exp();
+    let across = 0.04 * (2.0 * PI * (lat - NORTH) / 1.5).sin() * (-d / 80.0).exp();
+    (across, along)
+}
+
+/// The connectivity demo plan: the demo plan with larvae of three species tracked in the
+/// invented currents and a reachability target per species and scenario.
+fn connectivity_plan_toml() -> String {
+    let mut t = plan_toml()
+        .replace(
+            "name = \"merrow-coast-demo\"",
+            "name = \"merrow-coast-connectivity-demo\"",
+        )
+        .replace(
+            "# driftplan demo plan:",
+            "# driftplan connectivity demo plan:",
+        );
+    t.push_str(
+        r#"
+[connectivity]
+# Larvae drift in an invented current: a poleward boundary current over the shelf and an
+# equatorward counter-current offshore (the same field in every scenario).
+u = { path = "../demo-data/currents.csv", column = "u" }
+v = { path = "../demo-data/currents.csv", column = "v" }
+particles_per_cell = 20
+seed = 7
+reachability_target = 0.3   # 30% of each species' settler-weighted reach of its 2090 habitat
+
+[[connectivity.species]]
+name = "amber-wrasse"
+larval_days = 25
+diffusivity_m2_s = 10
+settle_from_day = 20
+settle_to_day = 25
+
+[[connectivity.species]]
+name = "emerald-urchin"
+larval_days = 40
+diffusivity_m2_s = 10
+
+[[connectivity.species]]
+name = "jade-rock-lobster"
+larval_days = 60
+diffusivity_m2_s = 20
+settle_from_day = 45
+settle_to_day = 60
+"#,
+    );
+    t
 }
 
 /// The demo plan file (lives in `scenarios/`, so data paths start with `../demo-data/`).

@@ -6,6 +6,7 @@
 
 pub mod atomic;
 mod columns;
+pub mod connectivity;
 pub(crate) mod dissolve;
 mod features_table;
 pub mod geojson;

@@ -7,6 +7,7 @@ pub mod corridor;
 pub mod derive;
 pub mod distinctness;
 pub mod edges;
+pub mod reachability;
 pub mod time;
 
 pub use crate::plan::terms::Target;
@@ -30,6 +31,8 @@ pub enum FeatureKind {
     Boundary,
     /// Genetically distinct population.
     Distinctness,
+    /// Future habitat reached by larvae from present habitat (`features::reachability`).
+    Reachability,
 }
 
 impl FeatureKind {
@@ -43,6 +46,7 @@ impl FeatureKind {
             FeatureKind::Refugium => "refugium",
             FeatureKind::Boundary => "boundary",
             FeatureKind::Distinctness => "distinctness",
+            FeatureKind::Reachability => "reachability",
         }
     }
 }

@@ -65,6 +65,9 @@ pub struct Evaluation {
     pub gap: Option<GapReport>,
     /// Chosen cells that break the minimum-size rule (lone and too small), ascending.
     pub lone_cells: Vec<u32>,
+    /// Chosen free cells with fewer chosen rook neighbours than the neighbour rule asks,
+    /// ascending.
+    pub short_of_neighbours: Vec<u32>,
     /// Cost and area within the budget.
     pub within_budget: bool,
     /// Every required cell chosen and no excluded cell chosen.
@@ -235,6 +238,10 @@ fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>
     let lone_cells = problem.min_reserve.as_ref().map_or_else(Vec::new, |m| {
         m.lone_cells(&problem.status, &problem.area_km2, selected)
     });
+    let short_of_neighbours = problem
+        .min_neighbours
+        .as_ref()
+        .map_or_else(Vec::new, |m| m.short_cells(&problem.status, selected));
     // An absent feature's target is zero, so it binds nothing (it is not reached either).
     let all_reached = reached.iter().zip(&absent).all(|(m, a)| *m || *a);
     let first = match problem.objective {
@@ -263,6 +270,7 @@ fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>
         && within_budget
         && gap.as_ref().is_none_or(|g| g.reached)
         && lone_cells.is_empty()
+        && short_of_neighbours.is_empty()
         && (problem.objective == Objective::MaxBenefit || all_reached)
         && keeps
         && zones_allowed
@@ -287,6 +295,7 @@ fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>
         exposed_edge_km: exposed,
         gap,
         lone_cells,
+        short_of_neighbours,
         within_budget,
         status_respected,
         zone_targets_reached,
@@ -335,6 +344,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            min_neighbours: None,
             keep_objective: None,
             alternative: None,
             zoning: None,

@@ -10,6 +10,7 @@ pub mod alternative;
 pub mod compact;
 pub mod evaluate;
 pub mod min_size;
+pub mod neighbours;
 pub mod robust;
 pub mod spacing;
 mod validate;
@@ -18,6 +19,7 @@ pub mod zones;
 pub use alternative::Alternative;
 pub use evaluate::{evaluate, evaluate_zoned, Evaluation, ScenarioResult};
 pub use min_size::MinReserve;
+pub use neighbours::MinNeighbours;
 pub use spacing::Spacing;
 pub use validate::ModelError;
 pub use zones::{ZoneTarget, Zoning};
@@ -137,6 +139,8 @@ pub struct Problem {
     pub spacing: Option<Spacing>,
     /// Optional minimum reserve size (no lone cell below the area; [`min_size`]).
     pub min_reserve: Option<MinReserve>,
+    /// Neighbour rule: chosen free cells need k chosen rook neighbours (`model::neighbours`).
+    pub min_neighbours: Option<MinNeighbours>,
     /// Best benefit each scenario can reach on its own under the same budget and rules (Bₛ*),
     /// needed by [`Robustness::LeastRegret`] and to report regret. `None`: the solver computes it
     /// first (see `solve::with_scenario_best`). Units: weighted targets (see [`robust`]).
@@ -208,6 +212,7 @@ impl Problem {
             edge_penalty: None,
             spacing: None,
             min_reserve: None,
+            min_neighbours: None,
             scenario_best: None,
             keep_objective: None,
             alternative: None,

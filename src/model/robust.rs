@@ -221,6 +221,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            min_neighbours: None,
             keep_objective: None,
             alternative: None,
             zoning: None,

@@ -72,6 +72,8 @@ pub const SECTIONS: &[(&str, &str)] = &[
     ("climate.boundary", "`[climate.boundary]`: bands around biogeographic boundaries (fronts)."),
     ("climate.distinctness", "`[climate.distinctness]`: genetically distinct populations, from sample points or a layer."),
     ("climate.time", "`[climate.time]`: how the years are weighed against each other."),
+    ("connectivity", "`[connectivity]`: larvae tracked in ocean currents give each species a dispersal matrix per scenario (docs/method.md), and a reachability feature per species and scenario."),
+    ("connectivity.species[]", "`[[connectivity.species]]`: one table per species tracked (repeat the table); a species of the plan by name."),
     ("zones[]", "`[[zones]]`: management zones, strictest first; each chosen cell takes one."),
 ];
 
@@ -95,6 +97,7 @@ pub const KEYS: &[KeyDoc] = &[
     k("", "optimise", "table", "min-cost, every-scenario", "", "", "[optimise]", "See `[optimise]`."),
     k("", "solver", "table", "gap 0.5%, 300 s", "", "", "[solver]", "See `[solver]`."),
     k("", "climate", "table", "no derived features", "", "", "[climate.refugium]", "See `[climate]`."),
+    k("", "connectivity", "table", "no dispersal", "", "", "[connectivity]", "See `[connectivity]`."),
     k("", "zones", "array of tables", "no zones", "", "", "[[zones]]", "See `[[zones]]`."),
     // grid
     k("grid", "cell_size_km", "number", "required", "> 0", "km", "cell_size_km = 5", "Side of each square equal-area cell."),
@@ -145,6 +148,7 @@ pub const KEYS: &[KeyDoc] = &[
     k("optimise", "count_coast_edges", "boolean", "false", "true, false", "", "count_coast_edges = true", "Count reserve edge along the coast and the region's boundary as exposed too."),
     k("optimise", "max_gap_km", "number", "no rule", "> 0", "km", "max_gap_km = 100", "Stepping stones: the largest distance allowed between neighbouring reserves along the poleward axis."),
     k("optimise", "min_reserve_km2", "number", "no rule", "> 0", "km²", "min_reserve_km2 = 50", "A free cell smaller than this may be chosen only with a chosen rook neighbour (no lone undersized cells; required cells exempt)."),
+    k("optimise", "min_chosen_neighbours", "integer", "no rule", "0–4", "cells", "min_chosen_neighbours = 1", "Every chosen free cell has at least this many chosen rook neighbours (required cells exempt, and counted as neighbours)."),
     // solver
     k("solver", "time_limit_s", "number", "300", "> 0", "s", "time_limit_s = 120", "Time for all the solves of one command together; the best network found is returned with its proven gap."),
     k("solver", "gap", "number", "0.005", "0–1", "share", "gap = 0.005", "Stop when the network is proven within this relative distance of the optimum."),
@@ -210,6 +214,21 @@ pub const KEYS: &[KeyDoc] = &[
     k("climate.time", "weights", "string", "\"equal\"", "equal, discount", "", "weights = \"discount\"", "How the years count in max-benefit objectives."),
     k("climate.time", "discount_rate", "number", "required with discount", "≥ 0", "per year", "discount_rate = 0.03", "Each year counts ∝ (1 + rate)^−(year − first year), normalised to sum to one."),
     k("climate.time", "combine_years", "boolean", "false", "true, false", "", "combine_years = true", "One time-weighted feature per species and scenario instead of one target per year; without it the time weights scale each year's objective weight."),
+    // connectivity
+    k("connectivity", "u", "layer table", "required unless every species gives `matrix`", "CSV lattice", "m/s", "u = { path = \"currents-{scenario}.csv\", column = \"u\" }", "Eastward surface current; `{scenario}` for one field per scenario, else shared."),
+    k("connectivity", "v", "layer table", "required with `u`", "CSV lattice", "m/s", "v = { path = \"currents-{scenario}.csv\", column = \"v\" }", "Northward surface current."),
+    k("connectivity", "particles_per_cell", "integer", "100", "1–100000", "", "particles_per_cell = 100", "Larvae released uniformly over each sea cell."),
+    k("connectivity", "seed", "integer", "1", "≥ 0", "", "seed = 7", "Seed of the random walk; results do not depend on the thread count."),
+    k("connectivity", "step_hours", "number", "6", "> 0", "h", "step_hours = 3", "Largest RK4 step, shortened so a particle moves at most half a cell per step."),
+    k("connectivity", "reachability_target", "number", "none", "0–1", "share", "reachability_target = 0.3", "Target of a `reachability/<species>/<scenario>` feature: last-year habitat reached by larvae from first-year habitat."),
+    k("connectivity", "reachability_weight", "number", "1", "≥ 0", "", "reachability_weight = 1", "Weight of the reachability features in max-benefit objectives."),
+    k("connectivity", "species", "array of tables", "required", "", "", "[[connectivity.species]]", "See `[[connectivity.species]]`."),
+    k("connectivity.species[]", "name", "string", "required", "a species of the plan", "", "name = \"amber-wrasse\"", "The species tracked."),
+    k("connectivity.species[]", "larval_days", "number", "required unless `matrix`", "> 0", "days", "larval_days = 30", "Pelagic larval duration."),
+    k("connectivity.species[]", "diffusivity_m2_s", "number", "0", "≥ 0", "m²/s", "diffusivity_m2_s = 10", "Horizontal eddy diffusivity of the random walk (step √(2·K·dt) per axis)."),
+    k("connectivity.species[]", "settle_from_day", "number", "the last day", "0–larval_days", "days", "settle_from_day = 25", "Start of the settlement window."),
+    k("connectivity.species[]", "settle_to_day", "number", "larval_days", "settle_from_day–larval_days", "days", "settle_to_day = 30", "End of the settlement window."),
+    k("connectivity.species[]", "matrix", "path", "tracked", "CSV `from,to,probability`", "", "matrix = \"links-{scenario}.csv\"", "A dispersal matrix supplied instead of tracking (cell ids of this plan's grid)."),
     // zones
     k("zones[]", "name", "string", "required", "letters, digits, `-`, `_`, `.`; distinct", "", "name = \"no-take\"", "The zone; the cells' `zone` column numbers zones in this order from 1."),
     k("zones[]", "cost_share", "number", "1", "0–1", "share", "cost_share = 0.4", "Share of a cell's cost paid when it is in this zone."),

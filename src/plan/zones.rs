@@ -59,7 +59,7 @@ impl ZonePlan {
 }
 
 /// The feature kinds a credit may name.
-pub const KINDS: [&str; 7] = [
+pub const KINDS: [&str; 8] = [
     "habitat",
     "corridor",
     "leading-edge",
@@ -67,6 +67,7 @@ pub const KINDS: [&str; 7] = [
     "refugium",
     "boundary",
     "distinctness",
+    "reachability",
 ];
 
 #[derive(Deserialize)]

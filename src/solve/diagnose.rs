@@ -233,6 +233,7 @@ pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diag
                 edge_penalty: None,
                 spacing: None,
                 min_reserve: None,
+                min_neighbours: None,
                 scenario_best: None,
                 ..problem.clone()
             };
@@ -406,6 +407,7 @@ mod tests {
             spacing: None,
             scenario_best: None,
             min_reserve: None,
+            min_neighbours: None,
             keep_objective: None,
             alternative: None,
             zoning: None,

@@ -317,6 +317,20 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         }
     }
 
+    // Neighbour rule (model::neighbours): Σ_{j∈N(i)} xⱼ − k·xᵢ ≥ 0 for each free cell.
+    if let Some(mn) = &problem.min_neighbours {
+        for (i, &xi) in x.iter().enumerate() {
+            if problem.status[i] == CellStatus::Free {
+                let mut e = Expression::from(0.0);
+                for &j in &mn.neighbours[i] {
+                    e.add_mul(1.0, x[j as usize]);
+                }
+                e.add_mul(-(mn.k as f64), xi);
+                constraints.push(constraint::geq(e, 0.0));
+            }
+        }
+    }
+
     // Lexicographic second stage: the first objective becomes a row, cost the objective.
     let (objective, minimise) = match problem.keep_objective {
         None => (objective, minimise),

@@ -214,6 +214,12 @@ pub(crate) fn exact_only(problem: &Problem, solver: &str) -> Result<(), SolveErr
             "`{solver}` does not assign zones; use the exact solver (HiGHS) or brute force"
         ))));
     }
+    if problem.min_neighbours.is_some() {
+        return Err(SolveError::Model(ModelError::Combination(format!(
+            "`{solver}` does not keep the neighbour rule (`min_chosen_neighbours`); use the \
+             exact solver (HiGHS) or brute force"
+        ))));
+    }
     match problem.keep_objective {
         None => Ok(()),
         Some(_) => Err(SolveError::Model(ModelError::Combination(format!(

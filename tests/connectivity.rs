@@ -1,0 +1,216 @@
+//! Connectivity end to end through the command line, on the demo at a 20 km grid: the matrices
+//! `features` writes read back as a supplied matrix with the same summary; `solve` with a
+//! reachability target and the neighbour rule writes `connectivity.csv` whose network columns
+//! are recomputed here from the written matrix and cells.csv (independent of the library's
+//! own summary code path); a broken `[connectivity]` section lists every problem.
+
+mod common;
+
+use common::plan_with;
+use std::collections::BTreeMap;
+use std::path::Path;
+use std::process::Command;
+
+fn run(args: &[&str], plan: &Path, out: &Path) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(args)
+        .arg(plan)
+        .arg("--out")
+        .arg(out)
+        .output()
+        .unwrap()
+}
+
+fn rows(path: &Path) -> Vec<BTreeMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let h: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+    r.records()
+        .map(|rec| {
+            let rec = rec.unwrap();
+            h.iter()
+                .cloned()
+                .zip(rec.iter().map(str::to_string))
+                .collect()
+        })
+        .collect()
+}
+
+const SECTION: &str = r#"
+[connectivity]
+u = { path = "../demo-data/currents.csv", column = "u" }
+v = { path = "../demo-data/currents.csv", column = "v" }
+particles_per_cell = 10
+seed = 3
+"#;
+
+fn with_section(base: &Path, extra: &str, name: &str) -> std::path::PathBuf {
+    let text = std::fs::read_to_string(base).unwrap() + extra;
+    let p = base.with_file_name(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+#[test]
+fn matrices_round_trip_and_the_network_columns_recompute() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let base = plan_with(d, "max_share = 0.5", "objective = \"min-cost\"");
+    let tracked = with_section(
+        &base,
+        &format!(
+            "{SECTION}\n[[connectivity.species]]\nname = \"amber-wrasse\"\nlarval_days = 20\ndiffusivity_m2_s = 10\n"
+        ),
+        "tracked.toml",
+    );
+    let out = d.join("features");
+    let r = run(&["features", "--quiet"], &tracked, &out);
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let matrix = out.join("connectivity-amber-wrasse-ssp1-2.6.csv");
+    let links = rows(&matrix);
+    assert!(!links.is_empty());
+    // Rows are probabilities (each row ≤ 1).
+    let mut sums: BTreeMap<u32, f64> = BTreeMap::new();
+    for l in &links {
+        *sums.entry(l["from"].parse().unwrap()).or_default() +=
+            l["probability"].parse::<f64>().unwrap();
+    }
+    assert!(sums.values().all(|s| *s <= 1.0 + 1e-9));
+    let computed = rows(&out.join("connectivity.csv"));
+    assert_eq!(computed.len(), 3, "one row per scenario");
+    assert_eq!(computed[0]["source"], "particles");
+
+    // The written matrix, supplied back for another species, gives the same summary.
+    let supplied = with_section(
+        &base,
+        &format!(
+            "{SECTION}\n[[connectivity.species]]\nname = \"banded-kelpfish\"\nmatrix = \"{}\"\n",
+            matrix.display()
+        ),
+        "supplied.toml",
+    );
+    let out2 = d.join("supplied");
+    let r = run(&["features", "--quiet"], &supplied, &out2);
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let given = rows(&out2.join("connectivity.csv"));
+    for k in [
+        "links",
+        "settled_share",
+        "mean_km",
+        "median_km",
+        "p90_km",
+        "mean_bearing_deg",
+    ] {
+        assert_eq!(given[0][k], computed[0][k], "{k}");
+    }
+
+    // Solve with a reachability target and the neighbour rule.
+    let solved_plan = with_section(&tracked, "reachability_target = 0.3\n", "solved.toml");
+    // `reachability_target` belongs in [connectivity]: put it right after the section header.
+    let text = std::fs::read_to_string(&solved_plan)
+        .unwrap()
+        .replace("reachability_target = 0.3\n", "")
+        .replace("seed = 3\n", "seed = 3\nreachability_target = 0.3\n")
+        .replace(
+            "objective = \"min-cost\"",
+            "objective = \"min-cost\"\nmin_chosen_neighbours = 1",
+        );
+    std::fs::write(&solved_plan, text).unwrap();
+    let out3 = d.join("solve");
+    let r = run(&["solve", "--quiet", "--no-stress"], &solved_plan, &out3);
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let cells = rows(&out3.join("cells.csv"));
+    let selected: BTreeMap<u32, bool> = cells
+        .iter()
+        .map(|c| {
+            (
+                c["cell"].parse().unwrap(),
+                c["selected"] == "1" || c["selected"] == "true",
+            )
+        })
+        .collect();
+    assert!(selected.values().any(|s| *s));
+    // Retention by hand from the written matrix: Σ_{i,j∈R} P / |R|.
+    let net = rows(&out3.join("connectivity.csv"));
+    let m = rows(&out3.join("connectivity-amber-wrasse-ssp1-2.6.csv"));
+    let n_sel = selected.values().filter(|s| **s).count() as f64;
+    let kept: f64 = m
+        .iter()
+        .filter(|l| selected[&l["from"].parse().unwrap()] && selected[&l["to"].parse().unwrap()])
+        .map(|l| l["probability"].parse::<f64>().unwrap())
+        .sum();
+    let got: f64 = net[0]["network_retention"].parse().unwrap();
+    assert!(
+        (got - kept / n_sel).abs() < 1e-5,
+        "{got} vs {}",
+        kept / n_sel
+    );
+    // The reachability target is reached in every scenario (coverage.csv).
+    let cov = rows(&out3.join("coverage.csv"));
+    let reach: Vec<_> = cov
+        .iter()
+        .filter(|c| c["feature"].starts_with("reachability/"))
+        .collect();
+    assert_eq!(reach.len(), 3);
+    for c in reach {
+        let share: f64 = net
+            .iter()
+            .find(|n| c["feature"].ends_with(&n["scenario"]))
+            .unwrap()["reachability_protected_share"]
+            .parse()
+            .unwrap();
+        assert!(share >= 0.3 - 1e-6, "{share}");
+    }
+    // compare: one row per network and scenario, the same retention as solve's.
+    let net_file = out3.join("network.geojson");
+    let out4 = d.join("compare");
+    let r = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(["compare", "--quiet", "--no-stress", "--names", "a,b"])
+        .arg(&solved_plan)
+        .arg(&net_file)
+        .arg(&net_file)
+        .arg("--out")
+        .arg(&out4)
+        .output()
+        .unwrap();
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let cmp = rows(&out4.join("connectivity.csv"));
+    assert_eq!(cmp.len(), 6);
+    assert_eq!(
+        (cmp[0]["network"].as_str(), cmp[3]["network"].as_str()),
+        ("a", "b")
+    );
+    assert_eq!(cmp[0]["network_retention"], net[0]["network_retention"]);
+}
+
+#[test]
+fn a_broken_connectivity_section_lists_every_problem() {
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let base = plan_with(d, "max_share = 0.5", "objective = \"min-cost\"");
+    let bad = with_section(
+        &base,
+        "\n[connectivity]\nparticles_per_cell = 0\nspeed = 2\n\n[[connectivity.species]]\nname = \"no-such-fish\"\n\n[[connectivity.species]]\nname = \"amber-wrasse\"\nlarval_days = 10\nsettle_from_day = 12\n",
+        "bad.toml",
+    );
+    let r = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .args(["check"])
+        .arg(&bad)
+        .output()
+        .unwrap();
+    assert!(!r.status.success());
+    let err = String::from_utf8_lossy(&r.stderr);
+    for key in [
+        "connectivity.particles_per_cell",
+        "connectivity.speed",
+        "connectivity.species[0].name",
+        "connectivity.species[0].larval_days",
+        "connectivity.species[1].settle_from_day",
+        "connectivity.u",
+        "connectivity.v",
+    ] {
+        assert!(
+            err.contains(&format!("`{key}`")),
+            "{key} missing in:\n{err}"
+        );
+    }
+}
