@@ -349,6 +349,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             edge_penalty: spec
                 .edge_penalty
                 .map(|w| crate::pipeline::edge_penalty(&grid, w, false)),
+            link_reward: None,
             spacing: None,
             scenario_best: None,
             min_reserve: None,

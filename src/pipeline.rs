@@ -737,6 +737,14 @@ pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
             .rules
             .edge_penalty
             .map(|w| edge_penalty(&inputs.grid, w, plan.rules.count_coast_edges)),
+        link_reward: plan.rules.connectivity.map(|rule| {
+            crate::connectivity::link_reward(
+                &inputs.connectivity,
+                &plan.scenario_weights,
+                inputs.grid.len(),
+                &rule,
+            )
+        }),
         spacing: plan.rules.max_gap_km.map(|g| Spacing {
             position_km: inputs
                 .grid
@@ -1147,6 +1155,11 @@ pub fn report_html_zoned(
         }),
         basemap,
         arrows,
+        reserve_links: crate::assess::connectivity::reserve_links(
+            &inputs.connectivity,
+            &plan.scenario_weights,
+            &crate::assess::reserve_of_cells(assessment, inputs.grid.len()),
+        ),
     })
 }
 

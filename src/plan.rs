@@ -248,6 +248,63 @@ fn trim_number(x: f64) -> String {
     s.to_string()
 }
 
+/// Default of `connectivity_min_link`: one larva in a hundred (the resolution of 100
+/// particles per cell; weaker links are mostly sampling noise; common practice, no source).
+pub const DEFAULT_MIN_LINK: f64 = 0.01;
+
+/// Default of `connectivity_links_per_cell`: a cell's four strongest links (as many as its
+/// rook neighbours; keeps the model to a few variables per cell).
+pub const DEFAULT_LINKS_PER_CELL: usize = 4;
+
+/// The connectivity reward keys of `[optimise]`, checked; `None` when the weight is absent or 0.
+fn link_rule(
+    ck: &mut Checker,
+    o: &RawOptimise,
+    has_connectivity: bool,
+) -> Option<crate::connectivity::LinkRule> {
+    let w = o.connectivity_weight?;
+    if !(w.is_finite() && w >= 0.0) {
+        ck.push(
+            "optimise.connectivity_weight",
+            format!("must be a non-negative weight per unit of larval exchange, e.g. `connectivity_weight = 10`; got {w}"),
+        );
+        return None;
+    }
+    if w == 0.0 {
+        return None;
+    }
+    if !has_connectivity {
+        ck.push(
+            "optimise.connectivity_weight",
+            "needs a `[connectivity]` section (currents and larval traits, or supplied matrices) to say which cells exchange larvae",
+        );
+        return None;
+    }
+    let min_link = o.connectivity_min_link.unwrap_or(DEFAULT_MIN_LINK);
+    if !(min_link.is_finite() && min_link >= 0.0) {
+        ck.push(
+            "optimise.connectivity_min_link",
+            format!("must be a non-negative link strength (share of larvae), e.g. `connectivity_min_link = 0.01`; got {min_link}"),
+        );
+    }
+    let per_cell = match o.connectivity_links_per_cell {
+        None => DEFAULT_LINKS_PER_CELL,
+        Some(k @ 1..=64) => k as usize,
+        Some(k) => {
+            ck.push(
+                "optimise.connectivity_links_per_cell",
+                format!("must be a whole number from 1 to 64, e.g. `connectivity_links_per_cell = 4`; got {k}"),
+            );
+            DEFAULT_LINKS_PER_CELL
+        }
+    };
+    Some(crate::connectivity::LinkRule {
+        weight: w,
+        min_link,
+        per_cell,
+    })
+}
+
 /// Spatial rules of the optimisation (`[optimise]` keys beyond objective and robustness).
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct SpatialRules {
@@ -264,6 +321,9 @@ pub struct SpatialRules {
     /// Key `min_chosen_neighbours`: every chosen free cell has at least this many chosen
     /// rook neighbours (`model::neighbours`); `None`: off.
     pub min_chosen_neighbours: Option<u32>,
+    /// Keys `connectivity_weight`, `connectivity_min_link`, `connectivity_links_per_cell`:
+    /// reward larval exchange between chosen cells (`model::links`); `None`: off.
+    pub connectivity: Option<crate::connectivity::LinkRule>,
 }
 
 /// A validated plan: every path absolute, every value checked.
@@ -444,6 +504,9 @@ struct RawOptimise {
     max_gap_km: Option<f64>,
     min_reserve_km2: Option<f64>,
     min_chosen_neighbours: Option<i64>,
+    connectivity_weight: Option<f64>,
+    connectivity_min_link: Option<f64>,
+    connectivity_links_per_cell: Option<i64>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -1209,7 +1272,9 @@ impl Plan {
                         None
                     }
                 };
+                let connectivity = link_rule(&mut ck, o, raw.connectivity.is_some());
                 rules = SpatialRules {
+                    connectivity,
                     min_chosen_neighbours,
                     edge_penalty: o.edge_penalty.filter(|w| *w > 0.0),
                     count_coast_edges: o.count_coast_edges.unwrap_or(false),

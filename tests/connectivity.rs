@@ -214,3 +214,109 @@ fn a_broken_connectivity_section_lists_every_problem() {
         );
     }
 }
+
+/// `summary.json` of a run, parsed.
+fn summary(out: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap()
+}
+
+#[test]
+fn the_connectivity_reward_holds_what_the_matrices_say_and_is_mapped() {
+    // With every link kept (min_link 0, 64 per cell), the strength a network holds is, by the
+    // formula in connectivity::pairs, Σₛ πₛ Σ_{i∈R} Σ_{j∈R, j≠i} Pₛ[i→j] (both directions of
+    // each pair; larvae settling where released link nothing). Recomputed here from the written matrices and cells.csv
+    // (equal scenario weights: πₛ = 1/3), it must equal summary.json's `linked`.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let base = plan_with(d, "max_share = 0.5", "objective = \"min-cost\"");
+    let section = format!(
+        "{SECTION}\n[[connectivity.species]]\nname = \"amber-wrasse\"\nlarval_days = 20\ndiffusivity_m2_s = 10\n"
+    );
+    let plain = with_section(&base, &section, "plain.toml");
+    let rewarded = with_section(&base, &section, "rewarded.toml");
+    let text = std::fs::read_to_string(&rewarded).unwrap().replace(
+        "objective = \"min-cost\"",
+        "objective = \"min-cost\"\nconnectivity_weight = 1000\nconnectivity_min_link = 0\nconnectivity_links_per_cell = 64",
+    );
+    // A 1 % gap keeps the solve to seconds (the reward's rows weaken the LP bound).
+    let text = text.replace("gap = 0\n", "gap = 0.01\n");
+    std::fs::write(&rewarded, text).unwrap();
+    let out0 = d.join("plain");
+    let r = run(&["solve", "--quiet", "--no-stress"], &plain, &out0);
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let out = d.join("rewarded");
+    let r = run(&["solve", "--no-stress"], &rewarded, &out);
+    assert!(r.status.success(), "{}", String::from_utf8_lossy(&r.stderr));
+    let stdout = String::from_utf8_lossy(&r.stdout);
+    assert!(
+        stdout.contains("kept; the network holds link strength"),
+        "{stdout}"
+    );
+    assert!(
+        stdout.contains("  larvae      amber-wrasse: keeps"),
+        "{stdout}"
+    );
+    let selected: Vec<bool> = rows(&out.join("cells.csv"))
+        .iter()
+        .map(|c| c["selected"] == "1" || c["selected"] == "true")
+        .collect();
+    let mut held = 0.0;
+    for sc in ["ssp1-2.6", "ssp2-4.5", "ssp5-8.5"] {
+        for l in rows(&out.join(format!("connectivity-amber-wrasse-{sc}.csv"))) {
+            let (i, j): (usize, usize) = (l["from"].parse().unwrap(), l["to"].parse().unwrap());
+            if i != j && selected[i] && selected[j] {
+                held += l["probability"].parse::<f64>().unwrap() / 3.0;
+            }
+        }
+    }
+    let s = summary(&out);
+    let reward = &s["connectivity_reward"];
+    let linked = reward["linked"].as_f64().unwrap();
+    assert!(
+        (linked - held).abs() < 1e-6 * held.max(1.0),
+        "{linked} vs {held}"
+    );
+    assert_eq!(reward["weight"].as_f64(), Some(1000.0));
+    // The objective is the cost less the reward (model::links), as summary.json reports both.
+    let cost = s["cost"].as_f64().unwrap();
+    let objective = s["objective"].as_f64().unwrap();
+    assert!(
+        (objective - (cost - 1000.0 * linked)).abs() < 1e-6 * cost,
+        "{objective} vs {cost} − 1000·{linked}"
+    );
+    // Per species and scenario: the network's connectivity, as in connectivity.csv.
+    let per = s["connectivity"].as_array().unwrap();
+    assert_eq!(per.len(), 3);
+    let csv = rows(&out.join("connectivity.csv"));
+    let retention: f64 = csv[0]["network_retention"].parse().unwrap();
+    assert!((per[0]["retention"].as_f64().unwrap() - retention).abs() < 1e-6);
+    // The plain run has no reward; with it, the network holds more exchange.
+    let s0 = summary(&out0);
+    assert!(s0.get("connectivity_reward").is_none());
+    // The report maps the links when the network has two reserves or more.
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    if s["reserves"].as_u64().unwrap() >= 2 {
+        assert!(html.contains("Larval links between reserves"));
+    }
+}
+
+#[test]
+fn a_connectivity_weight_without_a_connectivity_section_is_refused() {
+    let tmp = tempfile::tempdir().unwrap();
+    let plan = plan_with(
+        tmp.path(),
+        "max_share = 0.5",
+        "objective = \"min-cost\"\nconnectivity_weight = 5\nconnectivity_links_per_cell = 0",
+    );
+    let r = Command::new(env!("CARGO_BIN_EXE_driftplan"))
+        .arg("check")
+        .arg(&plan)
+        .output()
+        .unwrap();
+    assert!(!r.status.success());
+    let err = String::from_utf8_lossy(&r.stderr);
+    assert!(
+        err.contains("`optimise.connectivity_weight`") && err.contains("[connectivity]"),
+        "{err}"
+    );
+}

@@ -2,6 +2,7 @@
 //! `geojson` crate and compared with the SVG paths, and the page rendered by headless Chromium
 //! (console free of errors, screenshot decoded by the `png` crate and not blank).
 
+use driftplan::assess::connectivity::ReserveLink;
 use driftplan::assess::{assess, Assessment};
 use driftplan::export::{network_geojson, write_outputs};
 use driftplan::features::{Feature, FeatureKind, FeatureTable, Target};
@@ -150,7 +151,7 @@ fn render_zoned(
         benefit: b,
     };
     report_html(&ReportInput {
-        title: "North <Sea> & Skagerrak",
+        title: "Merrow <Sound> & Skerrin",
         facts: vec![
             ("plan hash".into(), "3f2a…".into()),
             ("solver".into(), "HiGHS".into()),
@@ -223,8 +224,21 @@ fn render_zoned(
         basemap: Some(Basemap::build(g, Some(&land_lonlat(g))).unwrap()),
         // Velocity pointing due north in grid axes everywhere.
         arrows: vec![("velocity (km/yr)".into(), vec![[0.0, 1.0]; g.len()])],
+        reserve_links: test_links(a.reserves.len()),
     })
     .unwrap()
+}
+
+/// Larval links between the first reserves: 1 → 2 (12%), 2 → 1 (3%), 3 → 1 (0.5%); none with
+/// fewer than three reserves.
+fn test_links(reserves: usize) -> Vec<ReserveLink> {
+    if reserves < 3 {
+        return Vec::new();
+    }
+    [(0, 1, 0.12), (1, 0, 0.03), (2, 0, 0.005)]
+        .iter()
+        .map(|&(from, to, share)| ReserveLink { from, to, share })
+        .collect()
 }
 
 /// Path data of the SVG element carrying `marker`.
@@ -635,7 +649,9 @@ fn chromium_renders_the_report() {
     // one weakest-feature chart over both scenarios and one sweep chart = 6 SVG elements, and
     // one coverage table per scenario (two); the DOM holds all four reserves in the network
     // map and again in the budget panel.
-    assert_eq!(dom.matches("<svg").count(), 6, "{dom}");
+    // The links map adds one more SVG with three arrows and the reserves again.
+    assert_eq!(dom.matches("<svg").count(), 7, "{dom}");
+    assert_eq!(dom.matches("class=\"link\"").count(), 3, "{dom}");
     assert_eq!(dom.matches("<table class=\"heat\"").count(), 2, "{dom}");
     // The base of the network map: land, degree labels of the graticule (the grid spans about
     // 9.2–10.8°E and 54.55–55.45°N, so a 0.5° spacing labels 10°E and 55°N), the north arrow
@@ -653,7 +669,7 @@ fn chromium_renders_the_report() {
     for n in 1..=4 {
         assert!(dom.contains(&format!("class=\"reserve-label\" data-reserve=\"{n}\"")));
     }
-    assert_eq!(dom.matches("class=\"reserve\"").count(), 8);
+    assert_eq!(dom.matches("class=\"reserve\"").count(), 12);
 
     let (ok, _, err) = chromium(
         &tmp.path().join("p2"),
@@ -824,4 +840,42 @@ fn velocity_arrows_point_the_way_the_field_goes() {
     assert!((u1 - u0).abs() < 0.11, "{d}");
     assert!(v1 < v0, "{d}");
     assert!(((v0 - v1) - 26.6).abs() < 0.11, "{d}");
+}
+
+#[test]
+fn link_arrows_run_from_reserve_to_reserve() {
+    // Each arrow of the links map starts within 12 SVG units (the trim) of its source
+    // reserve's number and ends within 12 units of its destination's, on the same map frame;
+    // wider for the stronger link (12% vs 3%).
+    let (g, sel, status, a) = setup();
+    let html = render(&g, &sel, &status, &a);
+    let at = html.find(r#"<svg class="map links""#).expect("a links map");
+    let svg = &html[at..at + html[at..].find("</svg>").unwrap()];
+    let label = |n: usize| -> (f64, f64) {
+        let k = svg
+            .find(&format!(r#"class="reserve-label" data-reserve="{n}""#))
+            .unwrap();
+        let x: f64 = attr(svg, k, "x").parse().unwrap();
+        let y: f64 = attr(svg, k, "y").parse().unwrap();
+        (x, y - 4.0)
+    };
+    let mut widths = Vec::new();
+    for (from, to) in [(1, 2), (2, 1), (3, 1)] {
+        let k = svg
+            .find(&format!(r#"data-from="{from}" data-to="{to}""#))
+            .unwrap();
+        let k = svg[..k].rfind('<').unwrap();
+        let d = attr(svg, k, "d");
+        let nums: Vec<f64> = d
+            .split(['M', 'Q', ' '])
+            .filter(|t| !t.is_empty())
+            .map(|t| t.parse().unwrap())
+            .collect();
+        let (start, end) = ((nums[0], nums[1]), (nums[4], nums[5]));
+        let dist = |p: (f64, f64), q: (f64, f64)| (p.0 - q.0).hypot(p.1 - q.1);
+        assert!(dist(start, label(from)) <= 12.2, "{from}→{to}: {d}");
+        assert!(dist(end, label(to)) <= 12.2, "{from}→{to}: {d}");
+        widths.push(attr(svg, k, "stroke-width").parse::<f64>().unwrap());
+    }
+    assert!(widths[0] > widths[1] && widths[1] > widths[2], "{widths:?}");
 }

@@ -4,8 +4,8 @@
 
 use driftplan::model::compact::unit_grid_penalty;
 use driftplan::model::{
-    evaluate, Budget, CellStatus, EdgePenalty, MinNeighbours, MinReserve, ModelFeature, Objective,
-    Problem, Robustness, Scenario, Spacing,
+    evaluate, Budget, CellStatus, EdgePenalty, LinkReward, MinNeighbours, MinReserve, ModelFeature,
+    Objective, Problem, Robustness, Scenario, Spacing,
 };
 use driftplan::solve::anneal::Anneal;
 use driftplan::solve::brute::BruteForce;
@@ -52,6 +52,7 @@ fn base(cost: Vec<f64>, features: Vec<ModelFeature>, n_scen: usize) -> Problem {
         robustness: Robustness::EveryScenario,
         budget: Budget::default(),
         edge_penalty: None,
+        link_reward: None,
         spacing: None,
         scenario_best: None,
         min_reserve: None,
@@ -712,6 +713,112 @@ fn reachability_feature_optimum_matches_brute_force_and_hand() {
         let sol = s.solve(&p, &opts()).unwrap();
         assert_eq!(ids(&sol.selected), vec![0], "{}", sol.solver);
         assert!(close(sol.objective, 4.0));
+    }
+}
+
+/// A seeded connectivity reward on `n` cells: about one pair per cell.
+fn random_links(seed: u64, n: usize, weight: f64) -> LinkReward {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed + 7000);
+    let mut pairs = Vec::new();
+    for i in 0..n as u32 {
+        for j in i + 1..n as u32 {
+            if rng.gen_bool(2.0 / n as f64) {
+                pairs.push((i, j, rng.gen_range(1..=8) as f64 * 0.1));
+            }
+        }
+    }
+    LinkReward { weight, pairs }
+}
+
+#[test]
+fn connectivity_reward_optimum_matches_brute_force() {
+    // Independent check by enumeration (BruteForce scores every network with model::evaluate,
+    // which computes the reward as weight × Σ strengths of pairs with both ends chosen — no
+    // linearisation): HiGHS's optimum with the zᵢⱼ ≤ xᵢ, zᵢⱼ ≤ xⱼ rows equals it, for min-cost
+    // and for max-benefit under each robustness rule, with and without the edge penalty.
+    let mut compared = 0;
+    let mut changed = 0;
+    for seed in 0..4 {
+        let mut full = random_instance(seed);
+        full.spacing = None;
+        for (objective, robustness) in [
+            (Objective::MinCost, Robustness::EveryScenario),
+            (Objective::MaxBenefit, Robustness::EveryScenario),
+            (Objective::MaxBenefit, Robustness::WorstCase),
+            (Objective::MaxBenefit, Robustness::LeastRegret),
+        ] {
+            let mut p = full.clone();
+            p.objective = objective;
+            p.robustness = robustness;
+            if objective == Objective::MinCost {
+                p.budget = Budget::default();
+            }
+            if seed % 2 == 1 {
+                p.edge_penalty = None;
+            }
+            // Weight: a few cost units per unit of strength in min-cost, a benefit share in
+            // max-benefit, so the reward moves some optima and not others.
+            let w = if objective == Objective::MinCost {
+                6.0
+            } else {
+                0.8
+            };
+            let plain = BruteForce.solve(&p, &opts());
+            p.link_reward = Some(random_links(seed, p.n_cells(), w));
+            let p = with_scenario_best(&p, &BruteForce, &opts()).unwrap();
+            let h = Highs::default().solve(&p, &opts());
+            let b = BruteForce.solve(&p, &opts());
+            let what = format!("seed {seed} {objective:?} {robustness:?}");
+            match (&h, &b) {
+                (Ok(h), Ok(b)) => {
+                    assert!(close(h.objective, b.objective), "{what}: {h:?} vs {b:?}");
+                    let e = evaluate(&p, &h.selected);
+                    assert!(e.feasible, "{what}");
+                    assert!(close(e.objective, h.objective), "{what}");
+                    if plain.is_ok_and(|q| q.selected != b.selected) {
+                        changed += 1;
+                    }
+                    compared += 1;
+                }
+                (Err(_), Err(_)) => {}
+                _ => panic!("{what}: highs {h:?} brute {b:?}"),
+            }
+        }
+    }
+    assert!(compared >= 12, "only {compared} cases compared");
+    assert!(changed >= 3, "the reward changed only {changed} optima");
+}
+
+#[test]
+fn connectivity_reward_joins_linked_cells_by_hand() {
+    // Hand-worked: four cells, one feature with amount 1 in each, target 2, costs
+    // [1, 1, 1.5, 1.5]. Without a reward the optimum is {0, 1} at cost 2. Cells 2 and 3
+    // exchange larvae with strength 0.5; with weight 2 the pair earns 1, so {2, 3} scores
+    // 3 − 1 = 2 and {0, 1} scores 2: a tie. With weight 3 {2, 3} scores 3 − 1.5 = 1.5 and wins.
+    let mut p = base(
+        vec![1.0, 1.0, 1.5, 1.5],
+        vec![feature("f", None, &[1.0; 4], 2.0)],
+        1,
+    );
+    assert_eq!(
+        ids(&Highs::default().solve(&p, &opts()).unwrap().selected),
+        vec![0, 1]
+    );
+    p.link_reward = Some(LinkReward {
+        weight: 3.0,
+        pairs: vec![(2, 3, 0.5)],
+    });
+    for s in [&Highs::default() as &dyn Solver, &BruteForce] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert_eq!(ids(&sol.selected), vec![2, 3], "{}", sol.solver);
+        assert!(close(sol.objective, 1.5), "{}", sol.solver);
+    }
+    let e = evaluate(&p, &[false, false, true, true]);
+    assert!((e.linked - 0.5).abs() < 1e-12);
+    // The heuristics score the same objective (state.rs's incremental reward = evaluate's).
+    for s in [&Greedy as &dyn Solver, &Anneal::default()] {
+        let sol = s.solve(&p, &opts()).unwrap();
+        assert!(close(sol.objective, evaluate(&p, &sol.selected).objective));
     }
 }
 

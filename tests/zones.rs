@@ -79,6 +79,7 @@ fn instance(seed: u64, objective: Objective) -> Problem {
             max_area_km2: None,
         },
         edge_penalty: Some(unit_penalty(0.5)),
+        link_reward: None,
         zoning: Some(zoning),
         ..Problem::plain(
             cost,

@@ -1,6 +1,7 @@
 //! Assess stage: takes a grid, feature table, per-cell cost and a chosen network, and returns
 //! an [`Assessment`]: coverage per feature, cost, area, reserves and edge length.
 
+pub mod connectivity;
 mod coverage;
 mod edge;
 pub mod network_input;

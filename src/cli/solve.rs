@@ -145,10 +145,22 @@ pub(crate) fn solve(
         progress,
     )?;
     let zoned = solution.zones.as_deref().zip(zone_shares.as_deref());
+    let connectivity = driftplan::assess::connectivity::network_connectivity(
+        &inputs.grid,
+        &plan.scenarios,
+        &inputs.connectivity,
+        &inputs.features,
+        &solution.selected,
+    );
+    let reward = problem
+        .link_reward
+        .as_ref()
+        .map(|r| export::RewardSummary::new(r, &solution.selected));
     write_solution(
         &plan,
         &inputs,
         &solution,
+        (&connectivity, reward),
         &assessment,
         zoned,
         run.dir(),
@@ -200,6 +212,18 @@ pub(crate) fn solve(
         zone_shares.as_deref(),
         &out,
     );
+    if let Some(r) = reward {
+        println!(
+            "  links       {} kept; the network holds link strength {:.3} (reward {:.1} at weight {})",
+            driftplan::export::words::count(r.links_kept, "link"),
+            r.linked,
+            r.reward,
+            r.weight
+        );
+    }
+    for line in driftplan::assess::connectivity::connectivity_lines(&connectivity) {
+        println!("  larvae      {line}");
+    }
     if let Some(m) = &matrix {
         println!(
             "  stress test (targets reached and benefit; rows: designed for, columns: evaluated in)"
@@ -266,6 +290,10 @@ fn write_solution(
     plan: &Plan,
     inputs: &Inputs,
     solution: &Solution,
+    (connectivity, reward): (
+        &[driftplan::assess::connectivity::NetworkConnectivity],
+        Option<export::RewardSummary>,
+    ),
     assessment: &driftplan::assess::Assessment,
     zones: Option<(&[u8], &[driftplan::assess::zones::ZoneShare])>,
     out: &Path,
@@ -282,6 +310,8 @@ fn write_solution(
     summary.sampling = inputs.sampling.clone();
     summary.velocity_floored_cells = inputs.velocity_floored.iter().cloned().collect();
     summary.grid_crs = Some(inputs.grid.crs.describe());
+    summary.connectivity = connectivity.to_vec();
+    summary.connectivity_reward = reward;
     summary.zones = zones
         .map(|(_, shares)| {
             shares

@@ -5,10 +5,12 @@
 //! the computed one. `features::reachability` turns the matrices into features.
 
 pub mod field;
+pub mod pairs;
 pub mod summary;
 pub mod track;
 
 pub use field::CurrentField;
+pub use pairs::{link_reward, LinkRule};
 pub use summary::{network_retention, summarise, DispersalSummary};
 pub use track::{Fate, Tracker};
 

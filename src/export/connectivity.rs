@@ -5,7 +5,7 @@
 
 use super::table::csv_text;
 use crate::connectivity::{network_retention, summarise, Dispersal, Origin, SpeciesLinks};
-use crate::features::{FeatureKind, FeatureTable};
+use crate::features::FeatureTable;
 use crate::grid::Grid;
 
 /// `from,to,probability` rows of a matrix, by source then destination cell.
@@ -81,28 +81,11 @@ pub fn connectivity_csv(
         let (retention, reach) = match selected {
             None => (String::new(), String::new()),
             Some(sel) => {
-                let reach = features
-                    .features
-                    .iter()
-                    .find(|f| {
-                        f.kind == FeatureKind::Reachability
-                            && f.species.as_deref() == Some(l.species.as_str())
-                            && f.scenario == Some(l.scenario)
-                    })
-                    .map(|f| {
-                        let held: f64 = f
-                            .amounts
-                            .iter()
-                            .filter(|a| sel[a.0 as usize])
-                            .map(|a| a.1)
-                            .sum();
-                        if f.total > 0.0 {
-                            f6(held / f.total)
-                        } else {
-                            String::new()
-                        }
-                    })
-                    .unwrap_or_default();
+                let reach = crate::assess::connectivity::reachability_share(
+                    features, &l.species, l.scenario, sel,
+                )
+                .map(f6)
+                .unwrap_or_default();
                 (f6(network_retention(&l.matrix, sel)), reach)
             }
         };

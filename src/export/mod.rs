@@ -25,7 +25,7 @@ pub use run_folder::{verify, RunFolder};
 pub const CELLS_GEOJSON_MAX_CELLS: usize = 20_000;
 
 pub use geojson::{cells_csv, cells_geojson, network_geojson, network_geojson_zoned};
-pub use summary::{plan_hash, summary_json, Summary};
+pub use summary::{plan_hash, summary_json, RewardSummary, Summary};
 pub use table::{coverage_csv, reserves_csv, reserves_csv_zoned};
 
 use crate::grid::GridError;

@@ -75,8 +75,44 @@ pub struct Summary {
     /// without `[[zones]]`).
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub zones: Vec<crate::assess::zones::ZoneShare>,
+    /// Per species and scenario with `[connectivity]`: the network's self-recruitment, its
+    /// share of the reachable future habitat and how far its larvae travel (absent without
+    /// `[connectivity]`).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub connectivity: Vec<crate::assess::connectivity::NetworkConnectivity>,
+    /// With `connectivity_weight`: the link strength the network holds, the number of links
+    /// the reward kept and the reward in the objective (absent otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub connectivity_reward: Option<RewardSummary>,
     /// driftplan version that wrote the file.
     pub driftplan_version: String,
+}
+
+/// The connectivity reward of a run (`model::links`).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct RewardSummary {
+    /// Objective weight per unit of link strength (`connectivity_weight`).
+    pub weight: f64,
+    /// Links kept for the reward (pairs of cells).
+    pub links_kept: usize,
+    /// Link strength the network holds (own shares plus pairs with both ends chosen).
+    pub linked: f64,
+    /// weight × linked: what the reward takes off a minimised objective (adds to a maximised
+    /// one).
+    pub reward: f64,
+}
+
+impl RewardSummary {
+    /// The reward summary of `selected` under `reward`.
+    pub fn new(reward: &crate::model::LinkReward, selected: &[bool]) -> RewardSummary {
+        let linked = reward.linked(selected);
+        RewardSummary {
+            weight: reward.weight,
+            links_kept: reward.pairs.len(),
+            linked,
+            reward: reward.weight * linked,
+        }
+    }
 }
 
 impl Summary {
@@ -118,6 +154,8 @@ impl Summary {
             velocity_floored_cells: BTreeMap::new(),
             grid_crs: None,
             zones: Vec::new(),
+            connectivity: Vec::new(),
+            connectivity_reward: None,
             driftplan_version: env!("CARGO_PKG_VERSION").to_string(),
         }
     }

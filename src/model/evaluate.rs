@@ -61,6 +61,9 @@ pub struct Evaluation {
     pub scenarios: Vec<ScenarioResult>,
     /// Exposed reserve edge (0 without an edge penalty). Units: km.
     pub exposed_edge_km: f64,
+    /// Link strength the network holds (0 without a connectivity reward; [`super::links`]).
+    /// Units: larval shares.
+    pub linked: f64,
     /// The max-gap check, when the problem has a spacing rule.
     pub gap: Option<GapReport>,
     /// Chosen cells that break the minimum-size rule (lone and too small), ascending.
@@ -79,7 +82,8 @@ pub struct Evaluation {
     /// least difference from earlier networks ([`Problem::alternative`]).
     pub feasible: bool,
     /// Objective in the problem's own sense: cost + penalty (min-cost), combined benefit −
-    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown);
+    /// penalty (max-benefit) or largest regret + penalty (least-regret; NaN when Bₛ* unknown),
+    /// where penalty = edge weight × exposed edge − link weight × linked;
     /// the cost alone when the problem keeps an objective ([`Problem::keep_objective`]), or the
     /// overlap with earlier networks for a portfolio member ([`Problem::alternative`]).
     pub objective: f64,
@@ -221,6 +225,13 @@ fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>
         Some((_, asg)) => super::compact::exposed_edge_zoned_km(p, asg),
     });
     let penalty = problem.edge_penalty.as_ref().map_or(0.0, |p| p.weight) * exposed;
+    let linked = problem
+        .link_reward
+        .as_ref()
+        .map_or(0.0, |r| r.linked(selected));
+    // The connectivity reward works against the penalty: it lowers a minimised objective and
+    // raises a maximised one.
+    let penalty = penalty - problem.link_reward.as_ref().map_or(0.0, |r| r.weight) * linked;
     let gap = problem
         .spacing
         .as_ref()
@@ -293,6 +304,7 @@ fn evaluate_with(problem: &Problem, selected: &[bool], assignment: Option<&[u8]>
         absent,
         scenarios,
         exposed_edge_km: exposed,
+        linked,
         gap,
         lone_cells,
         short_of_neighbours,
@@ -341,6 +353,7 @@ mod tests {
             robustness: Robustness::EveryScenario,
             budget: Budget::default(),
             edge_penalty: None,
+            link_reward: None,
             spacing: None,
             scenario_best: None,
             min_reserve: None,

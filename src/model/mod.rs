@@ -9,6 +9,7 @@
 pub mod alternative;
 pub mod compact;
 pub mod evaluate;
+pub mod links;
 pub mod min_size;
 pub mod neighbours;
 pub mod robust;
@@ -18,6 +19,7 @@ pub mod zones;
 
 pub use alternative::Alternative;
 pub use evaluate::{evaluate, evaluate_zoned, Evaluation, ScenarioResult};
+pub use links::LinkReward;
 pub use min_size::MinReserve;
 pub use neighbours::MinNeighbours;
 pub use spacing::Spacing;
@@ -135,6 +137,8 @@ pub struct Problem {
     pub budget: Budget,
     /// Optional compactness term.
     pub edge_penalty: Option<EdgePenalty>,
+    /// Optional connectivity reward: larval exchange between chosen cells ([`links`]).
+    pub link_reward: Option<LinkReward>,
     /// Optional stepping-stone rule along the shift axis (max gap).
     pub spacing: Option<Spacing>,
     /// Optional minimum reserve size (no lone cell below the area; [`min_size`]).
@@ -190,7 +194,8 @@ impl ModelFeature {
 
 impl Problem {
     /// A problem with only its essentials: every cell free, no budget, and none of the optional
-    /// rules (edge penalty, max gap, minimum size, kept objective, alternative, zones). Callers
+    /// rules (edge penalty, connectivity reward, max gap, minimum size, kept objective,
+    /// alternative, zones). Callers
     /// set what they need with struct update syntax (`Problem { budget, ..Problem::plain(…) }`).
     pub fn plain(
         cost: Vec<f64>,
@@ -210,6 +215,7 @@ impl Problem {
             robustness,
             budget: Budget::default(),
             edge_penalty: None,
+            link_reward: None,
             spacing: None,
             min_reserve: None,
             min_neighbours: None,

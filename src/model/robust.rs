@@ -172,11 +172,13 @@ pub fn restrict_to_scenario(problem: &Problem, s: usize) -> Problem {
 
 /// The problem of scenario `s` alone, whose optimum is Bₛ* for least-regret: max-benefit
 /// under the same budget, cell status, max gap and minimum size, scenario `s`'s features only
-/// (scenario-free ones kept), one scenario, no edge penalty (Bₛ* is a benefit).
+/// (scenario-free ones kept), one scenario, no edge penalty and no connectivity reward (Bₛ* is a
+/// benefit).
 pub fn scenario_problem(problem: &Problem, s: usize) -> Problem {
     Problem {
         objective: Objective::MaxBenefit,
         edge_penalty: None,
+        link_reward: None,
         ..restrict_to_scenario(problem, s)
     }
 }
@@ -218,6 +220,7 @@ mod tests {
             robustness: Robustness::Expected,
             budget: Budget::default(),
             edge_penalty: None,
+            link_reward: None,
             spacing: None,
             scenario_best: None,
             min_reserve: None,

@@ -163,6 +163,17 @@ impl Problem {
                 check_nonneg("edge_penalty.pairs shared km", q, l)?;
             }
         }
+        if let Some(r) = &self.link_reward {
+            check_nonneg("link_reward.weight", 0, r.weight)?;
+            for (q, &(i, j, v)) in r.pairs.iter().enumerate() {
+                if i >= j || j as usize >= n {
+                    return Err(ModelError::Reference(format!(
+                        "link_reward.pairs[{q}] = ({i}, {j}); expected i < j < {n}"
+                    )));
+                }
+                check_nonneg("link_reward.pairs strength", q, v)?;
+            }
+        }
         if let Some(sp) = &self.spacing {
             check_len("spacing.position_km", sp.position_km.len(), n, "cells")?;
             for (i, &p) in sp.position_km.iter().enumerate() {
@@ -326,6 +337,7 @@ mod tests {
             robustness: Robustness::EveryScenario,
             budget: Budget::default(),
             edge_penalty: None,
+            link_reward: None,
             spacing: None,
             scenario_best: None,
             min_reserve: None,

@@ -149,6 +149,9 @@ pub const KEYS: &[KeyDoc] = &[
     k("optimise", "max_gap_km", "number", "no rule", "> 0", "km", "max_gap_km = 100", "Stepping stones: the largest distance allowed between neighbouring reserves along the poleward axis."),
     k("optimise", "min_reserve_km2", "number", "no rule", "> 0", "km²", "min_reserve_km2 = 50", "A free cell smaller than this may be chosen only with a chosen rook neighbour (no lone undersized cells; required cells exempt)."),
     k("optimise", "min_chosen_neighbours", "integer", "no rule", "0–4", "cells", "min_chosen_neighbours = 1", "Every chosen free cell has at least this many chosen rook neighbours (required cells exempt, and counted as neighbours)."),
+    k("optimise", "connectivity_weight", "number", "0", "≥ 0", "objective units per unit of link strength", "connectivity_weight = 10", "Reward larval exchange between chosen cells: each kept pair of chosen cells earns this weight times its strength (the share of larvae exchanged both ways, summed over species, scenario-weighted). Needs `[connectivity]`. Lowers a minimised objective, raises a maximised one."),
+    k("optimise", "connectivity_min_link", "number", "0.01", "≥ 0", "share of larvae", "connectivity_min_link = 0.02", "Weakest link strength the reward keeps."),
+    k("optimise", "connectivity_links_per_cell", "integer", "4", "1–64", "links", "connectivity_links_per_cell = 6", "How many of its strongest links each cell keeps for the reward (a link stays when either end keeps it)."),
     // solver
     k("solver", "time_limit_s", "number", "300", "> 0", "s", "time_limit_s = 120", "Time for all the solves of one command together; the best network found is returned with its proven gap."),
     k("solver", "gap", "number", "0.005", "0–1", "share", "gap = 0.005", "Stop when the network is proven within this relative distance of the optimum."),

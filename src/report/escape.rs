@@ -25,8 +25,8 @@ mod tests {
     fn markup_characters_are_escaped() {
         // Hand: each of the five characters becomes its entity, others pass through.
         assert_eq!(
-            esc(r#"North <Sea> & "Skagerrak" 'A'"#),
-            "North &lt;Sea&gt; &amp; &quot;Skagerrak&quot; &#39;A&#39;"
+            esc(r#"Merrow <Sound> & "Skerrin" 'A'"#),
+            "Merrow &lt;Sound&gt; &amp; &quot;Skerrin&quot; &#39;A&#39;"
         );
         assert_eq!(esc("ssp2-4.5 · 2050 km²"), "ssp2-4.5 · 2050 km²");
         // Already-escaped text is escaped again (no double-decoding surprises).

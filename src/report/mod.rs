@@ -14,6 +14,7 @@ mod coverage_heatmap;
 mod escape;
 mod feature_map;
 mod frame;
+mod links_map;
 mod network_map;
 mod palette;
 mod tables;
@@ -64,6 +65,9 @@ pub struct ReportInput<'a> {
     /// Land, graticule and north for the network map ([`Basemap::build`]); `None` draws the
     /// cells alone.
     pub basemap: Option<Basemap>,
+    /// Larval exchange between reserves, strongest first
+    /// (`assess::connectivity::reserve_links`); empty: no links section.
+    pub reserve_links: Vec<crate::assess::connectivity::ReserveLink>,
 }
 
 /// A zoned network's zones ([`crate::model::zones`]) as the report draws them.
@@ -186,6 +190,9 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
         chosen,
         crate::export::words::count(grid.len(), "cell")
     );
+    if !input.reserve_links.is_empty() {
+        s.push_str(&links_section(input));
+    }
     if let Some(p) = &input.panels {
         s.push_str(&panels_html(grid, input.status, p));
     }
@@ -273,6 +280,32 @@ pub fn report_html(input: &ReportInput) -> Result<String, ExportError> {
     Ok(s)
 }
 
+/// Rows of the table under the links map.
+const LINK_ROWS: usize = 10;
+
+/// The links map and a table of the strongest links between reserves.
+fn links_section(input: &ReportInput) -> String {
+    let links = &input.reserve_links;
+    let mut s = format!(
+        "<h2>Larval links between reserves</h2>\n<p class=\"small\">Arrows from each reserve to the reserves its larvae settle in (the {} strongest of {}), from the dispersal matrices of the `[connectivity]` species: the share of the larvae released in a reserve that settle in the other, averaged over species and weighted over scenarios. Larvae that stay in their own reserve are in connectivity.csv (network_retention).</p>\n<figure>{}<figcaption>Links between reserves; reserve numbers as on the network map.</figcaption></figure>\n",
+        links.len().min(links_map::MAX_ARROWS),
+        crate::export::words::count(links.len(), "link"),
+        links_map::links_map(input.grid, input.reserves, links, input.basemap.as_ref()),
+    );
+    s.push_str(r#"<table class="links"><thead><tr><th scope="col">from reserve</th><th scope="col">to reserve</th><th scope="col">share of larvae</th></tr></thead><tbody>"#);
+    for l in links.iter().take(LINK_ROWS) {
+        let _ = write!(
+            s,
+            "<tr><td>{}</td><td>{}</td><td>{:.2}%</td></tr>",
+            l.from + 1,
+            l.to + 1,
+            100.0 * l.share
+        );
+    }
+    s.push_str("</tbody></table>\n");
+    s
+}
+
 /// A heading, a note and small network maps side by side, each with its caption.
 pub(crate) fn panels_html(grid: &Grid, status: &[CellStatus], p: &NetworkPanels) -> String {
     let mut s = format!(
@@ -329,6 +362,16 @@ fn check(input: &ReportInput) -> Result<(), ExportError> {
                 what: format!("reserve {} (cell id {bad})", k + 1),
                 expected: n,
                 got: bad as usize + 1,
+            });
+        }
+    }
+    for l in &input.reserve_links {
+        let bad = l.from.max(l.to);
+        if bad >= input.reserves.len() {
+            return Err(ExportError::Length {
+                what: format!("reserve link {} → {}", l.from + 1, l.to + 1),
+                expected: input.reserves.len(),
+                got: bad + 1,
             });
         }
     }
@@ -411,6 +454,7 @@ mod tests {
             zones: None,
             basemap: None,
             arrows: vec![],
+            reserve_links: vec![],
         }
     }
 

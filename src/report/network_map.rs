@@ -238,7 +238,12 @@ fn push_graticule(s: &mut String, frame: &MapFrame, b: &Basemap) {
 }
 
 /// Each reserve's number (as in network.geojson and reserves.csv) at a point inside it.
-fn push_reserve_labels(s: &mut String, grid: &Grid, frame: &MapFrame, reserves: &[Reserve]) {
+pub(crate) fn push_reserve_labels(
+    s: &mut String,
+    grid: &Grid,
+    frame: &MapFrame,
+    reserves: &[Reserve],
+) {
     use geo::InteriorPoint;
     s.push_str(r##"<g class="reserve-labels" font-size="12" font-weight="600" fill="#1a1a1a" stroke="#ffffff" stroke-width="3" paint-order="stroke" text-anchor="middle">"##);
     for (k, r) in reserves.iter().enumerate() {
@@ -258,7 +263,7 @@ fn push_reserve_labels(s: &mut String, grid: &Grid, frame: &MapFrame, reserves: 
 }
 
 /// An arrow in the map's top-right corner pointing to true north at the map's centre.
-fn push_north_arrow(s: &mut String, frame: &MapFrame, north_deg: f64) {
+pub(crate) fn push_north_arrow(s: &mut String, frame: &MapFrame, north_deg: f64) {
     let (cx, cy) = (round1(PAD + frame.width - 22.0), round1(PAD + 30.0));
     let _ = write!(
         s,
@@ -386,7 +391,7 @@ pub(crate) fn network_panel(
     s
 }
 
-fn push_path(s: &mut String, class: &str, d: &str, style: &str) {
+pub(crate) fn push_path(s: &mut String, class: &str, d: &str, style: &str) {
     if d.is_empty() {
         return;
     }
@@ -397,7 +402,7 @@ fn push_path(s: &mut String, class: &str, d: &str, style: &str) {
 }
 
 /// A bar with end ticks and its length, under the map's south-west corner.
-fn push_scale_bar(s: &mut String, frame: &MapFrame) {
+pub(crate) fn push_scale_bar(s: &mut String, frame: &MapFrame) {
     let bar = scale_bar(frame);
     if bar.km <= 0.0 {
         return;

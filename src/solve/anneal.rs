@@ -87,6 +87,9 @@ impl Solver for Anneal {
             + p.edge_penalty.as_ref().map_or(0.0, |e| {
                 e.weight * e.exposed_if_alone_km.iter().sum::<f64>()
             })
+            + p.link_reward
+                .as_ref()
+                .map_or(0.0, |r| r.weight * r.pairs.iter().map(|q| q.2).sum::<f64>())
             + crate::model::robust::scenario_benefits(p)
                 .iter()
                 .map(|b| b.max)

@@ -71,7 +71,7 @@ fn score(st: &mut State, i: usize) -> Option<f64> {
             if gain <= 1e-15 {
                 return None;
             }
-            let added = f.d_cost + st.weight * f.d_exposed;
+            let added = f.d_cost + st.d_pairwise(&f);
             Some(gain / added.max(TINY))
         }
         Objective::MaxBenefit => {
@@ -89,7 +89,7 @@ fn score(st: &mut State, i: usize) -> Option<f64> {
                 effective_robustness(p),
                 Robustness::WorstCase | Robustness::LeastRegret
             ) {
-                gain += 1e-3 * (st.mean_scratch() - st.weight * f.d_exposed);
+                gain += 1e-3 * (st.mean_scratch() - st.d_pairwise(&f));
             }
             if gain <= 1e-12 {
                 return None;
@@ -185,7 +185,7 @@ fn close_gaps(st: &mut State) -> bool {
             if st.p.objective == Objective::MaxBenefit && !st.fits(f.d_cost, f.d_area) {
                 continue;
             }
-            let added = f.d_cost + st.weight * f.d_exposed;
+            let added = f.d_cost + st.d_pairwise(&f);
             if best.is_none_or(|(b, _)| added < b) {
                 best = Some((added, c));
             }
@@ -219,7 +219,7 @@ fn join_lone_cells(st: &mut State) -> bool {
             if !st.fits(f.d_cost, f.d_area) {
                 continue;
             }
-            let added = f.d_cost + st.weight * f.d_exposed;
+            let added = f.d_cost + st.d_pairwise(&f);
             if best.is_none_or(|(b, _)| added < b) {
                 best = Some((added, j));
             }
@@ -351,6 +351,7 @@ mod tests {
             robustness: Robustness::EveryScenario,
             budget: Budget::default(),
             edge_penalty: None,
+            link_reward: None,
             spacing: None,
             scenario_best: None,
             min_reserve: None,

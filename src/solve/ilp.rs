@@ -7,6 +7,8 @@
 //!   is weight-only), max-benefit only (capped holding, [`crate::model::robust`]);
 //! * eᵢⱼ ∈ [0, 1] per neighbouring pair (1 when exactly one of the two is chosen), with an
 //!   edge penalty of positive weight ([`crate::model::compact`]);
+//! * zᵢⱼ ∈ [0, 1] per kept connectivity pair (1 when both are chosen), with a connectivity
+//!   reward of positive weight ([`crate::model::links`]);
 //! * uₚ ∈ [0, 1] per allowed position that needs a max-gap row ([`crate::model::spacing`]);
 //! * t (worst-case benefit) or r (largest regret), free.
 //!
@@ -16,13 +18,15 @@
 //!   r + Bₛ(y) ≥ Bₛ*;
 //! * budget: Σ cᵢxᵢ ≤ max cost, Σ areaᵢxᵢ ≤ max area;
 //! * edge penalty: xᵢ − xⱼ − eᵢⱼ ≤ 0, xⱼ − xᵢ − eᵢⱼ ≤ 0;
+//! * connectivity reward: zᵢⱼ − xᵢ ≤ 0, zᵢⱼ − xⱼ ≤ 0;
 //! * max gap: xᵢ − uₚ ≤ 0 and Σ_{cover} xᵢ − uₚ ≥ 0, plus the start row Σ_{cover} xᵢ ≥ 1;
 //! * minimum size: xᵢ − Σ_{j∈N(i)} xⱼ ≤ 0 for each free cell below the minimum area
 //!   ([`crate::model::min_size`]).
 //!
 //! # Objective
 //! min Σ cᵢxᵢ + w·exposed (min-cost); max Σₛ Bₛ, t or Σ πₛBₛ minus w·exposed (max-benefit);
-//! min r + w·exposed (least-regret), exposed = Σ Pᵢxᵢ − 2 Σ lᵢⱼzᵢⱼ. With a kept objective
+//! min r + w·exposed (least-regret), exposed = Σ Pᵢxᵢ − 2 Σ lᵢⱼzᵢⱼ; a connectivity reward
+//! v·linked is subtracted from minimisations and added to maximisations. With a kept objective
 //! ([`Problem::keep_objective`]) that objective becomes a row (≥ its floor, or ≤ for
 //! least-regret) and min Σ cᵢxᵢ the objective.
 
@@ -54,6 +58,8 @@ enum Col {
     W(usize, usize),
     Y(usize),
     Z(usize),
+    /// Kept connectivity pair `.0` (model::links): 1 when both ends are chosen.
+    L(usize),
     U(usize),
     Worst,
     Regret,
@@ -280,6 +286,21 @@ pub fn formulate(problem: &Problem) -> Result<Formulation, SolveError> {
         }
     }
 
+    // Connectivity reward: sign −1 in minimisations, +1 in maximisations (model::links):
+    // linked = Σ sᵢⱼ·zᵢⱼ with zᵢⱼ ≤ xᵢ, zᵢⱼ ≤ xⱼ; the objective pushes zᵢⱼ up.
+    if let Some(rw) = problem.link_reward.as_ref().filter(|r| r.weight > 0.0) {
+        let sign = if minimise { -1.0 } else { 1.0 };
+        for (q, &(i, j, v)) in rw.pairs.iter().enumerate() {
+            if v <= 0.0 {
+                continue;
+            }
+            let z = add(&mut vars, variable().min(0.0).max(1.0), Col::L(q));
+            objective.add_mul(sign * rw.weight * v, z);
+            constraints.push(constraint::leq(Expression::from(z) - x[i as usize], 0.0));
+            constraints.push(constraint::leq(Expression::from(z) - x[j as usize], 0.0));
+        }
+    }
+
     if let Some(sp) = &problem.spacing {
         let (rows, pos_of) = gap_rows(sp, &problem.status);
         let npos = pos_of.iter().flatten().max().map_or(0, |m| m + 1);
@@ -425,6 +446,13 @@ impl Formulation {
                         .as_ref()
                         .map_or((0, 0, 0.0), |p| p.pairs[q]);
                     (xv(i as usize) - xv(j as usize)).abs()
+                }
+                Col::L(q) => {
+                    let (i, j, _) = problem
+                        .link_reward
+                        .as_ref()
+                        .map_or((0, 0, 0.0), |r| r.pairs[q]);
+                    xv(i as usize) * xv(j as usize)
                 }
                 Col::U(q) => {
                     let any = pos.as_ref().is_some_and(|pos_of| {

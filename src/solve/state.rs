@@ -12,6 +12,8 @@ pub(crate) struct Flip {
     pub d_cost: f64,
     pub d_area: f64,
     pub d_exposed: f64,
+    /// Change of the link strength held (connectivity reward, `model::links`).
+    pub d_linked: f64,
     /// Change of Σₖ max(0, Tₖ − protectedₖ)/Tₖ (normalised shortfall).
     pub d_shortfall: f64,
     /// Change of the number of broken hard spatial rules: violated max-gap rows plus lone
@@ -36,6 +38,10 @@ pub(crate) struct State<'a> {
     pub shortfall: f64,
     nb: Vec<Vec<(u32, f64)>>,
     pub weight: f64,
+    /// Link strength held, each cell's kept link partners and the reward's weight.
+    pub linked: f64,
+    partners: Vec<Vec<(u32, f64)>>,
+    link_weight: f64,
     // Max gap: rows, their cover counts, position counts.
     rows_trigger: Vec<Option<usize>>,
     row_count: Vec<u32>,
@@ -76,6 +82,10 @@ impl<'a> State<'a> {
             Some(pen) => (neighbour_lists(pen, n), pen.weight),
             None => (vec![Vec::new(); n], 0.0),
         };
+        let (partners, link_weight) = match &p.link_reward {
+            Some(r) => (r.partner_lists(n), r.weight),
+            None => (vec![Vec::new(); n], 0.0),
+        };
         let mut st = State {
             p,
             selected: vec![false; n],
@@ -91,6 +101,9 @@ impl<'a> State<'a> {
             shortfall,
             nb,
             weight,
+            linked: 0.0,
+            partners,
+            link_weight,
             rows_trigger: Vec::new(),
             row_count: Vec::new(),
             cell_rows: vec![Vec::new(); n],
@@ -199,6 +212,13 @@ impl<'a> State<'a> {
             .as_ref()
             .map_or(0.0, |e| e.exposed_if_alone_km[i]);
         let d_exposed = sign * (alone - 2.0 * shared);
+        let mut with_partners = 0.0;
+        for &(j, v) in &self.partners[i] {
+            if self.selected[j as usize] {
+                with_partners += v;
+            }
+        }
+        let d_linked = sign * with_partners;
         let mut d_violated = 0;
         if !self.rows_trigger.is_empty() {
             let step: i64 = if self.selected[i] { -1 } else { 1 };
@@ -234,6 +254,7 @@ impl<'a> State<'a> {
             d_cost: sign * self.p.cost[i],
             d_area: sign * self.p.area_km2[i],
             d_exposed,
+            d_linked,
             d_shortfall: d_short,
             d_violated,
         }
@@ -285,6 +306,7 @@ impl<'a> State<'a> {
         self.cost += f.d_cost;
         self.area += f.d_area;
         self.exposed += f.d_exposed;
+        self.linked += f.d_linked;
         self.shortfall += f.d_shortfall;
         self.violated += f.d_violated;
         if !self.rows_trigger.is_empty() {
@@ -306,10 +328,21 @@ impl<'a> State<'a> {
         self.selected[i] = !self.selected[i];
     }
 
+    /// The pairwise part of the objective for given totals: edge weight × exposed − link
+    /// weight × linked (added to minimisations, subtracted from maximisations).
+    pub fn pairwise(&self, exposed: f64, linked: f64) -> f64 {
+        self.weight * exposed - self.link_weight * linked
+    }
+
+    /// Change of [`State::pairwise`] by the flip `f`.
+    pub fn d_pairwise(&self, f: &Flip) -> f64 {
+        self.pairwise(f.d_exposed, f.d_linked)
+    }
+
     /// Objective in the problem's sense for given totals (max-benefit combined by the rule,
-    /// edge penalty added or subtracted), using `benefits` per scenario.
-    pub fn objective_with(&self, cost: f64, exposed: f64, benefits: &[f64]) -> f64 {
-        let pen = self.weight * exposed;
+    /// edge penalty and connectivity reward applied), using `benefits` per scenario.
+    pub fn objective_with(&self, cost: f64, exposed: f64, linked: f64, benefits: &[f64]) -> f64 {
+        let pen = self.pairwise(exposed, linked);
         match self.p.objective {
             Objective::MinCost => cost + pen,
             Objective::MaxBenefit => {
@@ -325,7 +358,7 @@ impl<'a> State<'a> {
 
     /// Current objective.
     pub fn objective(&self) -> f64 {
-        self.objective_with(self.cost, self.exposed, &self.benefit)
+        self.objective_with(self.cost, self.exposed, self.linked, &self.benefit)
     }
 
     /// Objective after the flip described by `f` (call right after [`State::delta`]).
@@ -336,7 +369,12 @@ impl<'a> State<'a> {
             .zip(&self.scratch)
             .map(|(b, d)| b + d)
             .collect();
-        self.objective_with(self.cost + f.d_cost, self.exposed + f.d_exposed, &benefits)
+        self.objective_with(
+            self.cost + f.d_cost,
+            self.exposed + f.d_exposed,
+            self.linked + f.d_linked,
+            &benefits,
+        )
     }
 
     /// Mean per-scenario benefit change of the last delta (tie-break for min/max rules).
