@@ -579,6 +579,37 @@ pub fn dispersal(
     Ok(out)
 }
 
+/// Adds the connectivity measures (`assess::connectivity::connectivity_measures`) of each
+/// network in `selections` (in the comparison's network order) to `cmp`; nothing without
+/// `[connectivity]`.
+pub fn push_connectivity_measures(
+    cmp: &mut crate::compare::Comparison,
+    plan: &Plan,
+    inputs: &Inputs,
+    selections: &[&[bool]],
+) {
+    use crate::assess::connectivity::{connectivity_measures, network_connectivity};
+    if inputs.connectivity.is_empty() {
+        return;
+    }
+    let per: Vec<Vec<(String, f64)>> = selections
+        .iter()
+        .map(|sel| {
+            connectivity_measures(&network_connectivity(
+                &inputs.grid,
+                &plan.scenarios,
+                &inputs.connectivity,
+                &inputs.features,
+                sel,
+            ))
+        })
+        .collect();
+    for (k, (name, _)) in per[0].iter().enumerate() {
+        let values = per.iter().map(|m| m[k].1).collect();
+        cmp.push_measure(name, crate::compare::Better::Higher, values);
+    }
+}
+
 /// One `reachability/<species>/<scenario>` feature per dispersal matrix, from the species'
 /// first-year and last-year habitat (see [`crate::features::reachability`]).
 pub fn reachability_features(

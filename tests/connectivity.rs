@@ -180,6 +180,29 @@ fn matrices_round_trip_and_the_network_columns_recompute() {
         ("a", "b")
     );
     assert_eq!(cmp[0]["network_retention"], net[0]["network_retention"]);
+    // compare.json ranks the networks on retention too: the mean over scenarios of
+    // connectivity.csv's network_retention (recomputed here from the CSV).
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out4.join("compare.json")).unwrap()).unwrap();
+    let measure = json["measures"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|m| m["measure"] == "retention_amber-wrasse")
+        .expect("a retention measure");
+    assert_eq!(measure["better"], "higher");
+    let mean: f64 = cmp[..3]
+        .iter()
+        .map(|r| r["network_retention"].parse::<f64>().unwrap())
+        .sum::<f64>()
+        / 3.0;
+    let got = measure["values"][0].as_f64().unwrap();
+    assert!((got - mean).abs() < 1e-5, "{got} vs {mean}");
+    assert!(json["measures"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|m| m["measure"] == "reachability_share_amber-wrasse"));
 }
 
 #[test]

@@ -71,6 +71,31 @@ pub fn network_connectivity(
         .collect()
 }
 
+/// Network-level connectivity measures for `compare` and `assess`, per species in matrix
+/// order: `retention_<species>` (mean over scenarios of [`NetworkConnectivity::retention`]) and,
+/// where the species has reachability features, `reachability_share_<species>` (their mean).
+/// Higher is better for both.
+pub fn connectivity_measures(rows: &[NetworkConnectivity]) -> Vec<(String, f64)> {
+    let mut species: Vec<&str> = Vec::new();
+    for r in rows {
+        if !species.contains(&r.species.as_str()) {
+            species.push(&r.species);
+        }
+    }
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let mut out = Vec::new();
+    for sp in species {
+        let mine: Vec<&NetworkConnectivity> = rows.iter().filter(|r| r.species == sp).collect();
+        let kept: Vec<f64> = mine.iter().map(|r| r.retention).collect();
+        out.push((format!("retention_{sp}"), mean(&kept)));
+        let reach: Vec<f64> = mine.iter().filter_map(|r| r.reachability_share).collect();
+        if !reach.is_empty() {
+            out.push((format!("reachability_share_{sp}"), mean(&reach)));
+        }
+    }
+    out
+}
+
 /// One line per species for the terminal: the range over scenarios of retention and
 /// reachability, e.g. `amber-wrasse: keeps 12.0–15.5% of its larvae, holds 40.0–52.0% of the
 /// reachable future habitat`.

@@ -77,6 +77,7 @@ fn assess(args: &Args, progress: &Progress) -> Result<()> {
         progress,
     )?;
     let mut cmp = driftplan::compare::compare(&[(name.clone(), &a)])?;
+    pipeline::push_connectivity_measures(&mut cmp, &plan, &inputs, &[selected]);
     cmp.warnings = warnings.iter().map(|w| (name.clone(), w.clone())).collect();
     // Zone rules a network from a file may break (a solve's never does).
     let broken = driftplan::assess::zones::zone_rule_notes(&problem, &assignment);

@@ -123,6 +123,8 @@ fn compare(
         .collect();
     let mut cmp = driftplan::compare::compare(&named)?;
     cmp.warnings = warnings;
+    let selections: Vec<&[bool]> = given.iter().map(|(_, s)| s.as_slice()).collect();
+    pipeline::push_connectivity_measures(&mut cmp, &plan, &inputs, &selections);
     let options = solve_options(&plan, solver)?;
     let assigned: Vec<(String, Vec<u8>)> = given
         .iter()

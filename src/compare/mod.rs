@@ -111,6 +111,21 @@ pub struct Comparison {
 }
 
 impl Comparison {
+    /// Adds a measure computed outside the assessment (e.g. larval retention from the
+    /// dispersal matrices), one value per network, ranked like the others: only networks that
+    /// meet the most targets can be best. Panics if `values` does not hold one value per
+    /// network (a caller bug).
+    pub fn push_measure(&mut self, name: &str, better: Better, values: Vec<f64>) {
+        assert_eq!(values.len(), self.networks.len(), "one value per network");
+        let best = rank::best_among(&values, better, &self.ranked);
+        self.measures.push(Measure {
+            name: name.to_string(),
+            better,
+            values,
+            best,
+        });
+    }
+
     /// The measure called `name`, if any.
     pub fn measure(&self, name: &str) -> Option<&Measure> {
         self.measures.iter().find(|m| m.name == name)
