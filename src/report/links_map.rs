@@ -21,6 +21,8 @@ pub(crate) const MAX_ARROWS: usize = 30;
 /// Arrow stroke width of the weakest and the strongest link drawn. Units: SVG units.
 const THIN: f64 = 1.0;
 const THICK: f64 = 7.0;
+/// Narrowest drawing, so the two legend lines fit. Units: SVG units.
+const MIN_SVG_W: f64 = 560.0;
 /// Arrow colour: Okabe–Ito blue, apart from the green reserves and the grey land.
 const ARROW: &str = "#0072B2";
 
@@ -34,8 +36,9 @@ pub(crate) fn links_map(
     base: Option<&Basemap>,
 ) -> String {
     let frame = network_frame(grid);
-    let w = frame.width + 2.0 * PAD;
-    let h = frame.height + 2.0 * PAD + 40.0;
+    // Wide enough for the legend beside a tall, thin region.
+    let w = (frame.width + 2.0 * PAD).max(MIN_SVG_W);
+    let h = frame.height + 2.0 * PAD + 58.0;
     let shown = &links[..links.len().min(MAX_ARROWS)];
     let mut s = String::new();
     let _ = write!(
@@ -111,13 +114,14 @@ pub(crate) fn links_map(
     push_scale_bar(&mut s, &frame);
     let _ = write!(
         s,
-        r##"<g class="legend" font-size="12"><path d="M{x0} {y}H{x1}" stroke="{ARROW}" stroke-width="{t}" marker-end="url(#dp-link-head)"/><text x="{tx}" y="{ty}">strongest link: {pct} of a reserve's larvae settle in the other; width grows with the square root of the share</text></g>"##,
+        r##"<g class="legend" font-size="12"><path d="M{x0} {y}H{x1}" stroke="{ARROW}" stroke-width="{t}" marker-end="url(#dp-link-head)"/><text x="{tx}" y="{ty}">strongest link: {pct} of a reserve's larvae settle in the other;</text><text x="{tx}" y="{ty2}">arrow width grows with the square root of the share</text></g>"##,
         x0 = PAD,
         x1 = PAD + 40.0,
         y = round1(PAD + frame.height + 34.0),
         t = THICK,
         tx = PAD + 52.0,
         ty = round1(PAD + frame.height + 38.0),
+        ty2 = round1(PAD + frame.height + 54.0),
         pct = esc(&percent(strongest)),
     );
     s.push_str("</svg>");
