@@ -170,14 +170,8 @@ pub fn reserve_links(
     for &r in reserve_of.iter().filter(|&&r| r > 0) {
         size[r as usize - 1] += 1;
     }
-    let total: f64 = scenario_weights.iter().sum();
-    let weight = |s: usize| {
-        if total > 0.0 {
-            scenario_weights.get(s).copied().unwrap_or(0.0) / total
-        } else {
-            1.0 / scenario_weights.len().max(1) as f64
-        }
-    };
+    let shares = crate::model::robust::normalised_shares(scenario_weights);
+    let weight = |s: usize| shares.get(s).copied().unwrap_or(0.0);
     let mut species: Vec<&str> = Vec::new();
     for l in links {
         if !species.contains(&l.species.as_str()) {

@@ -35,14 +35,8 @@ pub fn link_reward(
     n_cells: usize,
     rule: &LinkRule,
 ) -> LinkReward {
-    let total: f64 = scenario_weights.iter().sum();
-    let share = |s: usize| {
-        if total > 0.0 {
-            scenario_weights.get(s).copied().unwrap_or(0.0) / total
-        } else {
-            1.0 / scenario_weights.len().max(1) as f64
-        }
-    };
+    let shares = crate::model::robust::normalised_shares(scenario_weights);
+    let share = |s: usize| shares.get(s).copied().unwrap_or(0.0);
     // (low, high) → strength; a BTreeMap keeps the result independent of hashing order.
     let mut both: BTreeMap<(u32, u32), f64> = BTreeMap::new();
     for l in links {

@@ -85,18 +85,18 @@ pub fn scenario_benefits(problem: &Problem) -> Vec<ScenarioBenefit> {
 
 /// Normalised scenario weights πₛ for the `expected` rule (uniform if all weights are zero).
 pub fn scenario_shares(problem: &Problem) -> Vec<f64> {
-    let total: f64 = problem.scenarios.iter().map(|s| s.weight).sum();
-    let n = problem.scenarios.len() as f64;
-    problem
-        .scenarios
+    let weights: Vec<f64> = problem.scenarios.iter().map(|s| s.weight).collect();
+    normalised_shares(&weights)
+}
+
+/// `weights` scaled to sum to 1 (uniform if they sum to zero or less): πₛ from a plan's
+/// scenario weights.
+pub fn normalised_shares(weights: &[f64]) -> Vec<f64> {
+    let total: f64 = weights.iter().sum();
+    let n = weights.len() as f64;
+    weights
         .iter()
-        .map(|s| {
-            if total > 0.0 {
-                s.weight / total
-            } else {
-                1.0 / n
-            }
-        })
+        .map(|w| if total > 0.0 { w / total } else { 1.0 / n })
         .collect()
 }
 
