@@ -709,6 +709,31 @@ pub fn model_features(table: &FeatureTable) -> Vec<ModelFeature> {
         .collect()
 }
 
+/// [`model_features`] without the copy: the amounts move out of `table` (its features keep
+/// their names, totals and targets, with empty amounts) into the model rows. At 1M cells the
+/// amounts are gigabytes; [`return_model_features`] puts them back once the model is done.
+pub fn take_model_features(table: &mut FeatureTable) -> Vec<ModelFeature> {
+    table
+        .features
+        .iter_mut()
+        .map(|f| ModelFeature {
+            name: f.name.clone(),
+            scenario: f.scenario,
+            amounts: std::mem::take(&mut f.amounts),
+            target: f.target.amount(f.total),
+            weight: f.weight,
+        })
+        .collect()
+}
+
+/// Gives the amounts taken by [`take_model_features`] back to `table` (same order).
+pub fn return_model_features(table: &mut FeatureTable, rows: Vec<ModelFeature>) {
+    debug_assert_eq!(table.features.len(), rows.len());
+    for (f, row) in table.features.iter_mut().zip(rows) {
+        f.amounts = row.amounts;
+    }
+}
+
 /// The solver-neutral problem a plan asks for.
 pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
     let features = model_features(&inputs.features);

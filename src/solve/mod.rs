@@ -184,8 +184,18 @@ pub fn with_scenario_best(
     solver: &dyn Solver,
     options: &SolveOptions,
 ) -> Result<Problem, SolveError> {
+    scenario_best_borrowed(problem, solver, options).map(std::borrow::Cow::into_owned)
+}
+
+/// [`with_scenario_best`] without a copy when nothing needs adding: the solvers call this, as a
+/// copy of a 1M-cell problem is gigabytes of amounts.
+pub fn scenario_best_borrowed<'a>(
+    problem: &'a Problem,
+    solver: &dyn Solver,
+    options: &SolveOptions,
+) -> Result<std::borrow::Cow<'a, Problem>, SolveError> {
     problem.validate()?;
-    let mut out = problem.clone();
+    let mut out = std::borrow::Cow::Borrowed(problem);
     if effective_robustness(problem) == Robustness::LeastRegret && problem.scenario_best.is_none() {
         let n = problem.scenarios.len();
         // Each Bₛ* solve gets one equal part of the time, the robust solve the rest
@@ -201,7 +211,7 @@ pub fn with_scenario_best(
         for s in 0..n {
             best.push(solver.solve(&scenario_problem(problem, s), &sub)?.objective);
         }
-        out.scenario_best = Some(best);
+        out.to_mut().scenario_best = Some(best);
     }
     Ok(out)
 }
