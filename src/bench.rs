@@ -181,39 +181,14 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             years: years.to_vec(),
             features: vec![],
         };
-        for (ci, (name, _)) in scenarios.iter().enumerate() {
-            for year in years {
-                for k in 0..spec.species {
-                    let layer_spec = LayerSpec {
-                        field: Some(format!("sp{k}")),
-                        valid_range: Some((0.0, 1.0)),
-                        ..LayerSpec::new(
-                            dir.join(format!("{name}_{year}.csv")),
-                            Sampling::Interpolate,
-                        )
-                    };
-                    let layer = sample(&format!("sp{k}"), &layer_spec, &grid, &cache)?;
-                    let sp = format!("sp{k}");
-                    table.features.push(habitat_feature(
-                        &grid,
-                        &HabitatLayer {
-                            species: &sp,
-                            scenario: ci,
-                            scenario_name: name,
-                            year,
-                            share: &layer.values,
-                            target_share: 0.3,
-                            weight: 1.0,
-                        },
-                    ));
-                }
-            }
-        }
+        table.features = bench_habitat_features(spec, &grid, &dir, &scenarios, &years, &cache)?;
         let nnz: usize = table.features.iter().map(|f| f.amounts.len()).sum();
         let note = format!("{} features, {nnz} non-zero amounts", table.features.len());
         Ok((table, note))
     })?;
     let _ = std::fs::remove_dir_all(&dir);
+    // The parsed CSV files (hundreds of MB at 1M cells) are not needed past this point.
+    drop(cache);
 
     // Climate stages on one scenario: velocity from a synthetic temperature field that cools
     // poleward and warms with time, trajectories along it, and range edges of every species.
@@ -530,4 +505,53 @@ fn edge_term_figure(problem: &Problem, selected: &[bool]) -> StageFigure {
         peak_mib: f64::NAN,
         note,
     }
+}
+
+/// The habitat features of every scenario, year and species, sampled in parallel (as
+/// `pipeline::prepare_on` does: each layer turned into its sparse feature at once, so only the
+/// layers in flight are dense), in scenario, year, species order whatever the thread count.
+fn bench_habitat_features(
+    spec: &BenchSpec,
+    grid: &crate::grid::Grid,
+    dir: &std::path::Path,
+    scenarios: &[(&str, f64)],
+    years: &[i32],
+    cache: &SourceCache,
+) -> Result<Vec<crate::features::Feature>, RunError> {
+    use rayon::prelude::*;
+    let jobs: Vec<(usize, &str, i32, usize)> = scenarios
+        .iter()
+        .enumerate()
+        .flat_map(|(ci, (name, _))| {
+            years
+                .iter()
+                .flat_map(move |&year| (0..spec.species).map(move |k| (ci, *name, year, k)))
+        })
+        .collect();
+    jobs.par_iter()
+        .map(|&(ci, name, year, k)| {
+            let layer_spec = LayerSpec {
+                field: Some(format!("sp{k}")),
+                valid_range: Some((0.0, 1.0)),
+                ..LayerSpec::new(
+                    dir.join(format!("{name}_{year}.csv")),
+                    Sampling::Interpolate,
+                )
+            };
+            let sp = format!("sp{k}");
+            let layer = sample(&sp, &layer_spec, grid, cache)?;
+            Ok(habitat_feature(
+                grid,
+                &HabitatLayer {
+                    species: &sp,
+                    scenario: ci,
+                    scenario_name: name,
+                    year,
+                    share: &layer.values,
+                    target_share: 0.3,
+                    weight: 1.0,
+                },
+            ))
+        })
+        .collect()
 }

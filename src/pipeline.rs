@@ -241,39 +241,38 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
             }
         }
     }
-    let sampled: Vec<Result<Layer, LayerError>> = jobs
+    // Each layer becomes its sparse feature as soon as it is sampled, so only the layers in
+    // flight (one per thread) are ever dense: at 1M cells × 480 layers the dense layers alone
+    // would be 3.8 GB. Collected in job order, so the table does not depend on thread count.
+    let sampled: Vec<Result<crate::features::Feature, LayerError>> = jobs
         .par_iter()
         .map(|(si, ci, year, spec)| {
-            let name = format!(
-                "habitat/{}/{}/{}",
-                plan.species[*si].name, plan.scenarios[*ci], year
-            );
-            sample(&name, spec, &grid, &cache)
+            let sp = &plan.species[*si];
+            let name = format!("habitat/{}/{}/{}", sp.name, plan.scenarios[*ci], year);
+            let layer = sample(&name, spec, &grid, &cache)?;
+            Ok(habitat_feature(
+                &grid,
+                &HabitatLayer {
+                    species: &sp.name,
+                    scenario: *ci,
+                    scenario_name: &plan.scenarios[*ci],
+                    year: *year,
+                    share: &layer.values,
+                    target_share: plan.target_share(sp),
+                    weight: sp.weight,
+                },
+            ))
         })
         .collect();
     let mut errors = Vec::new();
     let mut features = FeatureTable {
         scenarios: plan.scenarios.clone(),
         years: plan.years.clone(),
-        features: Vec::new(),
+        features: Vec::with_capacity(sampled.len()),
     };
-    for ((si, ci, year, _), layer) in jobs.iter().zip(sampled) {
-        match layer {
-            Ok(layer) => {
-                let sp = &plan.species[*si];
-                features.features.push(habitat_feature(
-                    &grid,
-                    &HabitatLayer {
-                        species: &sp.name,
-                        scenario: *ci,
-                        scenario_name: &plan.scenarios[*ci],
-                        year: *year,
-                        share: &layer.values,
-                        target_share: plan.target_share(sp),
-                        weight: sp.weight,
-                    },
-                ));
-            }
+    for feature in sampled {
+        match feature {
+            Ok(f) => features.features.push(f),
             Err(e) => errors.push(e),
         }
     }
