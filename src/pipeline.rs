@@ -733,9 +733,30 @@ pub fn return_model_features(table: &mut FeatureTable, rows: Vec<ModelFeature>) 
     }
 }
 
+/// Copies the model rows' amounts back into a table emptied by [`take_model_features`], for
+/// the stages after a solve that need both (assessment beside the stress test).
+pub fn copy_model_amounts(table: &mut FeatureTable, rows: &[ModelFeature]) {
+    debug_assert_eq!(table.features.len(), rows.len());
+    for (f, row) in table.features.iter_mut().zip(rows) {
+        f.amounts.clone_from(&row.amounts);
+    }
+}
+
 /// The solver-neutral problem a plan asks for.
 pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
-    let features = model_features(&inputs.features);
+    problem_with_rows(plan, inputs, model_features(&inputs.features))
+}
+
+/// [`problem`] with the amounts moved out of `inputs.features` instead of copied, so a large
+/// run holds one copy while it solves; [`copy_model_amounts`] restores them afterwards.
+pub fn problem_taking_amounts(plan: &Plan, inputs: &mut Inputs) -> Problem {
+    let rows = take_model_features(&mut inputs.features);
+    problem_with_rows(plan, inputs, rows)
+}
+
+/// The problem of `plan` with the given feature rows (the rest from `inputs`; zoning reads
+/// only the features' totals and kinds, never their amounts).
+fn problem_with_rows(plan: &Plan, inputs: &Inputs, features: Vec<ModelFeature>) -> Problem {
     let scenarios = plan
         .scenarios
         .iter()
@@ -1238,6 +1259,18 @@ mod tests {
         // 30% of 10 km² = 3 km² (hand computation).
         assert!((rows[0].target - 3.0).abs() < 1e-12);
         assert_eq!((rows[0].scenario, rows[0].weight), (Some(0), 2.0));
+        // Taking the amounts instead of copying them gives the same rows; giving them back
+        // (or copying them back) restores the table exactly.
+        let mut taken = table.clone();
+        let moved = take_model_features(&mut taken);
+        assert_eq!(moved, rows);
+        assert!(taken.features[0].amounts.is_empty());
+        assert_eq!(taken.features[0].total, 10.0);
+        copy_model_amounts(&mut taken, &moved);
+        assert_eq!(taken, table);
+        let _ = take_model_features(&mut taken);
+        return_model_features(&mut taken, moved);
+        assert_eq!(taken, table);
     }
 
     #[test]

@@ -77,7 +77,9 @@ pub(crate) fn solve(
     pipeline::check_budget(&plan, &inputs)?;
     // One time limit for every solve of the command (solve::time), building the model included.
     let clock = TimeBudget::start(plan.solver.time_limit_s);
-    let mut problem = pipeline::problem(&plan, &inputs);
+    // The amounts move into the problem (one copy while solving: gigabytes at 1M cells) and
+    // are copied back for the assessment once the network is chosen.
+    let mut problem = pipeline::problem_taking_amounts(&plan, &mut inputs);
     let options = solve_options(&plan, solver)?;
     let stress_solves = if no_stress || problem.scenarios.len() < 2 {
         0
@@ -121,6 +123,7 @@ pub(crate) fn solve(
         Err(e) => return Err(e.into()),
     };
     spinner.finish_and_clear();
+    pipeline::copy_model_amounts(&mut inputs.features, &problem.features);
     let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &problem, &solution);
     if let Some(z) = &solution.zones {
         // The `zone` column of the cell outputs: 0 outside, k for the plan's k-th zone.
