@@ -123,6 +123,21 @@ pub(crate) fn solve(
         Err(e) => return Err(e.into()),
     };
     spinner.finish_and_clear();
+    if solution.status == driftplan::solve::SolveStatus::TimeLimit {
+        let cells = driftplan::solve::gap_in_cells(
+            &problem,
+            &solution.selected,
+            solution.objective,
+            main.rel_gap,
+        );
+        if let Some(c) = cells.filter(|&c| c < 1.0) {
+            progress.say(&format!(
+                "note: the requested gap of {} is {c:.2} of one chosen cell's cost at this cell                  size; proving the optimum that closely is slow on a coarse grid (docs/method.md                  §6b): a gap of at least {:.2}% or smaller cells finish sooner",
+                driftplan::solve::progress::gap_percent(main.rel_gap),
+                100.0 * main.rel_gap / c
+            ));
+        }
+    }
     pipeline::copy_model_amounts(&mut inputs.features, &problem.features);
     let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &problem, &solution);
     if let Some(z) = &solution.zones {
