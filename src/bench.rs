@@ -435,6 +435,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
             .map_err(|e| RunError::Grid(crate::grid::GridError::Invalid(e.to_string())))?;
         Ok(((), format!("{:.1} MB", text.len() as f64 / 1e6)))
     })?;
+    figures.push(run_peak_figure(&figures));
     Ok(figures)
 }
 
@@ -554,4 +555,26 @@ fn bench_habitat_features(
             ))
         })
         .collect()
+}
+
+/// The whole run's peak memory: the largest stage peak (each stage's counter is reset when it
+/// starts, so the largest of them is the run's high-water mark over the timed stages).
+fn run_peak_figure(figures: &[StageFigure]) -> StageFigure {
+    let (peak, stage) =
+        figures
+            .iter()
+            .filter(|f| f.peak_mib.is_finite())
+            .fold((f64::NAN, ""), |(m, s), f| {
+                if m.is_nan() || f.peak_mib > m {
+                    (f.peak_mib, f.stage.as_str())
+                } else {
+                    (m, s)
+                }
+            });
+    StageFigure {
+        stage: "run peak".into(),
+        seconds: figures.iter().map(|f| f.seconds).sum(),
+        peak_mib: peak,
+        note: format!("largest stage peak (in {stage}); seconds: all timed stages"),
+    }
 }

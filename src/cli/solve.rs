@@ -132,7 +132,9 @@ pub(crate) fn solve(
         );
         if let Some(c) = cells.filter(|&c| c < 1.0) {
             progress.say(&format!(
-                "note: the requested gap of {} is {c:.2} of one chosen cell's cost at this cell                  size; proving the optimum that closely is slow on a coarse grid (docs/method.md                  §6b): a gap of at least {:.2}% or smaller cells finish sooner",
+                "note: the requested gap of {} is {c:.2} of one chosen cell's cost at this cell \
+                 size; proving the optimum that closely is slow on a coarse grid (docs/method.md \
+                 §6b): a gap of at least {:.2}% or smaller cells finish sooner",
                 driftplan::solve::progress::gap_percent(main.rel_gap),
                 100.0 * main.rel_gap / c
             ));
