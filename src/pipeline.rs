@@ -241,39 +241,38 @@ pub fn prepare_on(plan: &Plan, grid: Grid, progress: &dyn Fn(&str)) -> Result<In
             }
         }
     }
-    let sampled: Vec<Result<Layer, LayerError>> = jobs
+    // Each layer becomes its sparse feature as soon as it is sampled, so only the layers in
+    // flight (one per thread) are ever dense: at 1M cells × 480 layers the dense layers alone
+    // would be 3.8 GB. Collected in job order, so the table does not depend on thread count.
+    let sampled: Vec<Result<crate::features::Feature, LayerError>> = jobs
         .par_iter()
         .map(|(si, ci, year, spec)| {
-            let name = format!(
-                "habitat/{}/{}/{}",
-                plan.species[*si].name, plan.scenarios[*ci], year
-            );
-            sample(&name, spec, &grid, &cache)
+            let sp = &plan.species[*si];
+            let name = format!("habitat/{}/{}/{}", sp.name, plan.scenarios[*ci], year);
+            let layer = sample(&name, spec, &grid, &cache)?;
+            Ok(habitat_feature(
+                &grid,
+                &HabitatLayer {
+                    species: &sp.name,
+                    scenario: *ci,
+                    scenario_name: &plan.scenarios[*ci],
+                    year: *year,
+                    share: &layer.values,
+                    target_share: plan.target_share(sp),
+                    weight: sp.weight,
+                },
+            ))
         })
         .collect();
     let mut errors = Vec::new();
     let mut features = FeatureTable {
         scenarios: plan.scenarios.clone(),
         years: plan.years.clone(),
-        features: Vec::new(),
+        features: Vec::with_capacity(sampled.len()),
     };
-    for ((si, ci, year, _), layer) in jobs.iter().zip(sampled) {
-        match layer {
-            Ok(layer) => {
-                let sp = &plan.species[*si];
-                features.features.push(habitat_feature(
-                    &grid,
-                    &HabitatLayer {
-                        species: &sp.name,
-                        scenario: *ci,
-                        scenario_name: &plan.scenarios[*ci],
-                        year: *year,
-                        share: &layer.values,
-                        target_share: plan.target_share(sp),
-                        weight: sp.weight,
-                    },
-                ));
-            }
+    for feature in sampled {
+        match feature {
+            Ok(f) => features.features.push(f),
             Err(e) => errors.push(e),
         }
     }
@@ -740,9 +739,55 @@ pub fn model_features(table: &FeatureTable) -> Vec<ModelFeature> {
         .collect()
 }
 
+/// [`model_features`] without the copy: the amounts move out of `table` (its features keep
+/// their names, totals and targets, with empty amounts) into the model rows. At 1M cells the
+/// amounts are gigabytes; [`return_model_features`] puts them back once the model is done.
+pub fn take_model_features(table: &mut FeatureTable) -> Vec<ModelFeature> {
+    table
+        .features
+        .iter_mut()
+        .map(|f| ModelFeature {
+            name: f.name.clone(),
+            scenario: f.scenario,
+            amounts: std::mem::take(&mut f.amounts),
+            target: f.target.amount(f.total),
+            weight: f.weight,
+        })
+        .collect()
+}
+
+/// Gives the amounts taken by [`take_model_features`] back to `table` (same order).
+pub fn return_model_features(table: &mut FeatureTable, rows: Vec<ModelFeature>) {
+    debug_assert_eq!(table.features.len(), rows.len());
+    for (f, row) in table.features.iter_mut().zip(rows) {
+        f.amounts = row.amounts;
+    }
+}
+
+/// Copies the model rows' amounts back into a table emptied by [`take_model_features`], for
+/// the stages after a solve that need both (assessment beside the stress test).
+pub fn copy_model_amounts(table: &mut FeatureTable, rows: &[ModelFeature]) {
+    debug_assert_eq!(table.features.len(), rows.len());
+    for (f, row) in table.features.iter_mut().zip(rows) {
+        f.amounts.clone_from(&row.amounts);
+    }
+}
+
 /// The solver-neutral problem a plan asks for.
 pub fn problem(plan: &Plan, inputs: &Inputs) -> Problem {
-    let features = model_features(&inputs.features);
+    problem_with_rows(plan, inputs, model_features(&inputs.features))
+}
+
+/// [`problem`] with the amounts moved out of `inputs.features` instead of copied, so a large
+/// run holds one copy while it solves; [`copy_model_amounts`] restores them afterwards.
+pub fn problem_taking_amounts(plan: &Plan, inputs: &mut Inputs) -> Problem {
+    let rows = take_model_features(&mut inputs.features);
+    problem_with_rows(plan, inputs, rows)
+}
+
+/// The problem of `plan` with the given feature rows (the rest from `inputs`; zoning reads
+/// only the features' totals and kinds, never their amounts).
+fn problem_with_rows(plan: &Plan, inputs: &Inputs, features: Vec<ModelFeature>) -> Problem {
     let scenarios = plan
         .scenarios
         .iter()
@@ -1258,6 +1303,18 @@ mod tests {
         // 30% of 10 km² = 3 km² (hand computation).
         assert!((rows[0].target - 3.0).abs() < 1e-12);
         assert_eq!((rows[0].scenario, rows[0].weight), (Some(0), 2.0));
+        // Taking the amounts instead of copying them gives the same rows; giving them back
+        // (or copying them back) restores the table exactly.
+        let mut taken = table.clone();
+        let moved = take_model_features(&mut taken);
+        assert_eq!(moved, rows);
+        assert!(taken.features[0].amounts.is_empty());
+        assert_eq!(taken.features[0].total, 10.0);
+        copy_model_amounts(&mut taken, &moved);
+        assert_eq!(taken, table);
+        let _ = take_model_features(&mut taken);
+        return_model_features(&mut taken, moved);
+        assert_eq!(taken, table);
     }
 
     #[test]

@@ -12,6 +12,10 @@ pub(crate) struct Args {
     /// Species per region (each gives 12 features).
     #[arg(long, default_value_t = 10)]
     species: usize,
+    /// Habitat shape: `smooth` bands, or `patchy` (bands times a smooth seeded random field,
+    /// and costs that vary from cell to cell).
+    #[arg(long, default_value = "smooth")]
+    habitat: String,
     /// Solver time limit per run. Units: s.
     #[arg(long, default_value_t = 120.0)]
     time_limit: f64,
@@ -38,11 +42,16 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         "{:>9}  {:<24} {:>9} {:>10}  note",
         "cells", "stage", "seconds", "peak MiB"
     );
+    let habitat: driftplan::bench::patchy::Habitat = args
+        .habitat
+        .parse()
+        .map_err(|e: String| anyhow::anyhow!(e))?;
     for n in args.cells {
         anyhow::ensure!(n >= 100, "--cells values must be at least 100, got {n}");
         let spec = driftplan::bench::BenchSpec {
             cells: n,
             species: args.species,
+            habitat,
             time_limit_s: args.time_limit,
             gap: args.gap,
             edge_penalty: args.edge_penalty,

@@ -77,7 +77,9 @@ pub(crate) fn solve(
     pipeline::check_budget(&plan, &inputs)?;
     // One time limit for every solve of the command (solve::time), building the model included.
     let clock = TimeBudget::start(plan.solver.time_limit_s);
-    let mut problem = pipeline::problem(&plan, &inputs);
+    // The amounts move into the problem (one copy while solving: gigabytes at 1M cells) and
+    // are copied back for the assessment once the network is chosen.
+    let mut problem = pipeline::problem_taking_amounts(&plan, &mut inputs);
     let options = solve_options(&plan, solver)?;
     let stress_solves = if no_stress || problem.scenarios.len() < 2 {
         0
@@ -121,6 +123,24 @@ pub(crate) fn solve(
         Err(e) => return Err(e.into()),
     };
     spinner.finish_and_clear();
+    if solution.status == driftplan::solve::SolveStatus::TimeLimit {
+        let cells = driftplan::solve::gap_in_cells(
+            &problem,
+            &solution.selected,
+            solution.objective,
+            main.rel_gap,
+        );
+        if let Some(c) = cells.filter(|&c| c < 1.0) {
+            progress.say(&format!(
+                "note: the requested gap of {} is {c:.2} of one chosen cell's cost at this cell \
+                 size; proving the optimum that closely is slow on a coarse grid (docs/method.md \
+                 §6b): a gap of at least {:.2}% or smaller cells finish sooner",
+                driftplan::solve::progress::gap_percent(main.rel_gap),
+                100.0 * main.rel_gap / c
+            ));
+        }
+    }
+    pipeline::copy_model_amounts(&mut inputs.features, &problem.features);
     let (assessment, zone_shares) = pipeline::assess_solution(&inputs, &problem, &solution);
     if let Some(z) = &solution.zones {
         // The `zone` column of the cell outputs: 0 outside, k for the plan's k-th zone.

@@ -24,7 +24,7 @@ pub struct HabitatLayer<'a> {
 /// Turns a suitability layer into a habitat feature: amount = share × sea area, so the unit
 /// is km² of suitable habitat and the target is a share of that scenario-year's total.
 pub fn habitat_feature(grid: &Grid, layer: &HabitatLayer<'_>) -> Feature {
-    let amounts: Vec<(u32, f64)> = layer
+    let mut amounts: Vec<(u32, f64)> = layer
         .share
         .iter()
         .zip(&grid.cells)
@@ -32,6 +32,9 @@ pub fn habitat_feature(grid: &Grid, layer: &HabitatLayer<'_>) -> Feature {
         .filter(|(_, (s, _))| **s > 0.0)
         .map(|(i, (s, c))| (i as u32, s * c.sea_area_km2))
         .collect();
+    // A filtered collect grows by doubling: up to half the allocation would be slack, which
+    // at 1M cells × 480 features is gigabytes.
+    amounts.shrink_to_fit();
     // An empty f64 sum is −0.0 (a species with no habitat); + 0.0 keeps "-0" out of outputs.
     let total = amounts.iter().map(|(_, a)| a).sum::<f64>() + 0.0;
     Feature {

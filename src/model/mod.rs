@@ -7,6 +7,7 @@
 //! documented in [`robust`], [`compact`] and [`spacing`].
 
 pub mod alternative;
+pub mod cell_major;
 pub mod compact;
 pub mod evaluate;
 pub mod links;
@@ -18,6 +19,7 @@ mod validate;
 pub mod zones;
 
 pub use alternative::Alternative;
+pub use cell_major::CellMajor;
 pub use evaluate::{evaluate, evaluate_zoned, Evaluation, ScenarioResult};
 pub use links::LinkReward;
 pub use min_size::MinReserve;

@@ -27,7 +27,7 @@ use crate::model::{evaluate, CellStatus, Objective, Problem};
 use super::greedy::greedy_network;
 use super::state::{Flip, State};
 use super::{
-    make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+    make_solution, scenario_best_borrowed, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
 
 /// Simulated annealing (module doc).
@@ -73,7 +73,7 @@ impl Solver for Anneal {
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
         super::exact_only(problem, self.name())?;
-        let problem = with_scenario_best(problem, self, options)?;
+        let problem = scenario_best_borrowed(problem, self, options)?;
         let p = &problem;
         let free: Vec<usize> = (0..p.n_cells())
             .filter(|&i| p.status[i] == CellStatus::Free)

@@ -8,7 +8,7 @@ use crate::model::robust::is_minimisation;
 use crate::model::{evaluate, CellStatus, Problem};
 
 use super::{
-    make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+    make_solution, scenario_best_borrowed, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
 
 /// Most free cells enumerated (2²⁰ ≈ 10⁶ networks).
@@ -26,7 +26,7 @@ impl Solver for BruteForce {
 
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
-        let problem = with_scenario_best(problem, self, options)?;
+        let problem = scenario_best_borrowed(problem, self, options)?;
         let free: Vec<usize> = (0..problem.n_cells())
             .filter(|&i| problem.status[i] == CellStatus::Free)
             .collect();

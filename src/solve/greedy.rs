@@ -31,7 +31,7 @@ use crate::model::{evaluate, CellStatus, Objective, Problem, Robustness};
 use super::diagnose::diagnose;
 use super::state::State;
 use super::{
-    make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+    make_solution, scenario_best_borrowed, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
 
 /// The greedy heuristic (module doc).
@@ -124,10 +124,6 @@ fn grow(st: &mut State) {
             }
         }
     }
-    let nbrs = p
-        .edge_penalty
-        .as_ref()
-        .map(|e| crate::model::compact::neighbour_lists(e, n));
     while let Some(top) = heap.pop() {
         if p.objective == Objective::MinCost && st.unmet() == 0 {
             break;
@@ -149,18 +145,19 @@ fn grow(st: &mut State) {
             continue;
         }
         st.flip(i);
-        if let Some(nb) = &nbrs {
-            for &(j, _) in &nb[i] {
-                let j = j as usize;
-                if p.status[j] == CellStatus::Free && !st.selected[j] {
-                    stamp[j] += 1;
-                    if let Some(s) = score(st, j) {
-                        heap.push(Entry {
-                            score: s,
-                            cell: j as u32,
-                            stamp: stamp[j],
-                        });
-                    }
+        // The state's neighbour lists (empty without an edge penalty); copied out since
+        // scoring borrows the state mutably. Rook neighbours: at most a handful.
+        let nb: Vec<u32> = st.neighbours(i).iter().map(|&(j, _)| j).collect();
+        for j in nb {
+            let j = j as usize;
+            if p.status[j] == CellStatus::Free && !st.selected[j] {
+                stamp[j] += 1;
+                if let Some(s) = score(st, j) {
+                    heap.push(Entry {
+                        score: s,
+                        cell: j as u32,
+                        stamp: stamp[j],
+                    });
                 }
             }
         }
@@ -294,7 +291,7 @@ impl Solver for Greedy {
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
         super::exact_only(problem, self.name())?;
-        let problem = with_scenario_best(problem, self, options)?;
+        let problem = scenario_best_borrowed(problem, self, options)?;
         let sel = greedy_network(&problem)?;
         let objective = evaluate(&problem, &sel).objective;
         Ok(make_solution(

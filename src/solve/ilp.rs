@@ -47,7 +47,7 @@ use super::diagnose::diagnose;
 use super::greedy::greedy_network;
 use super::progress::{ProgressSink, SolveProgress};
 use super::{
-    make_solution, with_scenario_best, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+    make_solution, scenario_best_borrowed, Solution, SolveError, SolveOptions, SolveStatus, Solver,
 };
 
 /// What one column of the formulation stands for (for warm starts and reading results).
@@ -591,7 +591,7 @@ impl Solver for Highs {
 
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         let started = Instant::now();
-        let problem = with_scenario_best(problem, self, options)?;
+        let problem = scenario_best_borrowed(problem, self, options)?;
         if problem.objective == Objective::MinCost {
             let short = diagnose(&problem);
             if !short.is_empty() {
@@ -790,7 +790,7 @@ impl Solver for Cbc {
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
         use good_lp::Solution as _;
         let started = Instant::now();
-        let problem = with_scenario_best(problem, self, options)?;
+        let problem = scenario_best_borrowed(problem, self, options)?;
         let form = formulate(&problem)?;
         let Formulation {
             vars,

@@ -173,6 +173,26 @@ pub enum SolveError {
     Solver(String),
 }
 
+/// How many chosen cells a relative gap stands for: `rel_gap` × |`objective`| ÷ the mean cost of
+/// the free cells in `selected`. Below 1 the solver must prove the optimum to within less than one
+/// cell's cost; on a coarse grid, where the LP bound sits about a cell below the best network,
+/// that proof takes branch and bound far longer than finding the network (docs/method.md §6b).
+/// `None` when no free cell is chosen or they cost nothing.
+pub fn gap_in_cells(
+    problem: &Problem,
+    selected: &[bool],
+    objective: f64,
+    rel_gap: f64,
+) -> Option<f64> {
+    let (count, total) = selected
+        .iter()
+        .zip(&problem.status)
+        .zip(&problem.cost)
+        .filter(|((s, st), _)| **s && **st == crate::model::CellStatus::Free)
+        .fold((0usize, 0.0f64), |(n, t), (_, c)| (n + 1, t + c));
+    (count > 0 && total > 0.0).then(|| rel_gap * objective.abs() / (total / count as f64))
+}
+
 /// The problem with Bₛ* filled in when its rule needs it (least-regret): each scenario alone
 /// is solved with `solver` (see [`crate::model::robust::scenario_problem`]) and its objective
 /// taken as Bₛ*. Other problems, or ones that already carry Bₛ*, are returned unchanged.
@@ -184,8 +204,18 @@ pub fn with_scenario_best(
     solver: &dyn Solver,
     options: &SolveOptions,
 ) -> Result<Problem, SolveError> {
+    scenario_best_borrowed(problem, solver, options).map(std::borrow::Cow::into_owned)
+}
+
+/// [`with_scenario_best`] without a copy when nothing needs adding: the solvers call this, as a
+/// copy of a 1M-cell problem is gigabytes of amounts.
+pub fn scenario_best_borrowed<'a>(
+    problem: &'a Problem,
+    solver: &dyn Solver,
+    options: &SolveOptions,
+) -> Result<std::borrow::Cow<'a, Problem>, SolveError> {
     problem.validate()?;
-    let mut out = problem.clone();
+    let mut out = std::borrow::Cow::Borrowed(problem);
     if effective_robustness(problem) == Robustness::LeastRegret && problem.scenario_best.is_none() {
         let n = problem.scenarios.len();
         // Each Bₛ* solve gets one equal part of the time, the robust solve the rest
@@ -201,7 +231,7 @@ pub fn with_scenario_best(
         for s in 0..n {
             best.push(solver.solve(&scenario_problem(problem, s), &sub)?.objective);
         }
-        out.scenario_best = Some(best);
+        out.to_mut().scenario_best = Some(best);
     }
     Ok(out)
 }
@@ -297,6 +327,32 @@ pub trait Solver {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn gap_in_cells_divides_the_gap_by_the_mean_chosen_free_cell() {
+        // Hand computation: costs [2, 4, 6, 10], cell 3 required; chosen {0, 1, 3}: the free
+        // chosen cells cost 2 and 4 (mean 3); objective 16 at gap 0.5 → 8 / 3 cells.
+        let mut p = crate::model::Problem::plain(
+            vec![2.0, 4.0, 6.0, 10.0],
+            vec![1.0; 4],
+            vec![crate::model::Scenario {
+                name: "s".into(),
+                weight: 1.0,
+            }],
+            vec![],
+            crate::model::Objective::MinCost,
+            crate::model::Robustness::EveryScenario,
+        );
+        p.status[3] = crate::model::CellStatus::Required;
+        let sel = [true, true, false, true];
+        let g = gap_in_cells(&p, &sel, 16.0, 0.5).unwrap();
+        assert!((g - 8.0 / 3.0).abs() < 1e-12);
+        // No free cell chosen: no answer.
+        assert_eq!(
+            gap_in_cells(&p, &[false, false, false, true], 10.0, 0.5),
+            None
+        );
+    }
 
     fn solution(status: SolveStatus, gap: f64) -> Solution {
         Solution {

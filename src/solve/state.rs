@@ -5,7 +5,7 @@
 use crate::model::compact::neighbour_lists;
 use crate::model::robust::{combine, is_minimisation, scenario_benefits};
 use crate::model::spacing::gap_rows;
-use crate::model::{CellStatus, Objective, Problem};
+use crate::model::{CellMajor, CellStatus, Objective, Problem};
 
 /// What flipping one cell would change.
 pub(crate) struct Flip {
@@ -24,13 +24,17 @@ pub(crate) struct Flip {
 pub(crate) struct State<'a> {
     pub p: &'a Problem,
     pub selected: Vec<bool>,
-    cell_feats: Vec<Vec<(u32, f64)>>,
+    /// Amounts by cell (one compact index, `model::cell_major`).
+    cell_feats: CellMajor,
     /// For each feature, the scenarios it counts in and its coefficient wₖ/capₖ there.
     feat_coef: Vec<f64>,
     feat_scen: Vec<Vec<u32>>,
     /// Benefit cap of each feature (`ModelFeature::benefit_cap`, cached: it sums amounts).
     caps: Vec<Option<f64>>,
     pub protected: Vec<f64>,
+    /// Features whose holding is below the target (`evaluate::at_least`), kept up to date by
+    /// [`State::flip`] so the greedy loop need not rescan every feature after each step.
+    unmet: usize,
     pub benefit: Vec<f64>,
     pub cost: f64,
     pub area: f64,
@@ -61,12 +65,7 @@ impl<'a> State<'a> {
     pub fn new(p: &'a Problem) -> Self {
         let n = p.n_cells();
         let s_count = p.scenarios.len();
-        let mut cell_feats = vec![Vec::new(); n];
-        for (k, f) in p.features.iter().enumerate() {
-            for &(c, a) in &f.amounts {
-                cell_feats[c as usize].push((k as u32, a));
-            }
-        }
+        let cell_feats = CellMajor::new(p);
         let mut feat_coef = vec![0.0; p.features.len()];
         let mut feat_scen = vec![Vec::new(); p.features.len()];
         let sb = scenario_benefits(p);
@@ -94,6 +93,11 @@ impl<'a> State<'a> {
             feat_scen,
             caps: p.features.iter().map(|f| f.benefit_cap()).collect(),
             protected: vec![0.0; p.features.len()],
+            unmet: p
+                .features
+                .iter()
+                .filter(|f| !crate::model::evaluate::at_least(0.0, f.target))
+                .count(),
             benefit,
             cost: 0.0,
             area: 0.0,
@@ -191,8 +195,8 @@ impl<'a> State<'a> {
         let sign = if self.selected[i] { -1.0 } else { 1.0 };
         self.scratch.iter_mut().for_each(|x| *x = 0.0);
         let mut d_short = 0.0;
-        for idx in 0..self.cell_feats[i].len() {
-            let (k, a) = self.cell_feats[i][idx];
+        let (feats, amounts) = self.cell_feats.cell(i);
+        for (&k, &a) in feats.iter().zip(amounts) {
             let (dc, ds) = self.credit_delta(k as usize, sign * a);
             d_short += ds;
             let coef = self.feat_coef[k as usize];
@@ -285,6 +289,12 @@ impl<'a> State<'a> {
         d
     }
 
+    /// Rook neighbours of cell `i` with their shared edge (km), sorted by neighbour; empty
+    /// without an edge penalty.
+    pub fn neighbours(&self, i: usize) -> &[(u32, f64)] {
+        &self.nb[i]
+    }
+
     /// Chosen cells that currently break the minimum-size rule, ascending.
     pub fn lone_cells(&self) -> Vec<usize> {
         (0..self.lone_applies.len())
@@ -299,9 +309,20 @@ impl<'a> State<'a> {
         for (s, d) in self.scratch.iter().enumerate() {
             self.benefit[s] += d;
         }
-        for idx in 0..self.cell_feats[i].len() {
-            let (k, a) = self.cell_feats[i][idx];
-            self.protected[k as usize] += sign * a;
+        let (feats, amounts) = self.cell_feats.cell(i);
+        for (&k, &a) in feats.iter().zip(amounts) {
+            let k = k as usize;
+            let target = self.p.features[k].target;
+            let was = crate::model::evaluate::at_least(self.protected[k], target);
+            self.protected[k] += sign * a;
+            let now = crate::model::evaluate::at_least(self.protected[k], target);
+            if was != now {
+                if now {
+                    self.unmet -= 1;
+                } else {
+                    self.unmet += 1;
+                }
+            }
         }
         self.cost += f.d_cost;
         self.area += f.d_area;
@@ -393,12 +414,16 @@ impl<'a> State<'a> {
 
     /// Targets still unmet (min-cost), up to the evaluate tolerance.
     pub fn unmet(&self) -> usize {
-        self.p
-            .features
-            .iter()
-            .zip(&self.protected)
-            .filter(|(f, h)| !crate::model::evaluate::at_least(**h, f.target))
-            .count()
+        debug_assert_eq!(
+            self.unmet,
+            self.p
+                .features
+                .iter()
+                .zip(&self.protected)
+                .filter(|(f, h)| !crate::model::evaluate::at_least(**h, f.target))
+                .count()
+        );
+        self.unmet
     }
 
     /// Indices of the max-gap rows currently violated.
@@ -413,5 +438,79 @@ impl<'a> State<'a> {
         (0..self.p.n_cells() as u32)
             .filter(|&c| self.cell_rows[c as usize].contains(&(r as u32)))
             .collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::compact::unit_grid_penalty;
+    use crate::model::{evaluate, ModelFeature, Robustness, Scenario};
+    use rand::{Rng, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+
+    /// After any sequence of flips, the incremental totals equal `model::evaluate`'s
+    /// recomputation from the raw amounts (the project's independent referee): holdings,
+    /// cost, exposed edge, objective and the count of unmet targets.
+    #[test]
+    fn incremental_totals_match_a_full_recount() {
+        let mut rng = ChaCha8Rng::seed_from_u64(11);
+        for round in 0..20 {
+            let (rows, cols) = (4, 5);
+            let n = rows * cols;
+            let features: Vec<ModelFeature> = (0..6)
+                .map(|k| {
+                    let amounts: Vec<(u32, f64)> = (0..n as u32)
+                        .filter_map(|c| {
+                            let keep = rng.gen_bool(0.4);
+                            let a = rng.gen_range(0.1..3.0);
+                            keep.then_some((c, a))
+                        })
+                        .collect();
+                    let total: f64 = amounts.iter().map(|a| a.1).sum();
+                    ModelFeature {
+                        name: format!("f{k}"),
+                        scenario: None,
+                        amounts,
+                        target: 0.3 * total,
+                        weight: 1.0,
+                    }
+                })
+                .collect();
+            let p = Problem {
+                edge_penalty: Some(unit_grid_penalty(rows, cols, 0.5)),
+                ..Problem::plain(
+                    (0..n).map(|_| rng.gen_range(1.0..5.0)).collect(),
+                    vec![1.0; n],
+                    vec![Scenario {
+                        name: "s".into(),
+                        weight: 1.0,
+                    }],
+                    features,
+                    Objective::MinCost,
+                    Robustness::EveryScenario,
+                )
+            };
+            let mut st = State::new(&p);
+            for _ in 0..60 {
+                st.flip(rng.gen_range(0..n));
+                let e = evaluate(&p, &st.selected);
+                // Absent features (no amount anywhere) are never "reached" in `evaluate`, but
+                // hold their target 0: count by the same at-least rule as the state.
+                let unmet = p
+                    .features
+                    .iter()
+                    .zip(&e.protected)
+                    .filter(|(f, h)| !crate::model::evaluate::at_least(**h, f.target))
+                    .count();
+                assert_eq!(st.unmet(), unmet, "round {round}");
+                for (a, b) in st.protected.iter().zip(&e.protected) {
+                    assert!((a - b).abs() < 1e-9, "round {round}: {a} vs {b}");
+                }
+                assert!((st.cost - e.cost).abs() < 1e-9);
+                assert!((st.exposed - e.exposed_edge_km).abs() < 1e-9);
+                assert!((st.objective() - e.objective).abs() < 1e-9);
+            }
+        }
     }
 }
