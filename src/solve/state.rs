@@ -451,7 +451,7 @@ mod tests {
 
     /// After any sequence of flips, the incremental totals equal `model::evaluate`'s
     /// recomputation from the raw amounts (the project's independent referee): holdings,
-    /// cost, exposed edge, objective and the count of unmet targets.
+    /// cost, exposed edge, link strength, objective and the count of unmet targets.
     #[test]
     fn incremental_totals_match_a_full_recount() {
         let mut rng = ChaCha8Rng::seed_from_u64(11);
@@ -477,8 +477,15 @@ mod tests {
                     }
                 })
                 .collect();
+            // Links between random pairs (the connectivity reward, model::links).
+            let pairs = (0..n as u32)
+                .flat_map(|i| (i + 1..n as u32).map(move |j| (i, j)))
+                .filter(|_| rng.gen_bool(0.1))
+                .map(|(i, j)| (i, j, 0.1 * (1 + (i + j) % 5) as f64))
+                .collect();
             let p = Problem {
                 edge_penalty: Some(unit_grid_penalty(rows, cols, 0.5)),
+                link_reward: Some(crate::model::LinkReward { weight: 0.7, pairs }),
                 ..Problem::plain(
                     (0..n).map(|_| rng.gen_range(1.0..5.0)).collect(),
                     vec![1.0; n],
@@ -509,6 +516,7 @@ mod tests {
                 }
                 assert!((st.cost - e.cost).abs() < 1e-9);
                 assert!((st.exposed - e.exposed_edge_km).abs() < 1e-9);
+                assert!((st.linked - e.linked).abs() < 1e-9);
                 assert!((st.objective() - e.objective).abs() < 1e-9);
             }
         }
