@@ -84,11 +84,18 @@ impl<'a> CurrentField<'a> {
 /// The field laid out for the tracking loop: one `[u, v, sea]` node per lattice square, with a
 /// ring of empty nodes around the lattice, so a bilinear look-up is four loads from two rows
 /// and no bounds or land checks — `sea` is 1 where a cell holds the square, else 0 (and u, v
-/// are 0 there). [`FieldLattice::velocity`] is [`CurrentField::velocity`] in this layout: the
+/// are 0 there); where all four are at sea (most of the sea) the bilinear coefficients are
+/// kept ready. [`FieldLattice::velocity`] is [`CurrentField::velocity`] in this layout: the
 /// missing corners drop out of Σw·u / Σw·sea exactly as they do there.
 #[derive(Debug, Clone)]
 pub struct FieldLattice {
     nodes: Vec<[f64; 4]>,
+    /// Per node k, the bilinear coefficients of the square of centres with lower-left k when
+    /// all four hold a cell: u = a + b·fx + c·fy + d·fx·fy as `[a, b, c, d]` for u, then v
+    /// (one cache line; Σw = 1 there, so no renormalising division).
+    full: Vec<[f64; 8]>,
+    /// Whether node k's square of centres has all four corners at sea.
+    is_full: Vec<bool>,
     /// Nodes per padded row (lattice columns + 2).
     width: usize,
     /// Padded columns and rows minus one: the largest valid lower-left corner index + 1.
@@ -113,8 +120,31 @@ impl FieldLattice {
                 }
             }
         }
+        let mut full = vec![[0.0; 8]; nodes.len()];
+        let mut is_full = vec![false; nodes.len()];
+        for k in 0..nodes.len().saturating_sub(width + 1) {
+            let (a, b, c, d) = (
+                nodes[k],
+                nodes[k + 1],
+                nodes[k + width],
+                nodes[k + width + 1],
+            );
+            if a[2] + b[2] + c[2] + d[2] == 4.0 {
+                is_full[k] = true;
+                for (i, o) in [(0, 0), (1, 4)] {
+                    full[k][o..o + 4].copy_from_slice(&[
+                        a[i],
+                        b[i] - a[i],
+                        c[i] - a[i],
+                        d[i] - b[i] - c[i] + a[i],
+                    ]);
+                }
+            }
+        }
         FieldLattice {
             nodes,
+            full,
+            is_full,
             width,
             limit: [(cols + 1) as f64, (rows + 1) as f64],
             // Padded index p = lattice index + 1, so the centre of padded square 0 lies half
@@ -137,10 +167,19 @@ impl FieldLattice {
         if !(gx >= 0.0 && gy >= 0.0 && gx < self.limit[0] && gy < self.limit[1]) {
             return [0.0, 0.0];
         }
-        // Truncation is the floor here (both are ≥ 0), without a libm call.
-        let (c0, r0) = (gx as usize, gy as usize);
+        // Truncation is the floor here (both are ≥ 0), without a libm call; through i64,
+        // which the processor converts to directly.
+        let (c0, r0) = (gx as i64 as usize, gy as i64 as usize);
         let (fx, fy) = (gx - c0 as f64, gy - r0 as f64);
         let k = r0 * self.width + c0;
+        if self.is_full[k] {
+            let q = &self.full[k];
+            let fxy = fx * fy;
+            return [
+                q[0] + q[1] * fx + q[2] * fy + q[3] * fxy,
+                q[4] + q[5] * fx + q[6] * fy + q[7] * fxy,
+            ];
+        }
         let (a, b) = (self.nodes[k], self.nodes[k + 1]);
         let (c, d) = (self.nodes[k + self.width], self.nodes[k + self.width + 1]);
         let (w00, w10) = ((1.0 - fx) * (1.0 - fy), fx * (1.0 - fy));

@@ -236,7 +236,7 @@ impl<'a> Tracker<'a> {
         while first < particles {
             let lanes = (particles - first).min(LANES as u32) as usize;
             let mut rng: Vec<ChaCha8Rng> = Vec::with_capacity(lanes);
-            let mut x = [[0.0f64; 2]; LANES];
+            let mut x = [[f64::NAN; 2]; LANES];
             for (l, xl) in x.iter_mut().enumerate().take(lanes) {
                 let mut r = keyed.clone();
                 r.set_stream((first as usize + l) as u64);
@@ -257,7 +257,8 @@ impl<'a> Tracker<'a> {
             let mut step = 0;
             while n_alive > 0 && step < horizon {
                 step += 1;
-                // Dead lanes are evaluated too (the look-up is total): no branches.
+                // Dead and unused lanes are evaluated too (the look-up is total and returns at
+                // once for their NaN position): no branches on liveness.
                 for l in 0..LANES {
                     k1[l] = vel(x[l]);
                 }
@@ -310,6 +311,8 @@ impl<'a> Tracker<'a> {
                     };
                     if fate != Fate::Afloat {
                         alive[l] = false;
+                        // Parked off the lattice, its look-ups take the quickest way out.
+                        x[l] = [f64::NAN; 2];
                         n_alive -= 1;
                         for (s, lo) in species.iter().zip(lost.iter_mut()) {
                             if step <= s.steps {
