@@ -6,12 +6,10 @@
 //! - Advection: the classical RK4 step (Runge 1895, Kutta 1901; e.g. Press et al., Numerical
 //!   Recipes, §17.1): k₁ = u(x), k₂ = u(x + dt·k₁/2), k₃ = u(x + dt·k₂/2), k₄ = u(x + dt·k₃),
 //!   x ← x + dt·(k₁ + 2k₂ + 2k₃ + k₄)/6, with u the bilinear field of [`CurrentField`].
-//! - Diffusion: after each step every axis moves by √(2·K·dt)·ξ, ξ standard normal (the
-//!   random-walk form of Fickian diffusion: the variance grows by 2·K·dt per axis and step,
-//!   so 2·K·t in all; e.g. Berg, Random Walks in Biology, ch. 1).
-//! - Diffusion deviates come in pairs from Marsaglia's polar method (Marsaglia & Bray 1964,
-//!   SIAM Review 6:260): one logarithm and one square root per step instead of two of each
-//!   and two cosines.
+//! - Diffusion: after each step every axis moves by √(2·K·dt)·ξ, ξ of mean 0 and variance 1
+//!   (the random-walk form of Fickian diffusion: the variance grows by 2·K·dt per axis and
+//!   step, so 2·K·t in all; e.g. Berg, Random Walks in Biology, ch. 1). ξ is uniform on
+//!   [−√3, √3] rather than normal (see `unit_pair`: one uniform draw, no logarithm).
 //! - Time step: at most `max_step_hours`, and short enough that a particle moves at most half
 //!   a cell per step by current (CFL-like) and by diffusion (one standard deviation), so it
 //!   cannot jump across a one-cell headland unnoticed. That bound is then shortened to a whole
@@ -180,7 +178,7 @@ impl<'a> Tracker<'a> {
         for step in 1..=self.steps {
             x = self.rk4(x);
             if self.sigma_m > 0.0 {
-                let (a, b) = normal_pair(rng);
+                let (a, b) = unit_pair(rng);
                 x[0] += self.sigma_m * a;
                 x[1] += self.sigma_m * b;
             }
@@ -255,8 +253,12 @@ impl<'a> Tracker<'a> {
             );
             let vel = |p: [f64; 2]| self.lattice.velocity(p[0], p[1]);
             let mut step = 0;
+            let mut settling: Vec<usize> = Vec::with_capacity(n_sp);
             while n_alive > 0 && step < horizon {
                 step += 1;
+                // The species that may settle at this step's end.
+                settling.clear();
+                settling.extend((0..n_sp).filter(|&si| species[si].settle_steps.contains(&step)));
                 // Dead and unused lanes are evaluated too (the look-up is total and returns at
                 // once for their NaN position): no branches on liveness.
                 for l in 0..LANES {
@@ -280,7 +282,7 @@ impl<'a> Tracker<'a> {
                         x[l][1] + h / 6.0 * (k1[l][1] + 2.0 * k2[l][1] + 2.0 * k3[l][1] + k4[l][1]),
                     ];
                     if self.sigma_m > 0.0 {
-                        let (a, b) = normal_pair(&mut rng[l]);
+                        let (a, b) = unit_pair(&mut rng[l]);
                         p[0] += self.sigma_m * a;
                         p[1] += self.sigma_m * b;
                     }
@@ -293,17 +295,15 @@ impl<'a> Tracker<'a> {
                         match grid.lattice[r as usize * grid.n_cols as usize + c as usize] {
                             NO_CELL => Fate::Beached,
                             at => {
-                                for (si, s) in species.iter().enumerate() {
-                                    if s.settle_steps.contains(&step) {
-                                        let run = &mut runs[l * n_sp + si];
-                                        if run.0 != at {
-                                            if run.1 > 0 {
-                                                visits[si].push(*run);
-                                            }
-                                            *run = (at, 0);
+                                for &si in &settling {
+                                    let run = &mut runs[l * n_sp + si];
+                                    if run.0 != at {
+                                        if run.1 > 0 {
+                                            visits[si].push(*run);
                                         }
-                                        run.1 += 1;
+                                        *run = (at, 0);
                                     }
+                                    run.1 += 1;
                                 }
                                 Fate::Afloat
                             }
@@ -369,19 +369,18 @@ impl<'a> Tracker<'a> {
     }
 }
 
-/// Two independent standard normal deviates (Marsaglia's polar method; Marsaglia & Bray
-/// 1964, SIAM Review 6:260): a point uniform in the unit disc, scaled by √(−2 ln s / s).
+/// Two independent random-walk deviates of mean 0 and variance 1, each uniform on
+/// [−√3, √3]. A random walk needs only the right mean and variance per step: over the tens to
+/// hundreds of steps of a larval duration the sum is Gaussian by the central limit theorem,
+/// and the spread 2·K·t is exact at every step. Replacing Gaussian steps by uniform ones of the
+/// same variance is the usual economy in particle-tracking models (Visser 1997, Mar. Ecol.
+/// Prog. Ser. 158:275, from memory); it saves a logarithm and a square root per step.
 #[inline]
-fn normal_pair(rng: &mut ChaCha8Rng) -> (f64, f64) {
-    loop {
-        let a = 2.0 * rng.gen::<f64>() - 1.0;
-        let b = 2.0 * rng.gen::<f64>() - 1.0;
-        let s = a * a + b * b;
-        if s > 0.0 && s < 1.0 {
-            let f = (-2.0 * s.ln() / s).sqrt();
-            return (a * f, b * f);
-        }
-    }
+fn unit_pair(rng: &mut ChaCha8Rng) -> (f64, f64) {
+    const SQRT3: f64 = 1.732_050_807_568_877_2;
+    let a: f64 = rng.gen();
+    let b: f64 = rng.gen();
+    ((2.0 * a - 1.0) * SQRT3, (2.0 * b - 1.0) * SQRT3)
 }
 
 /// Mixes a seed and a stream number into one generator seed (SplitMix64's finaliser,
