@@ -9,7 +9,7 @@
 //! - Diffusion: after each step every axis moves by √(2·K·dt)·ξ, ξ of mean 0 and variance 1
 //!   (the random-walk form of Fickian diffusion: the variance grows by 2·K·dt per axis and
 //!   step, so 2·K·t in all; e.g. Berg, Random Walks in Biology, ch. 1). ξ is uniform on
-//!   [−√3, √3] rather than normal (see `unit_pair`: one uniform draw, no logarithm).
+//!   [−√3, √3] rather than normal (see `unit_pair`: a uniform draw per axis, no logarithm).
 //! - Time step: at most `max_step_hours`, and short enough that a particle moves at most half
 //!   a cell per step by current (CFL-like) and by diffusion (one standard deviation), so it
 //!   cannot jump across a one-cell headland unnoticed. That bound is then shortened to a whole
@@ -28,8 +28,8 @@
 //!   the land part of a coastal cell counts as that cell (the coast is resolved at cell size).
 //! - Settlement: the window's step ends (times t = k·dt inside [from, to] days) are the
 //!   settlement chances; a particle alive at one of them puts 1/(n particles · n chances) into
-//!   the cell it is in (counted as whole visits, then divided once). With the default window (the last day only) that is simply the cell
-//!   where it is at the end of its larval duration.
+//!   the cell it is in (counted as whole visits, then divided once). With the default window
+//!   (the last day only) that is simply the cell where it is at the end of its larval duration.
 
 use super::field::{CurrentField, FieldLattice};
 use crate::grid::NO_CELL;
