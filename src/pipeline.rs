@@ -511,7 +511,7 @@ pub fn dispersal(
     grid: &Grid,
     cache: &SourceCache,
 ) -> Result<Vec<crate::connectivity::SpeciesLinks>, RunError> {
-    use crate::connectivity::{disperse, species_seed, CurrentField, Origin, SpeciesLinks};
+    use crate::connectivity::{disperse_species, CurrentField, Origin, SpeciesLinks};
     use crate::plan::connectivity::DispersalSource;
     // currents[scenario] = (u, v), m/s per cell.
     let mut currents: Vec<(Vec<f64>, Vec<f64>)> = Vec::new();
@@ -532,35 +532,47 @@ pub fn dispersal(
             currents.push((read(u, "u")?.values, read(v, "v")?.values));
         }
     }
+    // Every tracked species per scenario at once, so species with equal traits share one
+    // tracking; a scenario with scenario 0's currents reuses its matrices.
+    let larvae: Vec<&crate::plan::connectivity::Larvae> = cp
+        .species
+        .iter()
+        .filter_map(|sd| match &sd.source {
+            DispersalSource::Particles(l) => Some(l),
+            DispersalSource::Supplied(_) => None,
+        })
+        .collect();
+    let mut tracked: Vec<Vec<Option<(crate::connectivity::Dispersal, Origin)>>> = Vec::new();
+    if !larvae.is_empty() {
+        let larvae: Vec<_> = larvae.into_iter().copied().collect();
+        for k in 0..plan.scenarios.len() {
+            if k > 0 && currents[k] == currents[0] {
+                tracked.push(tracked[0].clone());
+                continue;
+            }
+            let (u, v) = &currents[k];
+            tracked.push(
+                disperse_species(
+                    CurrentField::new(grid, u, v),
+                    &larvae,
+                    cp.particles_per_cell,
+                    cp.seed,
+                    cp.max_step_hours,
+                )
+                .into_iter()
+                .map(Some)
+                .collect(),
+            );
+        }
+    }
     let mut out = Vec::new();
+    let mut nth_tracked = 0;
     for sd in &cp.species {
-        let si = plan
-            .species
-            .iter()
-            .position(|s| s.name == sd.name)
-            .unwrap_or(0);
         for (k, sc) in plan.scenarios.iter().enumerate() {
             let (matrix, origin) = match &sd.source {
-                DispersalSource::Particles(larvae) => {
-                    let same_as_first = k > 0 && currents[k] == currents[0];
-                    if same_as_first {
-                        let first: &SpeciesLinks = out
-                            .iter()
-                            .rev()
-                            .find(|l: &&SpeciesLinks| l.species == sd.name && l.scenario == 0)
-                            .expect("scenario 0 comes first");
-                        (first.matrix.clone(), first.origin.clone())
-                    } else {
-                        let (u, v) = &currents[k];
-                        disperse(
-                            CurrentField::new(grid, u, v),
-                            larvae,
-                            cp.particles_per_cell,
-                            species_seed(cp.seed, si),
-                            cp.max_step_hours,
-                        )
-                    }
-                }
+                DispersalSource::Particles(_) => tracked[k][nth_tracked]
+                    .take()
+                    .expect("each tracked matrix is used once"),
                 DispersalSource::Supplied(path) => {
                     let p = std::path::PathBuf::from(path.replace("{scenario}", sc));
                     let rows = crate::layers::read_dispersal_matrix(&p, grid.len())?;
@@ -573,6 +585,9 @@ pub fn dispersal(
                 matrix,
                 origin,
             });
+        }
+        if matches!(sd.source, DispersalSource::Particles(_)) {
+            nth_tracked += 1;
         }
     }
     Ok(out)

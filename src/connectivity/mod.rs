@@ -12,7 +12,7 @@ pub mod track;
 pub use field::CurrentField;
 pub use pairs::{link_reward, LinkRule};
 pub use summary::{network_retention, summarise, DispersalSummary};
-pub use track::{Fate, Tracker};
+pub use track::{Fate, Stepping, Tracker};
 
 use crate::plan::connectivity::Larvae;
 use rayon::prelude::*;
@@ -70,8 +70,8 @@ pub struct SpeciesLinks {
 }
 
 /// Tracks `particles` larvae from every cell of `field`'s grid and returns the settlement
-/// matrix. Rows are computed in parallel; each row's random numbers come from `seed` and the
-/// source cell alone, so the result is the same for any number of threads.
+/// matrix. Rows are computed in parallel; each particle's random numbers come from `seed`, the
+/// source cell and its index alone, so the result is the same for any number of threads.
 pub fn disperse(
     field: CurrentField<'_>,
     larvae: &Larvae,
@@ -79,31 +79,112 @@ pub fn disperse(
     seed: u64,
     max_step_hours: f64,
 ) -> (Dispersal, Origin) {
-    let tracker = Tracker::new(field, larvae, max_step_hours);
-    let n = field.grid().len();
-    let rows: Vec<_> = (0..n as u32)
-        .into_par_iter()
-        .map(|i| tracker.row(i, particles, seed))
-        .collect();
-    let beached = rows.iter().map(|r| r.1 as u64).sum();
-    let left_grid = rows.iter().map(|r| r.2 as u64).sum();
-    (
-        Dispersal {
-            rows: rows.into_iter().map(|r| r.0).collect(),
-        },
-        Origin::Particles {
-            released: n as u64 * particles as u64,
-            beached,
-            left_grid,
-            step_s: tracker.dt_s,
-        },
-    )
+    let stepping = Stepping::new(&field, larvae, max_step_hours);
+    disperse_shared(field, &[stepping], particles, seed)
+        .pop()
+        .expect("one species in, one matrix out")
 }
 
-/// The seed of one species' tracking: the plan's seed mixed with the species' position, the
-/// same in every scenario (common random numbers, so scenarios differ by their currents only).
-pub fn species_seed(plan_seed: u64, species_index: usize) -> u64 {
-    track::mix(plan_seed, species_index as u64)
+/// The matrices of several species that share a step and a diffusivity, from one tracking:
+/// every particle is followed to the longest larval duration and each species counts its own
+/// settlement window and losses on the same path. Species `s`'s matrix equals
+/// [`disperse`]'s for it alone with the same seed (each particle has its own random stream).
+fn disperse_shared(
+    field: CurrentField<'_>,
+    species: &[Stepping],
+    particles: u32,
+    seed: u64,
+) -> Vec<(Dispersal, Origin)> {
+    let longest = species
+        .iter()
+        .max_by_key(|s| s.steps)
+        .expect("at least one species")
+        .clone();
+    let tracker = Tracker::with_stepping(field, longest);
+    let n = field.grid().len();
+    // rows[cell][species]: computed in parallel, collected in cell order.
+    let rows: Vec<_> = (0..n as u32)
+        .into_par_iter()
+        .map(|i| tracker.rows(i, particles, seed, species))
+        .collect();
+    let mut out: Vec<_> = species
+        .iter()
+        .map(|s| {
+            (
+                Vec::with_capacity(n),
+                Origin::Particles {
+                    released: n as u64 * particles as u64,
+                    beached: 0,
+                    left_grid: 0,
+                    step_s: s.dt_s,
+                },
+            )
+        })
+        .collect();
+    for cell in rows {
+        for ((row, b, l), (matrix, origin)) in cell.into_iter().zip(out.iter_mut()) {
+            matrix.push(row);
+            if let Origin::Particles {
+                beached, left_grid, ..
+            } = origin
+            {
+                *beached += b as u64;
+                *left_grid += l as u64;
+            }
+        }
+    }
+    out.into_iter()
+        .map(|(rows, origin)| (Dispersal { rows }, origin))
+        .collect()
+}
+
+/// The matrices of several species on one current field, in their order. Species with equal
+/// diffusivity and step (the step depends on the field, the diffusivity and the maximum step;
+/// see [`track`]) are tracked together once, to the longest of their larval durations, with
+/// the seed [`larvae_seed`] gives them — so each species' matrix depends on the plan's seed,
+/// its own traits and the currents alone, not on which other species the plan lists.
+pub fn disperse_species(
+    field: CurrentField<'_>,
+    species: &[Larvae],
+    particles: u32,
+    plan_seed: u64,
+    max_step_hours: f64,
+) -> Vec<(Dispersal, Origin)> {
+    let steps: Vec<Stepping> = species
+        .iter()
+        .map(|l| Stepping::new(&field, l, max_step_hours))
+        .collect();
+    // Groups in order of first appearance: (diffusivity bits, step bits) → species indexes.
+    let mut groups: Vec<((u64, u64), Vec<usize>)> = Vec::new();
+    for (i, (l, s)) in species.iter().zip(&steps).enumerate() {
+        let key = (l.diffusivity_m2_s.to_bits(), s.dt_s.to_bits());
+        match groups.iter_mut().find(|g| g.0 == key) {
+            Some(g) => g.1.push(i),
+            None => groups.push((key, vec![i])),
+        }
+    }
+    let mut out: Vec<Option<(Dispersal, Origin)>> = vec![None; species.len()];
+    for (_, members) in groups {
+        let group: Vec<Stepping> = members.iter().map(|&i| steps[i].clone()).collect();
+        let seed = larvae_seed(plan_seed, &species[members[0]]);
+        for (i, m) in members
+            .into_iter()
+            .zip(disperse_shared(field, &group, particles, seed))
+        {
+            out[i] = Some(m);
+        }
+    }
+    out.into_iter()
+        .map(|m| m.expect("every species is in a group"))
+        .collect()
+}
+
+/// The seed of a species' tracking: the plan's seed mixed with its diffusivity — the one trait
+/// besides the step (which the field sets) that shapes the random walk. Equal in every
+/// scenario (common random numbers, so scenarios differ by their currents only), and equal for
+/// species that share a tracking.
+pub fn larvae_seed(plan_seed: u64, larvae: &Larvae) -> u64 {
+    track::mix(plan_seed, larvae.diffusivity_m2_s.to_bits())
 }
 
 #[cfg(test)]

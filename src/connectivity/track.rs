@@ -6,12 +6,21 @@
 //! - Advection: the classical RK4 step (Runge 1895, Kutta 1901; e.g. Press et al., Numerical
 //!   Recipes, §17.1): k₁ = u(x), k₂ = u(x + dt·k₁/2), k₃ = u(x + dt·k₂/2), k₄ = u(x + dt·k₃),
 //!   x ← x + dt·(k₁ + 2k₂ + 2k₃ + k₄)/6, with u the bilinear field of [`CurrentField`].
-//! - Diffusion: after each step every axis moves by √(2·K·dt)·ξ, ξ standard normal (the
-//!   random-walk form of Fickian diffusion: the variance grows by 2·K·dt per axis and step,
-//!   so 2·K·t in all; e.g. Berg, Random Walks in Biology, ch. 1).
+//! - Diffusion: after each step every axis moves by √(2·K·dt)·ξ, ξ of mean 0 and variance 1
+//!   (the random-walk form of Fickian diffusion: the variance grows by 2·K·dt per axis and
+//!   step, so 2·K·t in all; e.g. Berg, Random Walks in Biology, ch. 1). ξ is uniform on
+//!   [−√3, √3] rather than normal (see `unit_pair`: a uniform draw per axis, no logarithm).
 //! - Time step: at most `max_step_hours`, and short enough that a particle moves at most half
 //!   a cell per step by current (CFL-like) and by diffusion (one standard deviation), so it
-//!   cannot jump across a one-cell headland unnoticed.
+//!   cannot jump across a one-cell headland unnoticed. That bound is then shortened to a whole
+//!   fraction of a day, 1/n day, so every larval duration in whole days is a whole number of
+//!   the same steps and species with equal diffusivity can share their tracks (see
+//!   [`crate::connectivity::disperse_species`]); a duration that is no such multiple is split
+//!   into equal steps of at most the bound instead.
+//! - Random numbers: each particle has a stream of its own (ChaCha8 keyed by the seed and
+//!   the source cell, stream number = the particle's index), so a particle's path depends on
+//!   the seed, its cell and its index alone — not on the thread that runs it, nor on how long
+//!   the particles before it drifted.
 //! - Loss: a particle whose position at the end of a step lies on no sea cell is lost for
 //!   good — beached on land (a lattice square with no cell) or carried beyond the grid. Real
 //!   larvae may survive a brush with the shore; counting beaching as loss is the
@@ -19,16 +28,24 @@
 //!   the land part of a coastal cell counts as that cell (the coast is resolved at cell size).
 //! - Settlement: the window's step ends (times t = k·dt inside [from, to] days) are the
 //!   settlement chances; a particle alive at one of them puts 1/(n particles · n chances) into
-//!   the cell it is in. With the default window (the last day only) that is simply the cell
-//!   where it is at the end of its larval duration.
+//!   the cell it is in (counted as whole visits, then divided once). With the default window
+//!   (the last day only) that is simply the cell where it is at the end of its larval duration.
 
-use super::field::CurrentField;
+use super::field::{CurrentField, FieldLattice};
+use crate::grid::NO_CELL;
 use crate::plan::connectivity::Larvae;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
 /// Seconds per day.
 const DAY_S: f64 = 86_400.0;
+
+/// What one source cell's larvae did: `(cell, probability)` settled, sorted by cell; then the
+/// counts of beached and of lost-beyond-the-grid particles.
+pub type SourceRow = (Vec<(u32, f64)>, u32, u32);
+
+/// Particles tracked side by side in [`Tracker::rows`].
+pub const LANES: usize = 8;
 
 /// How a particle's journey ended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -41,10 +58,68 @@ pub enum Fate {
     LeftGrid,
 }
 
+/// The time steps of one species: how long, how many, when it may settle.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Stepping {
+    /// Step length. Units: s.
+    pub dt_s: f64,
+    /// Number of steps (dt × steps = larval duration).
+    pub steps: usize,
+    /// Random-walk standard deviation per axis and step, √(2·K·dt). Units: m.
+    pub sigma_m: f64,
+    /// Steps (1-based) at whose end larvae may settle.
+    pub settle_steps: std::ops::RangeInclusive<usize>,
+}
+
+impl Stepping {
+    /// Chooses the step for `larvae` on `field` (see the module doc).
+    pub fn new(field: &CurrentField<'_>, larvae: &Larvae, max_step_hours: f64) -> Self {
+        let days = larvae.larval_days;
+        let total_s = days * DAY_S;
+        let half_cell = 0.5 * field.grid().cell_size_m;
+        let mut bound = max_step_hours * 3600.0;
+        let speed = field.max_speed();
+        if speed > 0.0 {
+            bound = bound.min(half_cell / speed);
+        }
+        let k = larvae.diffusivity_m2_s;
+        if k > 0.0 {
+            bound = bound.min(half_cell * half_cell / (2.0 * k));
+        }
+        // Steps per day (1e-9: a bound that is a day's fraction up to rounding keeps it).
+        let per_day = (DAY_S / bound * (1.0 - 1e-9)).ceil().max(1.0);
+        let whole = days * per_day;
+        let (steps, dt_s) = if (whole - whole.round()).abs() < 1e-9 && whole.round() >= 1.0 {
+            (whole.round() as usize, DAY_S / per_day)
+        } else {
+            let steps = ((total_s / bound).ceil() as usize).max(1);
+            (steps, total_s / steps as f64)
+        };
+        let (from, to) = larvae.settle_window_days;
+        // Step ends inside the window; a window shorter than a step gets the step end at or
+        // after its start.
+        let tol = 1e-9 * dt_s;
+        let first = (((from * DAY_S - tol) / dt_s).ceil().max(1.0) as usize).min(steps);
+        let last = (((to * DAY_S + tol) / dt_s).floor() as usize).clamp(first, steps);
+        Stepping {
+            dt_s,
+            steps,
+            sigma_m: (2.0 * k * dt_s).sqrt(),
+            settle_steps: first..=last,
+        }
+    }
+
+    /// Settlement chances per particle.
+    pub fn chances(&self) -> usize {
+        self.settle_steps.end() + 1 - self.settle_steps.start()
+    }
+}
+
 /// The time stepping for one species on one current field.
 #[derive(Debug, Clone)]
 pub struct Tracker<'a> {
     field: CurrentField<'a>,
+    lattice: FieldLattice,
     /// Step length. Units: s.
     pub dt_s: f64,
     /// Number of steps (dt × steps = larval duration).
@@ -58,38 +133,26 @@ pub struct Tracker<'a> {
 impl<'a> Tracker<'a> {
     /// Chooses the step for `larvae` on `field` (see the module doc).
     pub fn new(field: CurrentField<'a>, larvae: &Larvae, max_step_hours: f64) -> Self {
-        let total_s = larvae.larval_days * DAY_S;
-        let half_cell = 0.5 * field.grid().cell_size_m;
-        let mut dt = max_step_hours * 3600.0;
-        let speed = field.max_speed();
-        if speed > 0.0 {
-            dt = dt.min(half_cell / speed);
-        }
-        let k = larvae.diffusivity_m2_s;
-        if k > 0.0 {
-            dt = dt.min(half_cell * half_cell / (2.0 * k));
-        }
-        let steps = ((total_s / dt).ceil() as usize).max(1);
-        let dt_s = total_s / steps as f64;
-        let (from, to) = larvae.settle_window_days;
-        // Step ends inside the window; a window shorter than a step gets the step end at or
-        // after its start.
-        let tol = 1e-9 * dt_s;
-        let first = (((from * DAY_S - tol) / dt_s).ceil().max(1.0) as usize).min(steps);
-        let last = (((to * DAY_S + tol) / dt_s).floor() as usize).clamp(first, steps);
+        Self::with_stepping(field, Stepping::new(&field, larvae, max_step_hours))
+    }
+
+    /// A tracker with the given steps.
+    pub fn with_stepping(field: CurrentField<'a>, s: Stepping) -> Self {
         Tracker {
+            lattice: FieldLattice::new(&field),
             field,
-            dt_s,
-            steps,
-            sigma_m: (2.0 * k * dt_s).sqrt(),
-            settle_steps: first..=last,
+            dt_s: s.dt_s,
+            steps: s.steps,
+            sigma_m: s.sigma_m,
+            settle_steps: s.settle_steps,
         }
     }
 
     /// One RK4 step of pure advection from `x`.
+    #[inline]
     pub fn rk4(&self, x: [f64; 2]) -> [f64; 2] {
         let h = self.dt_s;
-        let f = |p: [f64; 2]| self.field.velocity(p);
+        let f = |p: [f64; 2]| self.lattice.velocity(p[0], p[1]);
         let k1 = f(x);
         let k2 = f([x[0] + 0.5 * h * k1[0], x[1] + 0.5 * h * k1[1]]);
         let k3 = f([x[0] + 0.5 * h * k2[0], x[1] + 0.5 * h * k2[1]]);
@@ -102,6 +165,7 @@ impl<'a> Tracker<'a> {
 
     /// Follows one particle from `start`; `visit(step, position, cell)` hears every step end
     /// while it is at sea. Returns its fate and the step it was lost at (or `steps`).
+    #[inline]
     pub fn follow(
         &self,
         start: [f64; 2],
@@ -109,60 +173,214 @@ impl<'a> Tracker<'a> {
         mut visit: impl FnMut(usize, [f64; 2], u32),
     ) -> (Fate, usize) {
         let grid = self.field.grid();
+        let (cols, rows) = (grid.n_cols as f64, grid.n_rows as f64);
         let mut x = start;
         for step in 1..=self.steps {
             x = self.rk4(x);
             if self.sigma_m > 0.0 {
-                x[0] += self.sigma_m * normal(rng);
-                x[1] += self.sigma_m * normal(rng);
+                let (a, b) = unit_pair(rng);
+                x[0] += self.sigma_m * a;
+                x[1] += self.sigma_m * b;
             }
-            match grid.lattice_position(x) {
-                None => return (Fate::LeftGrid, step),
-                Some((c, r)) => match grid.cell_at(c, r) {
-                    None => return (Fate::Beached, step),
-                    Some(cell) => visit(step, x, cell),
-                },
+            // `Grid::locate`'s arithmetic, with truncation for the floor (both ≥ 0 here).
+            let c = (x[0] - grid.origin[0]) / grid.cell_size_m;
+            let r = (x[1] - grid.origin[1]) / grid.cell_size_m;
+            if !(c >= 0.0 && r >= 0.0 && c < cols && r < rows) {
+                return (Fate::LeftGrid, step);
+            }
+            match grid.lattice[r as usize * grid.n_cols as usize + c as usize] {
+                NO_CELL => return (Fate::Beached, step),
+                cell => visit(step, x, cell),
             }
         }
         (Fate::Afloat, self.steps)
     }
 
-    /// The settlement row of one source cell: `particles` released uniformly over its lattice
-    /// square with a generator seeded from `seed` and the cell id alone (so the row does not
-    /// depend on which thread runs it). Returns `(cell, probability)` sorted by cell, and the
-    /// counts of beached and lost-beyond-the-grid particles.
-    pub fn row(&self, cell: u32, particles: u32, seed: u64) -> (Vec<(u32, f64)>, u32, u32) {
+    /// The settlement rows of one source cell for several species that share this tracker's
+    /// step and diffusion (`species[s]` the steps of each, none longer than this tracker's):
+    /// `particles` released uniformly over the cell's lattice square, particle p drawing from
+    /// stream p of a generator keyed by `seed` and the cell alone, and followed once for all
+    /// of them. Each species' row is what [`Tracker::row`] gives for it alone with the same
+    /// seed: `(cell, probability)` sorted by cell, and the counts of beached and
+    /// lost-beyond-the-grid particles within its larval duration.
+    ///
+    /// Particles go [`LANES`] at a time in lock-step, each RK4 stage for all of them before
+    /// the next: one particle's stages form a chain of dependent look-ups, and interleaving
+    /// independent chains lets the processor overlap them. Each lane does exactly what
+    /// [`Tracker::follow`] does for that particle.
+    pub fn rows(
+        &self,
+        cell: u32,
+        particles: u32,
+        seed: u64,
+        species: &[Stepping],
+    ) -> Vec<SourceRow> {
+        debug_assert!(species.iter().all(|s| s.steps <= self.steps));
         let grid = self.field.grid();
         let sq = grid.cell_square(cell);
         let (lo, hi) = (sq.min(), sq.max());
-        let mut rng = ChaCha8Rng::seed_from_u64(mix(seed, cell as u64));
-        let chances = (self.settle_steps.end() + 1 - self.settle_steps.start()) as f64;
-        let share = 1.0 / (particles as f64 * chances);
-        let mut settled: std::collections::BTreeMap<u32, f64> = Default::default();
-        let (mut beached, mut left) = (0, 0);
-        for _ in 0..particles {
-            let start = [rng.gen_range(lo.x..hi.x), rng.gen_range(lo.y..hi.y)];
-            let (fate, _) = self.follow(start, &mut rng, |step, _, c| {
-                if self.settle_steps.contains(&step) {
-                    *settled.entry(c).or_insert(0.0) += share;
+        let keyed = ChaCha8Rng::seed_from_u64(mix(seed, cell as u64));
+        let n_sp = species.len();
+        // Visits as (cell, count) runs: a larva lingers in a cell for several step ends, so
+        // each lane keeps its current run per species and files it when the cell changes.
+        let mut visits: Vec<Vec<(u32, u32)>> = vec![Vec::new(); n_sp];
+        let mut runs = vec![(NO_CELL, 0u32); LANES * n_sp];
+        let mut lost = vec![(0u32, 0u32); n_sp];
+        // The last step any species needs.
+        let horizon = species.iter().map(|s| s.steps).max().unwrap_or(0);
+        let (cols, rows) = (grid.n_cols as f64, grid.n_rows as f64);
+        let h = self.dt_s;
+        let mut first = 0;
+        while first < particles {
+            let lanes = (particles - first).min(LANES as u32) as usize;
+            let mut rng: Vec<ChaCha8Rng> = Vec::with_capacity(lanes);
+            let mut x = [[f64::NAN; 2]; LANES];
+            for (l, xl) in x.iter_mut().enumerate().take(lanes) {
+                let mut r = keyed.clone();
+                r.set_stream((first as usize + l) as u64);
+                r.set_word_pos(0);
+                *xl = [r.gen_range(lo.x..hi.x), r.gen_range(lo.y..hi.y)];
+                rng.push(r);
+            }
+            let mut alive = [false; LANES];
+            alive[..lanes].fill(true);
+            let mut n_alive = lanes;
+            let (mut k1, mut k2, mut k3, mut k4) = (
+                [[0.0; 2]; LANES],
+                [[0.0; 2]; LANES],
+                [[0.0; 2]; LANES],
+                [[0.0; 2]; LANES],
+            );
+            let vel = |p: [f64; 2]| self.lattice.velocity(p[0], p[1]);
+            let mut step = 0;
+            let mut settling: Vec<usize> = Vec::with_capacity(n_sp);
+            while n_alive > 0 && step < horizon {
+                step += 1;
+                // The species that may settle at this step's end.
+                settling.clear();
+                settling.extend((0..n_sp).filter(|&si| species[si].settle_steps.contains(&step)));
+                // Dead and unused lanes are evaluated too (the look-up is total and returns at
+                // once for their NaN position): no branches on liveness.
+                for l in 0..LANES {
+                    k1[l] = vel(x[l]);
                 }
-            });
-            match fate {
-                Fate::Beached => beached += 1,
-                Fate::LeftGrid => left += 1,
-                Fate::Afloat => {}
+                for l in 0..LANES {
+                    k2[l] = vel([x[l][0] + 0.5 * h * k1[l][0], x[l][1] + 0.5 * h * k1[l][1]]);
+                }
+                for l in 0..LANES {
+                    k3[l] = vel([x[l][0] + 0.5 * h * k2[l][0], x[l][1] + 0.5 * h * k2[l][1]]);
+                }
+                for l in 0..LANES {
+                    k4[l] = vel([x[l][0] + h * k3[l][0], x[l][1] + h * k3[l][1]]);
+                }
+                for l in 0..lanes {
+                    if !alive[l] {
+                        continue;
+                    }
+                    let mut p = [
+                        x[l][0] + h / 6.0 * (k1[l][0] + 2.0 * k2[l][0] + 2.0 * k3[l][0] + k4[l][0]),
+                        x[l][1] + h / 6.0 * (k1[l][1] + 2.0 * k2[l][1] + 2.0 * k3[l][1] + k4[l][1]),
+                    ];
+                    if self.sigma_m > 0.0 {
+                        let (a, b) = unit_pair(&mut rng[l]);
+                        p[0] += self.sigma_m * a;
+                        p[1] += self.sigma_m * b;
+                    }
+                    x[l] = p;
+                    let c = (p[0] - grid.origin[0]) / grid.cell_size_m;
+                    let r = (p[1] - grid.origin[1]) / grid.cell_size_m;
+                    let fate = if !(c >= 0.0 && r >= 0.0 && c < cols && r < rows) {
+                        Fate::LeftGrid
+                    } else {
+                        match grid.lattice[r as usize * grid.n_cols as usize + c as usize] {
+                            NO_CELL => Fate::Beached,
+                            at => {
+                                for &si in &settling {
+                                    let run = &mut runs[l * n_sp + si];
+                                    if run.0 != at {
+                                        if run.1 > 0 {
+                                            visits[si].push(*run);
+                                        }
+                                        *run = (at, 0);
+                                    }
+                                    run.1 += 1;
+                                }
+                                Fate::Afloat
+                            }
+                        }
+                    };
+                    if fate != Fate::Afloat {
+                        alive[l] = false;
+                        // Parked off the lattice, its look-ups take the quickest way out.
+                        x[l] = [f64::NAN; 2];
+                        n_alive -= 1;
+                        for (s, lo) in species.iter().zip(lost.iter_mut()) {
+                            if step <= s.steps {
+                                match fate {
+                                    Fate::Beached => lo.0 += 1,
+                                    _ => lo.1 += 1,
+                                }
+                            }
+                        }
+                    }
+                }
+            }
+            first += lanes as u32;
+        }
+        for (k, run) in runs.into_iter().enumerate() {
+            if run.1 > 0 {
+                visits[k % n_sp].push(run);
             }
         }
-        (settled.into_iter().collect(), beached, left)
+        species
+            .iter()
+            .zip(visits)
+            .zip(lost)
+            .map(|((s, mut v), (beached, left))| {
+                let per = particles as f64 * s.chances() as f64;
+                v.sort_unstable_by_key(|e| e.0);
+                let mut row: Vec<(u32, f64)> = Vec::new();
+                let mut k = 0;
+                while k < v.len() {
+                    let c = v[k].0;
+                    let mut n = 0u64;
+                    while k < v.len() && v[k].0 == c {
+                        n += v[k].1 as u64;
+                        k += 1;
+                    }
+                    row.push((c, n as f64 / per));
+                }
+                (row, beached, left)
+            })
+            .collect()
+    }
+
+    /// The settlement row of one source cell for this tracker's own species (see
+    /// [`Tracker::rows`]): `(cell, probability)` sorted by cell, and the counts of beached and
+    /// lost-beyond-the-grid particles.
+    pub fn row(&self, cell: u32, particles: u32, seed: u64) -> SourceRow {
+        let own = Stepping {
+            dt_s: self.dt_s,
+            steps: self.steps,
+            sigma_m: self.sigma_m,
+            settle_steps: self.settle_steps.clone(),
+        };
+        self.rows(cell, particles, seed, &[own]).remove(0)
     }
 }
 
-/// A standard normal deviate (Box–Muller, from two uniforms; Box & Muller 1958, Ann. Math.
-/// Statist. 29:610).
-fn normal(rng: &mut ChaCha8Rng) -> f64 {
-    let u1: f64 = 1.0 - rng.gen::<f64>(); // (0, 1]
-    let u2: f64 = rng.gen::<f64>();
-    (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+/// Two independent random-walk deviates of mean 0 and variance 1, each uniform on
+/// [−√3, √3]. A random walk needs only the right mean and variance per step: over the tens to
+/// hundreds of steps of a larval duration the sum is Gaussian by the central limit theorem,
+/// and the spread 2·K·t is exact at every step. Replacing Gaussian steps by uniform ones of the
+/// same variance is the usual economy in particle-tracking models (Visser 1997, Mar. Ecol.
+/// Prog. Ser. 158:275, from memory); it saves a logarithm and a square root per step.
+#[inline]
+fn unit_pair(rng: &mut ChaCha8Rng) -> (f64, f64) {
+    const SQRT3: f64 = 1.732_050_807_568_877_2;
+    let a: f64 = rng.gen();
+    let b: f64 = rng.gen();
+    ((2.0 * a - 1.0) * SQRT3, (2.0 * b - 1.0) * SQRT3)
 }
 
 /// Mixes a seed and a stream number into one generator seed (SplitMix64's finaliser,
