@@ -283,8 +283,8 @@ impl<'a> Relaxation<'a> {
 const MAX_CUTS: usize = 400;
 
 impl Relaxation<'_> {
-    /// Raise L(λ) from `start`: a short volume warm-up (cheap steps that find the region of
-    /// good multipliers), then the box-step method (Marsten, Hogan & Blankenship 1975, Math.
+    /// Raise L(λ) from `start`: volume steps (cheap, they find the region of good
+    /// multipliers) until they stall or half the time is gone, then the box-step method (Marsten, Hogan & Blankenship 1975, Math.
     /// Programming 9:1): the cutting-plane model max θ ≤ L(λⱼ) + gⱼ·(λ − λⱼ) over the cuts
     /// collected so far, solved as an LP by HiGHS within a box around the best λ; a step is
     /// kept when L rises by a tenth of what the model predicted, and the box shrinks
@@ -303,7 +303,10 @@ impl Relaxation<'_> {
         max_iter: usize,
         tol: f64,
     ) -> Ascent {
-        let warm = self.volume(start, target, deadline, max_iter.min(60));
+        // Volume steps until they stall or half the time is gone; box steps for the rest.
+        let now = Instant::now();
+        let half = now + deadline.saturating_duration_since(now) / 2;
+        let warm = self.volume(start, target, half, max_iter / 2);
         let m = self.n_multipliers();
         let mut centre = warm.lambda;
         let mut average = warm.average;

@@ -233,7 +233,7 @@ impl Decompose {
 
         // 1. Bound, then a first network from the best cut.
         let zero = vec![0.0; relax.n_multipliers()];
-        let mut ascent = relax.ascend(&zero, f64::INFINITY, at(0.15), 3000);
+        let mut ascent = relax.ascend(&zero, f64::INFINITY, at(0.2), 20_000);
         run.trace.lagrangian_steps += ascent.iterations;
         run.raise_bound(ascent.bound, "lagrangian");
         self.primal_from(&relax, &moves, &ascent, &mut run);
@@ -244,7 +244,7 @@ impl Decompose {
         }
         // 2. Ascend again, aiming at the incumbent.
         if run.gap() > goal {
-            ascent = relax.ascend(&ascent.lambda, run.objective(), at(0.3), 3000);
+            ascent = relax.ascend(&ascent.lambda, run.objective(), at(0.55), 20_000);
             run.trace.lagrangian_steps += ascent.iterations;
             run.raise_bound(ascent.bound, "lagrangian");
             self.primal_from(&relax, &moves, &ascent, &mut run);
@@ -276,6 +276,12 @@ impl Decompose {
         }
         if run.gap() > goal {
             self.windows(&moves, &mut run, at(1.0), goal);
+        }
+        // Time left after the windows stopped gaining: raise the bound further.
+        if run.gap() > goal && Instant::now() + Duration::from_secs(1) < at(1.0) {
+            ascent = relax.ascend(&ascent.lambda, run.objective(), at(1.0), usize::MAX);
+            run.trace.lagrangian_steps += ascent.iterations;
+            run.raise_bound(ascent.bound, "lagrangian");
         }
         let (objective, selected) = run.incumbent.clone().expect("an incumbent exists");
         let gap = run.gap();
@@ -385,7 +391,7 @@ impl Decompose {
                     *c |= *f;
                 }
                 let (_, now) = run.incumbent.clone().expect("an incumbent exists");
-                let per_window = Instant::now() + Duration::from_secs(20);
+                let per_window = Instant::now() + Duration::from_secs(10);
                 run.trace.windows.0 += 1;
                 if let Some((full, _)) =
                     self.restricted(run, &free, &now, per_window.min(deadline), 1e-4)
