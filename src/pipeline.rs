@@ -12,7 +12,7 @@ use crate::model::{
     Budget, CellStatus, EdgePenalty, MinReserve, ModelFeature, Problem, Scenario, Spacing,
 };
 use crate::plan::{CostPlan, Plan};
-use crate::solve::{Solution, SolveError, SolveOptions, Solver};
+use crate::solve::{Solution, SolveError, SolveOptions};
 use rayon::prelude::*;
 
 /// Errors of a run, by stage.
@@ -962,12 +962,14 @@ pub fn solve_options(plan: &Plan) -> SolveOptions {
         verbose: false,
         seed: 1,
         progress: None,
+        method: plan.solver.method,
     }
 }
 
-/// Solves the problem exactly with HiGHS.
+/// Solves the problem exactly by the method the options pick (`[solver] method`: the direct
+/// model in HiGHS or the decomposition, [`crate::solve::decompose::solve_exact`]).
 pub fn optimise(problem: &Problem, options: &SolveOptions) -> Result<Solution, RunError> {
-    Ok(crate::solve::ilp::Highs::default().solve(problem, options)?)
+    Ok(crate::solve::decompose::solve_exact(problem, options)?)
 }
 
 /// Assesses a solved network: as [`assess_network`], re-scored for its zones when the problem

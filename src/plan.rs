@@ -205,6 +205,9 @@ pub struct SolverPlan {
     pub gap: f64,
     /// Solver threads.
     pub threads: Option<u32>,
+    /// Exact method: the direct model, the decomposition, or chosen by size
+    /// ([`crate::solve::decompose::Method`]).
+    pub method: crate::solve::decompose::Method,
     /// Whether `time_limit_s` is [`DEFAULT_TIME_LIMIT_S`] because the plan states none.
     pub time_limit_is_default: bool,
     /// Whether `gap` is [`DEFAULT_GAP`] because the plan states none.
@@ -217,6 +220,7 @@ impl Default for SolverPlan {
             time_limit_s: DEFAULT_TIME_LIMIT_S,
             gap: DEFAULT_GAP,
             threads: None,
+            method: crate::solve::decompose::Method::Auto,
             time_limit_is_default: true,
             gap_is_default: true,
         }
@@ -516,6 +520,7 @@ struct RawSolver {
     time_limit_s: Option<f64>,
     gap: Option<f64>,
     threads: Option<u32>,
+    method: Option<String>,
     #[serde(flatten)]
     extra: Extra,
 }
@@ -1340,10 +1345,21 @@ impl Plan {
                 if s.threads == Some(0) {
                     ck.push("solver.threads", "must be at least 1");
                 }
+                let method = match s.method.as_deref() {
+                    None => crate::solve::decompose::Method::Auto,
+                    Some(m) => crate::solve::decompose::Method::parse(m).unwrap_or_else(|| {
+                        ck.push(
+                            "solver.method",
+                            format!("expected `auto`, `direct` or `decompose`, got `{m}`"),
+                        );
+                        crate::solve::decompose::Method::Auto
+                    }),
+                };
                 SolverPlan {
                     time_limit_s: s.time_limit_s.unwrap_or(DEFAULT_TIME_LIMIT_S),
                     gap,
                     threads: s.threads,
+                    method,
                     time_limit_is_default: s.time_limit_s.is_none(),
                     gap_is_default: s.gap.is_none(),
                 }

@@ -159,3 +159,31 @@ fn a_species_list_equals_the_same_species_one_table_each() {
         "{e}"
     );
 }
+
+#[test]
+fn solver_method_is_read_and_a_wrong_word_is_named() {
+    // The three words of `[solver] method` (docs/plan-reference.md); anything else is named
+    // with its key. Common practice, no source.
+    use driftplan::solve::decompose::Method;
+    let with =
+        |m: &str| demo_plan_text().replace("[solver]\n", &format!("[solver]\nmethod = \"{m}\"\n"));
+    assert_eq!(
+        load_text(&with("decompose")).unwrap().solver.method,
+        Method::Decompose
+    );
+    assert_eq!(
+        load_text(&with("direct")).unwrap().solver.method,
+        Method::Direct
+    );
+    assert_eq!(
+        load_text(&demo_plan_text()).unwrap().solver.method,
+        Method::Auto
+    );
+    let err = load_text(&with("fast")).unwrap_err();
+    assert!(
+        err.issues
+            .iter()
+            .any(|i| i.key == "solver.method" && i.message.contains("`fast`")),
+        "{err}"
+    );
+}

@@ -590,6 +590,20 @@ impl Solver for Highs {
     }
 
     fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
+        self.solve_from(problem, options, None)
+    }
+}
+
+impl Highs {
+    /// As [`Solver::solve`], warm-started from `start` (a network that meets every rule, e.g.
+    /// the decomposition's incumbent) instead of the greedy network; returned as a
+    /// time-limited answer if HiGHS finds nothing better in time.
+    pub fn solve_from(
+        &self,
+        problem: &Problem,
+        options: &SolveOptions,
+        start: Option<&[bool]>,
+    ) -> Result<Solution, SolveError> {
         let started = Instant::now();
         let problem = scenario_best_borrowed(problem, self, options)?;
         if problem.objective == Objective::MinCost {
@@ -599,12 +613,16 @@ impl Solver for Highs {
             }
         }
         // Greedy knows no kept objective, so its network could break that row.
-        let warm =
-            if self.warm_start && problem.keep_objective.is_none() && problem.zoning.is_none() {
+        let warm = match start {
+            Some(s) => Some(s.to_vec()),
+            None if self.warm_start
+                && problem.keep_objective.is_none()
+                && problem.zoning.is_none() =>
+            {
                 greedy_network(&problem).ok()
-            } else {
-                None
-            };
+            }
+            None => None,
+        };
         let spent = |t: f64| started.elapsed().as_secs_f64() >= t;
         if let (Some(t), Some(w)) = (options.time_limit_s, &warm) {
             if spent(t) {

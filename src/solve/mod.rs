@@ -11,6 +11,7 @@ use crate::model::{evaluate, ModelError, Problem, Robustness, ScenarioResult};
 
 pub mod anneal;
 pub mod brute;
+pub mod decompose;
 pub mod diagnose;
 pub mod greedy;
 pub mod ilp;
@@ -58,6 +59,8 @@ pub struct SolveOptions {
     pub seed: u64,
     /// Where live progress of an exact solve goes (`None`: nowhere).
     pub progress: Option<progress::ProgressSink>,
+    /// Which exact method [`decompose::solve_exact`] uses (`[solver] method`).
+    pub method: decompose::Method,
 }
 
 impl Default for SolveOptions {
@@ -69,6 +72,7 @@ impl Default for SolveOptions {
             verbose: false,
             seed: 1,
             progress: None,
+            method: decompose::Method::Auto,
         }
     }
 }

@@ -1,0 +1,438 @@
+//! Exact at national scale: a decomposition solver with a proven bound, for models whose root
+//! LP is too large for HiGHS to finish in the time given (issue 11).
+//!
+//! # Method
+//! 1. **Bound** ([`lagrange`]): coverage and budget rows are relaxed with multipliers; each
+//!    L(λ) is a minimum cut ([`maxflow`]) and a valid lower bound; the volume algorithm raises
+//!    it towards the LP bound.
+//! 2. **Primal** ([`primal`]): the cut at the best multipliers is repaired to a network that
+//!    meets every target and budget by the Lagrangian greedy, redundant cells are dropped,
+//!    then windows of a few thousand cells around the network are re-solved exactly by HiGHS
+//!    with the rest fixed ([`restrict`]); a window's network is kept when it is better.
+//! 3. **Fixing and core** ([`fixing`]): a cell whose flip would raise L above the incumbent's
+//!    objective keeps its cut value in every better network; when few cells stay free, that
+//!    core goes to HiGHS warm-started from the incumbent.
+//!
+//! # The bound reported
+//! max(L*, min(U, C)), with L* the best Lagrangian bound, U the incumbent's objective and C
+//! the core's proven bound (HiGHS's dual bound of the core plus the fixed part's constant).
+//! L* is valid by weak duality. A network outside the core's space differs from the cut at a
+//! fixed cell, so its objective is > U (the flip cost is a feasible flow in the residual graph,
+//! so ≤ the rise of the min cut); a network inside has objective ≥ C. Hence every network has
+//! objective ≥ min(U, C). `bound_source` in [`Trace`] says which term gave the bound.
+//!
+//! # Scope: what falls back to the direct model
+//! Decomposed: min-cost (every target in every scenario), with required/excluded cells, cost
+//! and area budgets and the edge penalty. Everything else is solved by the direct model
+//! ([`super::ilp::Highs`]) with the reason given by [`unsupported`]: max-benefit (capped
+//! credit, worst-case, expected, least-regret — not built yet), the max gap, the minimum
+//! reserve size, the neighbour rule, the connectivity reward, zones, a kept objective and portfolio alternatives (their
+//! rows are not relaxed yet).
+//!
+//! # Determinism
+//! Everything but the HiGHS calls is sequential and seeded by nothing; every HiGHS call (the
+//! master LPs, windows, core) runs with the caller's `threads`. Windows and the core stop
+//! at time limits, so the result of a solve that runs out of time can depend on the machine's
+//! speed; a solve that finishes its phases does not.
+
+pub mod choose;
+pub mod fixing;
+pub mod lagrange;
+pub mod maxflow;
+pub mod primal;
+pub mod restrict;
+
+use std::time::{Duration, Instant};
+
+use crate::model::{evaluate, CellStatus, Objective, Problem};
+
+use super::diagnose::diagnose;
+use super::ilp::Highs;
+use super::progress::SolveProgress;
+use super::{make_solution, Solution, SolveError, SolveOptions, SolveStatus, Solver};
+
+pub use choose::{decomposes, solve_exact, Method};
+
+/// Cells in one re-optimisation window (prototype: a few thousand; HiGHS solves such a window
+/// in about a second).
+pub const WINDOW_CELLS: usize = 2500;
+
+/// Most free cells in a core handed to HiGHS (larger cores take longer than the windows gain).
+pub const CORE_MAX_CELLS: usize = 8000;
+
+/// Time limit used when the options give none. Units: s.
+const DEFAULT_LIMIT_S: f64 = 300.0;
+
+/// The decomposition solver (module doc).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Decompose;
+
+/// How a decomposition solve went, for the bench.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Trace {
+    /// `(seconds, objective, bound)` each time either improved.
+    pub points: Vec<(f64, f64, f64)>,
+    /// Which term gave the final bound: `lagrangian` or `core`.
+    pub bound_source: &'static str,
+    /// Evaluations of L(λ).
+    pub lagrangian_steps: usize,
+    /// Windows solved and windows that improved the network.
+    pub windows: (usize, usize),
+    /// Free cells left in the core after fixing (`None`: fixing not reached).
+    pub core_cells: Option<usize>,
+}
+
+impl Trace {
+    /// First time the gap was at most `gap`, if ever. Units: s.
+    pub fn time_to(&self, gap: f64) -> Option<f64> {
+        self.points
+            .iter()
+            .find(|(_, o, b)| rel_gap(*o, *b) <= gap)
+            .map(|p| p.0)
+    }
+}
+
+/// Relative gap (objective − bound)/|objective|, as HiGHS reports it.
+fn rel_gap(objective: f64, bound: f64) -> f64 {
+    if !(objective.is_finite() && bound.is_finite()) {
+        return f64::INFINITY;
+    }
+    ((objective - bound) / objective.abs().max(1e-9)).max(0.0)
+}
+
+/// Why the decomposition does not take `problem`, or `None` when it does (module doc).
+pub fn unsupported(problem: &Problem) -> Option<&'static str> {
+    if problem.objective == Objective::MaxBenefit {
+        return Some("max-benefit is not decomposed yet");
+    }
+    if problem.zoning.is_some() {
+        return Some("zones are not decomposed");
+    }
+    if problem.spacing.is_some() {
+        return Some("the max gap is not decomposed yet");
+    }
+    if problem.min_reserve.is_some() {
+        return Some("the minimum reserve size is not decomposed yet");
+    }
+    if problem.min_neighbours.is_some() {
+        return Some("the neighbour rule is not decomposed");
+    }
+    if problem.link_reward.is_some() {
+        // −r·xᵢxⱼ is submodular too (a min cut can carry it), but the cut built here holds
+        // only |xᵢ − xⱼ| edges.
+        return Some("the connectivity reward is not decomposed yet");
+    }
+    if problem.keep_objective.is_some() || problem.alternative.is_some() {
+        return Some("a kept objective or a portfolio alternative is not decomposed");
+    }
+    None
+}
+
+impl Solver for Decompose {
+    fn name(&self) -> &'static str {
+        "decompose"
+    }
+
+    fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
+        self.solve_traced(problem, options).map(|(s, _)| s)
+    }
+}
+
+/// The running best network, bound and their history.
+struct Run<'a> {
+    problem: &'a Problem,
+    options: &'a SolveOptions,
+    started: Instant,
+    incumbent: Option<(f64, Vec<bool>)>,
+    bound: f64,
+    trace: Trace,
+}
+
+impl Run<'_> {
+    fn objective(&self) -> f64 {
+        self.incumbent.as_ref().map_or(f64::INFINITY, |(v, _)| *v)
+    }
+
+    fn gap(&self) -> f64 {
+        rel_gap(self.objective(), self.bound)
+    }
+
+    fn note(&mut self) {
+        let p = (
+            self.started.elapsed().as_secs_f64(),
+            self.objective(),
+            self.bound,
+        );
+        if self
+            .trace
+            .points
+            .last()
+            .is_none_or(|l| l.1 != p.1 || l.2 != p.2)
+        {
+            self.trace.points.push(p);
+            if let Some(sink) = &self.options.progress {
+                sink.report(&SolveProgress {
+                    elapsed_s: p.0,
+                    objective: p.1,
+                    bound: p.2,
+                    gap: self.gap(),
+                });
+            }
+        }
+    }
+
+    fn raise_bound(&mut self, b: f64, source: &'static str) {
+        if b > self.bound {
+            self.bound = b;
+            self.trace.bound_source = source;
+            self.note();
+        }
+    }
+
+    /// Keep `sel` if it meets every rule and beats the incumbent.
+    fn offer(&mut self, sel: Vec<bool>) -> bool {
+        let e = evaluate(self.problem, &sel);
+        if e.feasible && e.objective < self.objective() - 1e-9 * e.objective.abs().max(1.0) {
+            self.incumbent = Some((e.objective, sel));
+            self.note();
+            return true;
+        }
+        false
+    }
+}
+
+impl Decompose {
+    /// Solve and return how the solve went (bound source, time to each gap) for the bench.
+    pub fn solve_traced(
+        &self,
+        problem: &Problem,
+        options: &SolveOptions,
+    ) -> Result<(Solution, Trace), SolveError> {
+        problem.validate()?;
+        if unsupported(problem).is_some() {
+            let sol = Highs::default().solve(problem, options)?;
+            return Ok((sol, Trace::default()));
+        }
+        let started = Instant::now();
+        let short = diagnose(problem);
+        if !short.is_empty() {
+            return Err(SolveError::Infeasible(short));
+        }
+        let limit = options.time_limit_s.unwrap_or(DEFAULT_LIMIT_S);
+        let at = |share: f64| started + Duration::from_secs_f64(limit * share);
+        let mut run = Run {
+            problem,
+            options,
+            started,
+            incumbent: None,
+            bound: f64::NEG_INFINITY,
+            trace: Trace {
+                bound_source: "lagrangian",
+                ..Trace::default()
+            },
+        };
+        let mut relax = lagrange::Relaxation::new(problem);
+        relax.threads = options.threads;
+        let moves = primal::Moves::new(problem);
+        let goal = options.rel_gap.max(1e-9);
+
+        // 1. Bound, then a first network from the best cut.
+        let zero = vec![0.0; relax.n_multipliers()];
+        let mut ascent = relax.ascend(&zero, f64::INFINITY, at(0.2), 20_000);
+        run.trace.lagrangian_steps += ascent.iterations;
+        run.raise_bound(ascent.bound, "lagrangian");
+        self.primal_from(&relax, &moves, &ascent, &mut run);
+        if run.incumbent.is_none() {
+            if let Ok(g) = super::greedy::greedy_network(problem) {
+                run.offer(g);
+            }
+        }
+        // 2. Ascend again, aiming at the incumbent.
+        if run.gap() > goal {
+            ascent = relax.ascend(&ascent.lambda, run.objective(), at(0.55), 20_000);
+            run.trace.lagrangian_steps += ascent.iterations;
+            run.raise_bound(ascent.bound, "lagrangian");
+            self.primal_from(&relax, &moves, &ascent, &mut run);
+        }
+        let Some(_) = run.incumbent else {
+            // No network from the heuristics: the direct model decides feasibility.
+            let left = options
+                .time_limit_s
+                .map(|t| (t - started.elapsed().as_secs_f64()).max(1.0));
+            let o = SolveOptions {
+                time_limit_s: left,
+                ..options.clone()
+            };
+            let sol = Highs::default().solve(problem, &o)?;
+            return Ok((sol, run.trace));
+        };
+        // 3. Fixing; a small core is solved outright, else windows first.
+        let best = relax.evaluate(&ascent.lambda);
+        let mut fixed = fixing::fix(problem, &best, run.objective());
+        let mut core_free = fixed.iter().filter(|f| f.is_none()).count();
+        if core_free > CORE_MAX_CELLS && run.gap() > goal {
+            self.windows(&moves, &mut run, at(0.8), goal);
+            fixed = fixing::fix(problem, &best, run.objective());
+            core_free = fixed.iter().filter(|f| f.is_none()).count();
+        }
+        run.trace.core_cells = Some(core_free);
+        if core_free <= CORE_MAX_CELLS && run.gap() > goal {
+            self.core(&best, &fixed, &mut run, at(1.0), goal);
+        }
+        if run.gap() > goal {
+            self.windows(&moves, &mut run, at(1.0), goal);
+        }
+        // Time left after the windows stopped gaining: raise the bound further.
+        if run.gap() > goal && Instant::now() + Duration::from_secs(1) < at(1.0) {
+            ascent = relax.ascend(&ascent.lambda, run.objective(), at(1.0), usize::MAX);
+            run.trace.lagrangian_steps += ascent.iterations;
+            run.raise_bound(ascent.bound, "lagrangian");
+        }
+        let (objective, selected) = run.incumbent.clone().expect("an incumbent exists");
+        let gap = run.gap();
+        let status = if gap <= 1e-9 {
+            SolveStatus::Optimal
+        } else if gap <= options.rel_gap {
+            SolveStatus::GapLimit
+        } else {
+            SolveStatus::TimeLimit
+        };
+        let bound = run.bound.min(objective);
+        let sol = make_solution(
+            problem,
+            selected,
+            status,
+            objective,
+            bound,
+            gap,
+            started,
+            self.name(),
+        );
+        Ok((sol, run.trace))
+    }
+
+    /// Repair the cut at the best multipliers, drop redundant cells, and also try the rounded
+    /// average x̄ ≥ ½ as a start.
+    fn primal_from(
+        &self,
+        relax: &lagrange::Relaxation,
+        moves: &primal::Moves,
+        ascent: &lagrange::Ascent,
+        run: &mut Run,
+    ) {
+        let lagrangian = relax.unary(&ascent.lambda);
+        let cut = relax.evaluate(&ascent.lambda).cut.x;
+        let rounded: Vec<bool> = ascent.average.iter().map(|&v| v >= 0.5).collect();
+        for start in [cut, rounded] {
+            let mut sel = start;
+            if moves.repair(&mut sel, &lagrangian).is_some() {
+                moves.drop_redundant(&mut sel);
+                run.offer(sel);
+            }
+        }
+    }
+
+    /// One HiGHS run on the cells with `free` (the rest held at `at`), warm-started from the
+    /// incumbent when it agrees with `at`. Returns the full network and the full problem's
+    /// bound for that restriction (None when HiGHS gave no answer).
+    fn restricted(
+        &self,
+        run: &Run,
+        free: &[bool],
+        at: &[bool],
+        deadline: Instant,
+        rel_gap: f64,
+    ) -> Option<(Vec<bool>, f64)> {
+        let sub = restrict::restrict(run.problem, free, at)?;
+        let left = deadline
+            .saturating_duration_since(Instant::now())
+            .as_secs_f64();
+        if left < 0.5 {
+            return None;
+        }
+        let (_, inc) = run.incumbent.as_ref()?;
+        let consistent = (0..inc.len()).all(|i| free[i] || inc[i] == at[i]);
+        let start = consistent.then(|| sub.project(inc));
+        let o = SolveOptions {
+            time_limit_s: Some(left),
+            rel_gap,
+            threads: run.options.threads,
+            verbose: false,
+            seed: run.options.seed,
+            progress: None,
+            method: Method::Direct,
+        };
+        let sol = Highs::default()
+            .solve_from(&sub.problem, &o, start.as_deref())
+            .ok()?;
+        let full = sub.lift(at, free, &sol.selected);
+        // Full objective = the sub-problem's + a constant (the fixed part): measured on the
+        // network itself, so the sub-problem's bound carries over.
+        let offset = evaluate(run.problem, &full).objective - sol.objective;
+        let bound = if sol.bound.is_finite() {
+            sol.bound + offset
+        } else {
+            f64::NEG_INFINITY
+        };
+        Some((full, bound))
+    }
+
+    /// Re-solve windows around the network until `deadline`, the goal, or a round with no gain.
+    fn windows(&self, moves: &primal::Moves, run: &mut Run, deadline: Instant, goal: f64) {
+        let n = run.problem.n_cells();
+        loop {
+            let mut gained = false;
+            let mut covered = vec![false; n];
+            let (_, inc) = run.incumbent.clone().expect("an incumbent exists");
+            for seed in 0..n {
+                if !inc[seed] || covered[seed] || run.problem.status[seed] != CellStatus::Free {
+                    continue;
+                }
+                if Instant::now() >= deadline || run.gap() <= goal {
+                    return;
+                }
+                let free = moves.window(seed, WINDOW_CELLS);
+                for (c, f) in covered.iter_mut().zip(&free) {
+                    *c |= *f;
+                }
+                let (_, now) = run.incumbent.clone().expect("an incumbent exists");
+                let per_window = Instant::now() + Duration::from_secs(10);
+                run.trace.windows.0 += 1;
+                if let Some((full, _)) =
+                    self.restricted(run, &free, &now, per_window.min(deadline), 1e-4)
+                {
+                    if run.offer(full) {
+                        run.trace.windows.1 += 1;
+                        gained = true;
+                    }
+                }
+            }
+            if !gained {
+                return;
+            }
+        }
+    }
+
+    /// Solve the core left by fixing; its bound (with the constant of the fixed part) joins
+    /// the reported bound (module doc).
+    fn core(
+        &self,
+        best: &lagrange::Evaluation,
+        fixed: &[Option<bool>],
+        run: &mut Run,
+        deadline: Instant,
+        goal: f64,
+    ) {
+        let free: Vec<bool> = fixed.iter().map(|f| f.is_none()).collect();
+        let at: Vec<bool> = fixed
+            .iter()
+            .zip(&best.cut.x)
+            .map(|(f, &x)| f.unwrap_or(x))
+            .collect();
+        let upper = run.objective();
+        if let Some((full, core_bound)) = self.restricted(run, &free, &at, deadline, goal / 2.0) {
+            run.offer(full);
+            run.raise_bound(core_bound.min(upper), "core");
+        }
+    }
+}
