@@ -521,10 +521,15 @@ pub fn dispersal(
                 currents.push(currents[0].clone());
                 continue;
             }
+            // A NetCDF file with a time axis is read for one year (plan::connectivity).
+            let year = cp
+                .currents_year
+                .or(plan.years.first().copied())
+                .unwrap_or(0);
             let read = |t: &crate::plan::LayerTemplate, c: &str| {
                 sample(
                     &format!("current_{c}/{sc}"),
-                    &t.resolve("", sc, 0),
+                    &t.resolve("", sc, year),
                     grid,
                     cache,
                 )

@@ -8,6 +8,8 @@
 //! v = { path = "currents-{scenario}.csv", column = "v" }   # northward current, m/s
 //! particles_per_cell = 100
 //! seed = 7
+//! currents_year = 2030          # optional: the year a NetCDF file with a time axis is read for
+//!                               # (default: the plan's first year)
 //! step_hours = 3                # optional: largest RK4 step (default 6 h, shortened so a
 //!                               # particle moves at most half a cell per step)
 //! reachability_target = 0.3     # optional: a `reachability/<species>/<scenario>` feature
@@ -37,6 +39,7 @@ pub(crate) struct RawConnectivity {
     particles_per_cell: Option<i64>,
     seed: Option<i64>,
     step_hours: Option<f64>,
+    currents_year: Option<i64>,
     reachability_target: Option<f64>,
     reachability_weight: Option<f64>,
     #[serde(default)]
@@ -99,6 +102,10 @@ pub struct ConnectivityPlan {
     pub seed: u64,
     /// Key `step_hours`: the largest time step (default 6). Units: hours.
     pub max_step_hours: f64,
+    /// Key `currents_year`: the year a NetCDF current file with a time axis is read for (the
+    /// mean of its steps in that year, or the layer's `years_window` around it); `None`: the
+    /// plan's first year. CSV and raster currents have no time axis and ignore it.
+    pub currents_year: Option<i32>,
     /// Keys `reachability_target` / `reachability_weight`: build reachability features.
     pub reachability: Option<super::climate::Goal>,
     /// Per species, in the order listed.
@@ -151,6 +158,17 @@ pub(crate) fn validate(
         .step_hours
         .map(|h| positive(ck, "connectivity.step_hours", h, "step_hours = 3"))
         .unwrap_or(6.0);
+    let currents_year = match raw.currents_year {
+        None => None,
+        Some(y) if (1..=9999).contains(&y) => Some(y as i32),
+        Some(y) => {
+            ck.push(
+                "connectivity.currents_year",
+                format!("must be a year from 1 to 9999, e.g. `currents_year = 2030`; got {y}"),
+            );
+            None
+        }
+    };
     let reachability = if raw.reachability_target.is_some() || raw.reachability_weight.is_some() {
         let target = raw
             .reachability_target
@@ -319,6 +337,7 @@ pub(crate) fn validate(
         particles_per_cell,
         seed,
         max_step_hours,
+        currents_year,
         reachability,
         species: out,
     }

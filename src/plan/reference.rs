@@ -223,6 +223,7 @@ pub const KEYS: &[KeyDoc] = &[
     k("connectivity", "v", "layer table", "required with `u`", "CSV lattice", "m/s", "v = { path = \"currents-{scenario}.csv\", column = \"v\" }", "Northward surface current."),
     k("connectivity", "particles_per_cell", "integer", "100", "1–100000", "", "particles_per_cell = 100", "Larvae released uniformly over each sea cell."),
     k("connectivity", "seed", "integer", "1", "≥ 0", "", "seed = 7", "Seed of the random walk; results do not depend on the thread count."),
+    k("connectivity", "currents_year", "integer", "the plan's first year", "1–9999", "year", "currents_year = 2050", "The year NetCDF currents with a time axis are read for: the mean of the file's steps in that year (or the layer's `years_window` around it). CSV and raster currents ignore it."),
     k("connectivity", "step_hours", "number", "6", "> 0", "h", "step_hours = 3", "Largest RK4 step, shortened so a particle moves at most half a cell per step."),
     k("connectivity", "reachability_target", "number", "none", "0–1", "share", "reachability_target = 0.3", "Target of a `reachability/<species>/<scenario>` feature: last-year habitat reached by larvae from first-year habitat."),
     k("connectivity", "reachability_weight", "number", "1", "≥ 0", "", "reachability_weight = 1", "Weight of the reachability features in max-benefit objectives."),
