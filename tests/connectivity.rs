@@ -434,20 +434,8 @@ fn netcdf_currents_with_a_cf_time_axis_disperse_as_the_csv_lattice() {
         lat = fmt(&lats),
         lon = fmt(&lons),
     );
-    let cdl_path = d.join("currents.cdl");
-    std::fs::write(&cdl_path, cdl).unwrap();
     let nc = d.join("demo-data/currents.nc");
-    let out = Command::new("ncgen")
-        .arg("-o")
-        .arg(&nc)
-        .arg(&cdl_path)
-        .output()
-        .expect("ncgen (Debian netcdf-bin) is needed; .ci/run installs it");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::ncgen(&cdl, &nc);
     let species = "\n[[connectivity.species]]\nname = \"amber-wrasse\"\nlarval_days = 20\n";
     let from_csv = with_section(&base, &format!("{SECTION}{species}"), "csv.toml");
     let nc_section = SECTION

@@ -390,20 +390,8 @@ fn netcdf_cf_sea_temperature_matches_the_equivalent_csv_lattice() {
     }
     cdl.push_str(&packed.join(", "));
     cdl.push_str(" ;\n}\n");
-    let cdl_path = dir.path().join("sst.cdl");
-    std::fs::write(&cdl_path, cdl).unwrap();
     let nc = dir.path().join("sst.nc");
-    let out = Command::new("ncgen")
-        .arg("-o")
-        .arg(&nc)
-        .arg(&cdl_path)
-        .output()
-        .expect("ncgen (Debian netcdf-bin) is needed; .ci/run installs it");
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    common::ncgen(&cdl, &nc);
 
     let grid = Grid::full_rectangle(
         Crs::auto_laea(-5.0, 50.0),

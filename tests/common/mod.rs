@@ -60,3 +60,21 @@ pub fn run_quiet(args: &[&std::ffi::OsStr]) -> std::process::Output {
 pub fn os(s: &str) -> &std::ffi::OsStr {
     std::ffi::OsStr::new(s)
 }
+
+/// Writes the NetCDF file `nc` from the CDL text `cdl` with ncgen (Debian netcdf-bin, an
+/// outside writer; `.ci/run` installs it). The CDL text is kept beside it as `<nc>.cdl`.
+pub fn ncgen(cdl: &str, nc: &Path) {
+    let cdl_path = nc.with_extension("cdl");
+    std::fs::write(&cdl_path, cdl).unwrap();
+    let out = Command::new("ncgen")
+        .arg("-o")
+        .arg(nc)
+        .arg(&cdl_path)
+        .output()
+        .expect("ncgen (Debian netcdf-bin) is needed; .ci/run installs it");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}
