@@ -267,22 +267,20 @@ fn link_rule(
     has_connectivity: bool,
 ) -> Option<crate::connectivity::LinkRule> {
     let w = o.connectivity_weight?;
+    let mut ok = true;
     if !(w.is_finite() && w >= 0.0) {
         ck.push(
             "optimise.connectivity_weight",
             format!("must be a non-negative weight per unit of larval exchange, e.g. `connectivity_weight = 10`; got {w}"),
         );
-        return None;
+        ok = false;
     }
-    if w == 0.0 {
-        return None;
-    }
-    if !has_connectivity {
+    if w > 0.0 && !has_connectivity {
         ck.push(
             "optimise.connectivity_weight",
             "needs a `[connectivity]` section (currents and larval traits, or supplied matrices) to say which cells exchange larvae",
         );
-        return None;
+        ok = false;
     }
     let min_link = o.connectivity_min_link.unwrap_or(DEFAULT_MIN_LINK);
     if !(min_link.is_finite() && min_link >= 0.0) {
@@ -302,6 +300,9 @@ fn link_rule(
             DEFAULT_LINKS_PER_CELL
         }
     };
+    if !ok || w == 0.0 {
+        return None;
+    }
     Some(crate::connectivity::LinkRule {
         weight: w,
         min_link,

@@ -342,6 +342,11 @@ fn a_connectivity_weight_without_a_connectivity_section_is_refused() {
         err.contains("`optimise.connectivity_weight`") && err.contains("[connectivity]"),
         "{err}"
     );
+    // Every problem of the reward's keys is listed at once.
+    assert!(
+        err.contains("`optimise.connectivity_links_per_cell`"),
+        "{err}"
+    );
 }
 
 #[test]
