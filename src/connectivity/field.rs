@@ -92,17 +92,19 @@ pub struct FieldLattice {
     nodes: Vec<[f64; 4]>,
     /// Per node k, the bilinear coefficients of the square of centres with lower-left k when
     /// all four hold a cell: u = a + b·fx + c·fy + d·fx·fy as `[a, b, c, d]` for u, then v
-    /// (one cache line; Σw = 1 there, so no renormalising division).
-    full: Vec<[f64; 8]>,
+    /// (one cache line; Σw = 1 there, so no renormalising division). NaN where not all four
+    /// do, which tells the vector look-up (`super::lanes`) to take the careful way there.
+    pub(super) full: Vec<[f64; 8]>,
     /// Whether node k's square of centres has all four corners at sea.
     is_full: Vec<bool>,
     /// Nodes per padded row (lattice columns + 2).
-    width: usize,
+    pub(super) width: usize,
     /// Padded columns and rows minus one: the largest valid lower-left corner index + 1.
-    limit: [f64; 2],
+    pub(super) limit: [f64; 2],
     /// Projected position of the padded lattice's first square centre. Units: m.
-    base: [f64; 2],
-    inv_cell: f64,
+    pub(super) base: [f64; 2],
+    /// 1 / cell size. Units: 1/m.
+    pub(super) inv_cell: f64,
 }
 
 impl FieldLattice {
@@ -120,7 +122,7 @@ impl FieldLattice {
                 }
             }
         }
-        let mut full = vec![[0.0; 8]; nodes.len()];
+        let mut full = vec![[f64::NAN; 8]; nodes.len()];
         let mut is_full = vec![false; nodes.len()];
         for k in 0..nodes.len().saturating_sub(width + 1) {
             let (a, b, c, d) = (

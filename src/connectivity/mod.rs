@@ -5,6 +5,7 @@
 //! the computed one. `features::reachability` turns the matrices into features.
 
 pub mod field;
+pub mod lanes;
 pub mod pairs;
 pub mod summary;
 pub mod track;
@@ -85,6 +86,9 @@ pub fn disperse(
         .expect("one species in, one matrix out")
 }
 
+/// Source cells tracked together by one task (see [`Tracker::rows_of`]).
+const CELLS_PER_TASK: usize = 16;
+
 /// The matrices of several species that share a step and a diffusivity, from one tracking:
 /// every particle is followed to the longest larval duration and each species counts its own
 /// settlement window and losses on the same path. Species `s`'s matrix equals
@@ -102,10 +106,15 @@ fn disperse_shared(
         .clone();
     let tracker = Tracker::with_stepping(field, longest);
     let n = field.grid().len();
-    // rows[cell][species]: computed in parallel, collected in cell order.
-    let rows: Vec<_> = (0..n as u32)
-        .into_par_iter()
-        .map(|i| tracker.rows(i, particles, seed, species))
+    // rows[cell][species]: computed in parallel, a few cells per task so the lanes stay full
+    // to the end, collected in cell order.
+    let cells: Vec<u32> = (0..n as u32).collect();
+    let rows: Vec<_> = cells
+        .par_chunks(CELLS_PER_TASK)
+        .map(|chunk| tracker.rows_of(chunk, particles, seed, species))
+        .collect::<Vec<_>>()
+        .into_iter()
+        .flatten()
         .collect();
     let mut out: Vec<_> = species
         .iter()

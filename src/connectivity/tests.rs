@@ -265,10 +265,13 @@ fn summary_by_hand() {
 
 #[test]
 fn lock_step_lanes_follow_each_particle_alone() {
-    // `Tracker::rows` runs particles eight abreast; each must go exactly as `follow` takes it
-    // alone from its own stream (consistency with the one-particle reference above, whose
-    // paths the advection, diffusion and beaching checks test). 11 particles: a full and a
-    // partial batch; a coast, so some lanes die while others go on.
+    // `Tracker::rows` runs particles in lanes (`LANES` abreast, a freed lane taking the next
+    // particle); each must go exactly as `follow` takes it alone from its own stream
+    // (consistency with the one-particle reference above, whose paths the advection,
+    // diffusion and beaching checks test). 37 particles: more than two lanes' worth, so lanes
+    // are reused; a coast, so some lanes are freed early while others go on. Then several
+    // cells tracked together (`rows_of`, lanes passing from one cell's particles to the
+    // next's) must give the rows cell by cell.
     let g = with_coast(14, 10, 8_000.0, 11);
     let (u, v) = swirl(&g);
     let l = Larvae {
@@ -277,9 +280,12 @@ fn lock_step_lanes_follow_each_particle_alone() {
         settle_window_days: (4.0, 6.0),
     };
     let t = Tracker::new(CurrentField::new(&g, &u, &v), &l, 3.0);
-    let (particles, seed) = (11u32, 5u64);
+    let (particles, seed) = (37u32, 5u64);
+    assert!(particles as usize > 2 * track::LANES);
     let mut lost_any = false;
-    for cell in [0u32, 17, 54, g.len() as u32 - 1] {
+    let cells = [0u32, 17, 54, g.len() as u32 - 1];
+    let mut one_by_one = Vec::new();
+    for cell in cells {
         let sq = g.cell_square(cell);
         let mut counts = std::collections::BTreeMap::<u32, u64>::new();
         let (mut beached, mut left) = (0, 0);
@@ -309,13 +315,18 @@ fn lock_step_lanes_follow_each_particle_alone() {
             .into_iter()
             .map(|(c, n)| (c, n as f64 / per))
             .collect();
-        assert_eq!(
-            t.row(cell, particles, seed),
-            (want, beached, left),
-            "cell {cell}"
-        );
+        let row = t.row(cell, particles, seed);
+        assert_eq!(row, (want, beached, left), "cell {cell}");
+        one_by_one.push(vec![row]);
     }
     assert!(lost_any, "the check should see lanes lost mid-batch");
+    let own = Stepping {
+        dt_s: t.dt_s,
+        steps: t.steps,
+        sigma_m: t.sigma_m,
+        settle_steps: t.settle_steps.clone(),
+    };
+    assert_eq!(t.rows_of(&cells, particles, seed, &[own]), one_by_one);
 }
 
 #[test]

@@ -32,6 +32,7 @@
 //!   (the last day only) that is simply the cell where it is at the end of its larval duration.
 
 use super::field::{CurrentField, FieldLattice};
+use super::lanes::{Advect, OFF_GRID};
 use crate::grid::NO_CELL;
 use crate::plan::connectivity::Larvae;
 use rand::{Rng, SeedableRng};
@@ -45,7 +46,7 @@ const DAY_S: f64 = 86_400.0;
 pub type SourceRow = (Vec<(u32, f64)>, u32, u32);
 
 /// Particles tracked side by side in [`Tracker::rows`].
-pub const LANES: usize = 8;
+pub use super::lanes::LANES;
 
 /// How a particle's journey ended.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -120,6 +121,7 @@ impl Stepping {
 pub struct Tracker<'a> {
     field: CurrentField<'a>,
     lattice: FieldLattice,
+    advect: Advect,
     /// Step length. Units: s.
     pub dt_s: f64,
     /// Number of steps (dt × steps = larval duration).
@@ -140,6 +142,7 @@ impl<'a> Tracker<'a> {
     pub fn with_stepping(field: CurrentField<'a>, s: Stepping) -> Self {
         Tracker {
             lattice: FieldLattice::new(&field),
+            advect: Advect::detect(),
             field,
             dt_s: s.dt_s,
             steps: s.steps,
@@ -204,10 +207,6 @@ impl<'a> Tracker<'a> {
     /// seed: `(cell, probability)` sorted by cell, and the counts of beached and
     /// lost-beyond-the-grid particles within its larval duration.
     ///
-    /// Particles go [`LANES`] at a time in lock-step, each RK4 stage for all of them before
-    /// the next: one particle's stages form a chain of dependent look-ups, and interleaving
-    /// independent chains lets the processor overlap them. Each lane does exactly what
-    /// [`Tracker::follow`] does for that particle.
     pub fn rows(
         &self,
         cell: u32,
@@ -215,142 +214,162 @@ impl<'a> Tracker<'a> {
         seed: u64,
         species: &[Stepping],
     ) -> Vec<SourceRow> {
+        self.rows_of(&[cell], particles, seed, species)
+            .pop()
+            .expect("one cell in, one set of rows out")
+    }
+
+    /// [`Tracker::rows`] for several source cells, in their order, from one stream of
+    /// particles: [`LANES`] larvae move at once, one RK4 step for all of them
+    /// ([`super::lanes`], in vector registers where the processor allows), and a lane whose
+    /// larva is lost or reaches the end takes the next one, from the same cell or the next
+    /// — so the lanes stay full. Each lane does exactly what [`Tracker::follow`] does for its
+    /// larva, whatever lane it runs in and whatever ran there before; the rows are the same
+    /// as cell by cell.
+    pub fn rows_of(
+        &self,
+        cells: &[u32],
+        particles: u32,
+        seed: u64,
+        species: &[Stepping],
+    ) -> Vec<Vec<SourceRow>> {
         debug_assert!(species.iter().all(|s| s.steps <= self.steps));
+        const EMPTY: usize = usize::MAX;
         let grid = self.field.grid();
-        let sq = grid.cell_square(cell);
-        let (lo, hi) = (sq.min(), sq.max());
-        let keyed = ChaCha8Rng::seed_from_u64(mix(seed, cell as u64));
         let n_sp = species.len();
-        // Visits as (cell, count) runs: a larva lingers in a cell for several step ends, so
-        // each lane keeps its current run per species and files it when the cell changes.
-        let mut visits: Vec<Vec<(u32, u32)>> = vec![Vec::new(); n_sp];
-        let mut runs = vec![(NO_CELL, 0u32); LANES * n_sp];
-        let mut lost = vec![(0u32, 0u32); n_sp];
-        // The last step any species needs.
+        // The last step any species needs, and who may settle at the end of each step.
         let horizon = species.iter().map(|s| s.steps).max().unwrap_or(0);
-        let (cols, rows) = (grid.n_cols as f64, grid.n_rows as f64);
+        let settle: Vec<Vec<usize>> = (1..=horizon)
+            .map(|step| {
+                (0..n_sp)
+                    .filter(|&si| species[si].settle_steps.contains(&step))
+                    .collect()
+            })
+            .collect();
+        // Visits as (cell, count) runs per source and species: a larva lingers in a cell for
+        // several step ends, so each lane keeps its current run per species and files it
+        // when the cell changes or the larva's journey ends.
+        let mut visits: Vec<Vec<Vec<(u32, u32)>>> = vec![vec![Vec::new(); n_sp]; cells.len()];
+        let mut lost = vec![vec![(0u32, 0u32); n_sp]; cells.len()];
+        let mut runs = vec![(NO_CELL, 0u32); LANES * n_sp];
+        // Lane state: position (NaN when empty), steps taken, source (index into `cells`).
+        let mut xs = [f64::NAN; LANES];
+        let mut ys = [f64::NAN; LANES];
+        let mut age = [0usize; LANES];
+        let mut source = [EMPTY; LANES];
+        let mut rng: Vec<ChaCha8Rng> = vec![ChaCha8Rng::seed_from_u64(0); LANES];
+        let mut at = [NO_CELL; LANES];
+        // The next larva to release: source index and particle number.
+        let (mut next_source, mut next_particle) = (0usize, 0u32);
+        let mut keyed = None;
+        let mut busy = 0;
         let h = self.dt_s;
-        let mut first = 0;
-        while first < particles {
-            let lanes = (particles - first).min(LANES as u32) as usize;
-            let mut rng: Vec<ChaCha8Rng> = Vec::with_capacity(lanes);
-            let mut x = [[f64::NAN; 2]; LANES];
-            for (l, xl) in x.iter_mut().enumerate().take(lanes) {
-                let mut r = keyed.clone();
-                r.set_stream((first as usize + l) as u64);
-                r.set_word_pos(0);
-                *xl = [r.gen_range(lo.x..hi.x), r.gen_range(lo.y..hi.y)];
-                rng.push(r);
-            }
-            let mut alive = [false; LANES];
-            alive[..lanes].fill(true);
-            let mut n_alive = lanes;
-            let (mut k1, mut k2, mut k3, mut k4) = (
-                [[0.0; 2]; LANES],
-                [[0.0; 2]; LANES],
-                [[0.0; 2]; LANES],
-                [[0.0; 2]; LANES],
-            );
-            let vel = |p: [f64; 2]| self.lattice.velocity(p[0], p[1]);
-            let mut step = 0;
-            let mut settling: Vec<usize> = Vec::with_capacity(n_sp);
-            while n_alive > 0 && step < horizon {
-                step += 1;
-                // The species that may settle at this step's end.
-                settling.clear();
-                settling.extend((0..n_sp).filter(|&si| species[si].settle_steps.contains(&step)));
-                // Dead and unused lanes are evaluated too (the look-up is total and returns at
-                // once for their NaN position): no branches on liveness.
+        loop {
+            if horizon > 0 {
                 for l in 0..LANES {
-                    k1[l] = vel(x[l]);
-                }
-                for l in 0..LANES {
-                    k2[l] = vel([x[l][0] + 0.5 * h * k1[l][0], x[l][1] + 0.5 * h * k1[l][1]]);
-                }
-                for l in 0..LANES {
-                    k3[l] = vel([x[l][0] + 0.5 * h * k2[l][0], x[l][1] + 0.5 * h * k2[l][1]]);
-                }
-                for l in 0..LANES {
-                    k4[l] = vel([x[l][0] + h * k3[l][0], x[l][1] + h * k3[l][1]]);
-                }
-                for l in 0..lanes {
-                    if !alive[l] {
+                    if source[l] != EMPTY {
                         continue;
                     }
-                    let mut p = [
-                        x[l][0] + h / 6.0 * (k1[l][0] + 2.0 * k2[l][0] + 2.0 * k3[l][0] + k4[l][0]),
-                        x[l][1] + h / 6.0 * (k1[l][1] + 2.0 * k2[l][1] + 2.0 * k3[l][1] + k4[l][1]),
-                    ];
-                    if self.sigma_m > 0.0 {
-                        let (a, b) = unit_pair(&mut rng[l]);
-                        p[0] += self.sigma_m * a;
-                        p[1] += self.sigma_m * b;
+                    while next_source < cells.len() && next_particle == particles {
+                        (next_source, next_particle, keyed) = (next_source + 1, 0, None);
                     }
-                    x[l] = p;
-                    let c = (p[0] - grid.origin[0]) / grid.cell_size_m;
-                    let r = (p[1] - grid.origin[1]) / grid.cell_size_m;
-                    let fate = if !(c >= 0.0 && r >= 0.0 && c < cols && r < rows) {
-                        Fate::LeftGrid
-                    } else {
-                        match grid.lattice[r as usize * grid.n_cols as usize + c as usize] {
-                            NO_CELL => Fate::Beached,
-                            at => {
-                                for &si in &settling {
-                                    let run = &mut runs[l * n_sp + si];
-                                    if run.0 != at {
-                                        if run.1 > 0 {
-                                            visits[si].push(*run);
-                                        }
-                                        *run = (at, 0);
-                                    }
-                                    run.1 += 1;
+                    if next_source == cells.len() {
+                        break;
+                    }
+                    let cell = cells[next_source];
+                    let keyed = keyed.get_or_insert_with(|| {
+                        let sq = grid.cell_square(cell);
+                        (
+                            ChaCha8Rng::seed_from_u64(mix(seed, cell as u64)),
+                            sq.min(),
+                            sq.max(),
+                        )
+                    });
+                    let (lo, hi) = (keyed.1, keyed.2);
+                    let mut r = keyed.0.clone();
+                    r.set_stream(next_particle as u64);
+                    r.set_word_pos(0);
+                    xs[l] = r.gen_range(lo.x..hi.x);
+                    ys[l] = r.gen_range(lo.y..hi.y);
+                    rng[l] = r;
+                    (age[l], source[l]) = (0, next_source);
+                    next_particle += 1;
+                    busy += 1;
+                }
+            }
+            if busy == 0 {
+                break;
+            }
+            // Empty lanes are stepped too (the look-up is total and returns at once for their
+            // NaN position): no branches on occupancy.
+            self.advect.step(&self.lattice, h, &mut xs, &mut ys);
+            if self.sigma_m > 0.0 {
+                for l in (0..LANES).filter(|&l| source[l] != EMPTY) {
+                    let (a, b) = unit_pair(&mut rng[l]);
+                    xs[l] += self.sigma_m * a;
+                    ys[l] += self.sigma_m * b;
+                }
+            }
+            self.advect.locate(grid, &xs, &ys, &mut at);
+            for l in 0..LANES {
+                if source[l] == EMPTY {
+                    continue;
+                }
+                age[l] += 1;
+                let (step, src) = (age[l], source[l]);
+                let fate = match at[l] {
+                    OFF_GRID => Fate::LeftGrid,
+                    NO_CELL => Fate::Beached,
+                    here => {
+                        for &si in &settle[step - 1] {
+                            let run = &mut runs[l * n_sp + si];
+                            if run.0 != here {
+                                if run.1 > 0 {
+                                    visits[src][si].push(*run);
                                 }
-                                Fate::Afloat
+                                *run = (here, 0);
                             }
+                            run.1 += 1;
                         }
-                    };
-                    if fate != Fate::Afloat {
-                        alive[l] = false;
-                        // Parked off the lattice, its look-ups take the quickest way out.
-                        x[l] = [f64::NAN; 2];
-                        n_alive -= 1;
-                        for (s, lo) in species.iter().zip(lost.iter_mut()) {
-                            if step <= s.steps {
-                                match fate {
-                                    Fate::Beached => lo.0 += 1,
-                                    _ => lo.1 += 1,
-                                }
+                        Fate::Afloat
+                    }
+                };
+                if fate != Fate::Afloat {
+                    for (s, lo) in species.iter().zip(lost[src].iter_mut()) {
+                        if step <= s.steps {
+                            match fate {
+                                Fate::Beached => lo.0 += 1,
+                                _ => lo.1 += 1,
                             }
                         }
                     }
                 }
+                if fate != Fate::Afloat || step == horizon {
+                    // The journey is over: file the lane's runs and free it.
+                    for (si, run) in runs[l * n_sp..(l + 1) * n_sp].iter_mut().enumerate() {
+                        if run.1 > 0 {
+                            visits[src][si].push(*run);
+                        }
+                        *run = (NO_CELL, 0);
+                    }
+                    [xs[l], ys[l]] = [f64::NAN; 2];
+                    source[l] = EMPTY;
+                    busy -= 1;
+                }
             }
-            first += lanes as u32;
         }
-        for (k, run) in runs.into_iter().enumerate() {
-            if run.1 > 0 {
-                visits[k % n_sp].push(run);
-            }
-        }
-        species
-            .iter()
-            .zip(visits)
+        visits
+            .into_iter()
             .zip(lost)
-            .map(|((s, mut v), (beached, left))| {
-                let per = particles as f64 * s.chances() as f64;
-                v.sort_unstable_by_key(|e| e.0);
-                let mut row: Vec<(u32, f64)> = Vec::new();
-                let mut k = 0;
-                while k < v.len() {
-                    let c = v[k].0;
-                    let mut n = 0u64;
-                    while k < v.len() && v[k].0 == c {
-                        n += v[k].1 as u64;
-                        k += 1;
-                    }
-                    row.push((c, n as f64 / per));
-                }
-                (row, beached, left)
+            .map(|(by_species, lost)| {
+                species
+                    .iter()
+                    .zip(by_species)
+                    .zip(lost)
+                    .map(|((s, v), (beached, left))| {
+                        (settled_row(v, particles, s.chances()), beached, left)
+                    })
+                    .collect()
             })
             .collect()
     }
@@ -367,6 +386,25 @@ impl<'a> Tracker<'a> {
         };
         self.rows(cell, particles, seed, &[own]).remove(0)
     }
+}
+
+/// One species' settlement row from its visit runs: visits summed per cell, each worth
+/// 1 / (particles × settlement chances); `(cell, probability)` sorted by cell.
+fn settled_row(mut visits: Vec<(u32, u32)>, particles: u32, chances: usize) -> Vec<(u32, f64)> {
+    let per = particles as f64 * chances as f64;
+    visits.sort_unstable_by_key(|e| e.0);
+    let mut row: Vec<(u32, f64)> = Vec::new();
+    let mut k = 0;
+    while k < visits.len() {
+        let c = visits[k].0;
+        let mut n = 0u64;
+        while k < visits.len() && visits[k].0 == c {
+            n += visits[k].1 as u64;
+            k += 1;
+        }
+        row.push((c, n as f64 / per));
+    }
+    row
 }
 
 /// Two independent random-walk deviates of mean 0 and variance 1, each uniform on
