@@ -159,6 +159,11 @@ impl FieldLattice {
         }
     }
 
+    /// Squares in the padded lattice.
+    pub fn nodes(&self) -> usize {
+        self.nodes.len()
+    }
+
     /// Velocity at a projected point (m/s), as [`CurrentField::velocity`] (to rounding: the
     /// position is scaled by the reciprocal of the cell size).
     #[inline(always)]

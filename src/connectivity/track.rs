@@ -140,9 +140,10 @@ impl<'a> Tracker<'a> {
 
     /// A tracker with the given steps.
     pub fn with_stepping(field: CurrentField<'a>, s: Stepping) -> Self {
+        let lattice = FieldLattice::new(&field);
         Tracker {
-            lattice: FieldLattice::new(&field),
-            advect: Advect::detect(),
+            advect: Advect::detect_for(lattice.nodes().max(field.grid().lattice.len())),
+            lattice,
             field,
             dt_s: s.dt_s,
             steps: s.steps,
