@@ -36,6 +36,7 @@ fn main() {
         let e = Energy {
             unary: unary.clone(),
             pairs: pairs.clone(),
+            directed: Vec::new(),
             fixed: vec![None; n],
         };
         let t = Instant::now();

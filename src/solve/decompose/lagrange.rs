@@ -152,6 +152,7 @@ impl<'a> Relaxation<'a> {
         let energy = Energy {
             unary: self.unary(lambda),
             pairs: self.pairs.clone(),
+            directed: Vec::new(),
             fixed: self.fixed.clone(),
         };
         let cut = energy.minimise();

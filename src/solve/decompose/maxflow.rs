@@ -5,8 +5,11 @@
 //! between augmentations, with orphan adoption. On the grid graphs of a plan it beat Dinic's
 //! algorithm (petgraph 0.8) by a wide margin (docs/method.md, "Decomposition"), so it is kept.
 //!
-//! The energy is E(x) = Σᵢ uᵢxᵢ + Σ_{(i,j)} wᵢⱼ|xᵢ − xⱼ| over xᵢ ∈ {0, 1} with wᵢⱼ ≥ 0, some
-//! cells fixed. Chosen cells (x = 1) end on the source side of the cut.
+//! The energy is E(x) = Σᵢ uᵢxᵢ + Σ_{(i,j)} wᵢⱼ|xᵢ − xⱼ| + Σ_{(i,j)} rᵢⱼxᵢ(1 − xⱼ) over
+//! xᵢ ∈ {0, 1} with wᵢⱼ, rᵢⱼ ≥ 0, some cells fixed. Chosen cells (x = 1) end on the source side
+//! of the cut, so the directed term is the arc i → j, cut exactly when i is chosen and j not.
+//! It carries a reward for choosing both ends: −r·xᵢxⱼ = −r·xᵢ + r·xᵢ(1 − xⱼ), which is
+//! submodular (Kolmogorov & Zabih 2004, the regularity condition).
 
 /// An energy to minimise (module doc).
 #[derive(Debug, Clone, PartialEq)]
@@ -15,6 +18,8 @@ pub struct Energy {
     pub unary: Vec<f64>,
     /// `(i, j, wᵢⱼ)`, wᵢⱼ ≥ 0: paid when xᵢ ≠ xⱼ.
     pub pairs: Vec<(u32, u32, f64)>,
+    /// `(i, j, rᵢⱼ)`, rᵢⱼ ≥ 0: paid when xᵢ = 1 and xⱼ = 0.
+    pub directed: Vec<(u32, u32, f64)>,
     /// `Some(v)` fixes xᵢ = v.
     pub fixed: Vec<Option<bool>>,
 }
@@ -59,7 +64,13 @@ impl Energy {
             .filter(|(i, j, _)| x[*i as usize] != x[*j as usize])
             .map(|(_, _, w)| *w)
             .sum();
-        un + pw
+        let dw: f64 = self
+            .directed
+            .iter()
+            .filter(|(i, j, _)| x[*i as usize] && !x[*j as usize])
+            .map(|(_, _, r)| *r)
+            .sum();
+        un + pw + dw
     }
 
     /// An exact minimiser (module doc).
@@ -73,18 +84,46 @@ impl Energy {
                 constant += u[i];
             }
         }
-        let mut arcs: Vec<(u32, u32, f64)> = Vec::with_capacity(self.pairs.len());
+        // (i, j, capacity i → j, capacity j → i).
+        let mut arcs: Vec<(u32, u32, f64, f64)> =
+            Vec::with_capacity(self.pairs.len() + self.directed.len());
         for &(i, j, w) in &self.pairs {
             if w <= 0.0 || i == j {
                 continue;
             }
             match (self.fixed[i as usize], self.fixed[j as usize]) {
-                (None, None) => arcs.push((i, j, w)),
+                (None, None) => arcs.push((i, j, w, w)),
                 (None, Some(v)) => fold(&mut u, &mut constant, i, v, w),
                 (Some(v), None) => fold(&mut u, &mut constant, j, v, w),
                 (Some(a), Some(b)) => {
                     if a != b {
                         constant += w;
+                    }
+                }
+            }
+        }
+        for &(i, j, r) in &self.directed {
+            if r <= 0.0 || i == j {
+                continue;
+            }
+            match (self.fixed[i as usize], self.fixed[j as usize]) {
+                (None, None) => arcs.push((i, j, r, 0.0)),
+                // r·xᵢ when j is left out; nothing when j is chosen.
+                (None, Some(b)) => {
+                    if !b {
+                        u[i as usize] += r;
+                    }
+                }
+                // r·(1 − xⱼ) when i is chosen; nothing when i is left out.
+                (Some(a), None) => {
+                    if a {
+                        constant += r;
+                        u[j as usize] -= r;
+                    }
+                }
+                (Some(a), Some(b)) => {
+                    if a && !b {
+                        constant += r;
                     }
                 }
             }
@@ -129,15 +168,16 @@ fn fold(u: &mut [f64], constant: &mut f64, i: u32, v: bool, w: f64) {
 }
 
 impl Graph {
-    fn new(n: usize, pairs: &[(u32, u32, f64)], tr: Vec<f64>) -> Graph {
+    /// The graph of arcs `(i, j, capacity i → j, capacity j → i)` and terminal capacities.
+    fn new(n: usize, pairs: &[(u32, u32, f64, f64)], tr: Vec<f64>) -> Graph {
         let mut head = Vec::with_capacity(2 * pairs.len());
         let mut cap = Vec::with_capacity(2 * pairs.len());
         let mut deg = vec![0u32; n + 1];
-        for &(i, j, w) in pairs {
+        for &(i, j, forward, backward) in pairs {
             head.push(j);
-            cap.push(w);
+            cap.push(forward);
             head.push(i);
-            cap.push(w);
+            cap.push(backward);
             deg[i as usize] += 1;
             deg[j as usize] += 1;
         }
@@ -147,7 +187,7 @@ impl Graph {
         }
         let mut fill = first.clone();
         let mut out = vec![0u32; head.len()];
-        for (q, &(i, j, _)) in pairs.iter().enumerate() {
+        for (q, &(i, j, _, _)) in pairs.iter().enumerate() {
             out[fill[i as usize] as usize] = 2 * q as u32;
             fill[i as usize] += 1;
             out[fill[j as usize] as usize] = 2 * q as u32 + 1;
@@ -467,8 +507,8 @@ mod tests {
     use rand::{Rng, SeedableRng};
 
     /// Brute-force enumeration of all 2ⁿ assignments (n ≤ 16) against the min cut, with random
-    /// unary terms of both signs, random pair weights on a grid plus random extra pairs, and
-    /// random fixed cells. Reference: exhaustive enumeration of the energy.
+    /// unary terms of both signs, random pair weights on a grid plus random extra pairs, random
+    /// directed terms in every other case, and random fixed cells. Reference: exhaustive enumeration of the energy.
     #[test]
     fn min_cut_equals_enumeration() {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(7);
@@ -490,6 +530,16 @@ mod tests {
                 let j = rng.gen_range(0..n as u32);
                 pairs.push((i, j, rng.gen_range(0.0..1.0)));
             }
+            // Directed terms (a link reward's form) in half the cases, on grid neighbours and
+            // random pairs alike.
+            let mut directed = Vec::new();
+            if case % 2 == 1 {
+                for _ in 0..rng.gen_range(1..=n + 2) {
+                    let i = rng.gen_range(0..n as u32);
+                    let j = rng.gen_range(0..n as u32);
+                    directed.push((i, j, rng.gen_range(0.0..2.5)));
+                }
+            }
             let fixed: Vec<Option<bool>> = (0..n)
                 .map(|_| match rng.gen_range(0..8) {
                     0 => Some(true),
@@ -500,6 +550,7 @@ mod tests {
             let e = Energy {
                 unary,
                 pairs,
+                directed,
                 fixed: fixed.clone(),
             };
             let cut = e.minimise();
@@ -543,6 +594,32 @@ mod tests {
         }
     }
 
+    /// A link reward on two cells, worked by hand: E = 1·x₀ + 1·x₁ − 3·x₀x₁, written as
+    /// unary −2, −2 and the directed term 3·x₀(1 − x₁). Values: (0,0) 0, (1,0) 1, (0,1) 1,
+    /// (1,1) −1, so both are chosen and the least energy is −1 (hand enumeration).
+    #[test]
+    fn a_link_reward_pulls_two_cells_in_together() {
+        let e = Energy {
+            unary: vec![1.0 - 3.0, 1.0],
+            pairs: vec![],
+            directed: vec![(0, 1, 3.0)],
+            fixed: vec![None, None],
+        };
+        let cut = e.minimise();
+        assert_eq!(cut.x, vec![true, true]);
+        assert!((cut.value + 1.0).abs() < 1e-12);
+        assert!((e.value(&[true, false]) - 1.0).abs() < 1e-12);
+        assert!((e.value(&[false, true]) - 1.0).abs() < 1e-12);
+        // With cell 1 fixed out the reward cannot be had: x₀ = 0, energy 0.
+        let out = Energy {
+            fixed: vec![None, Some(false)],
+            ..e
+        };
+        let cut = out.minimise();
+        assert_eq!(cut.x, vec![false, false]);
+        assert!(cut.value.abs() < 1e-12);
+    }
+
     /// Without pairs the energy separates: xᵢ = 1 exactly where uᵢ < 0, and the flip cost is
     /// |uᵢ| (hand derivation).
     #[test]
@@ -550,6 +627,7 @@ mod tests {
         let e = Energy {
             unary: vec![-2.0, 1.5, 0.0, -0.5],
             pairs: vec![],
+            directed: vec![],
             fixed: vec![None, None, None, Some(false)],
         };
         let cut = e.minimise();
