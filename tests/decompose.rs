@@ -339,3 +339,106 @@ fn same_network_at_one_and_two_threads() {
     assert_eq!(a.selected, b.selected);
     assert_eq!(a.objective, b.objective);
 }
+
+/// `p` with a connectivity reward of weight `w`: random links between its cells (each pair
+/// with chance `density`, strengths in 0.01–0.3), in the form `connectivity::pairs` gives
+/// (i < j, each pair once).
+fn with_links(mut p: Problem, w: f64, density: f64, rng: &mut ChaCha8Rng) -> Problem {
+    let n = p.n_cells() as u32;
+    let mut pairs = Vec::new();
+    for i in 0..n {
+        for j in i + 1..n {
+            if rng.gen_bool(density) {
+                pairs.push((i, j, rng.gen_range(0.01..0.3)));
+            }
+        }
+    }
+    p.link_reward = Some(driftplan::model::LinkReward { weight: w, pairs });
+    p
+}
+
+#[test]
+fn a_link_reward_decomposes_to_the_brute_force_optimum() {
+    // Reference: brute-force enumeration of every network (model::evaluate counts the reward
+    // −w·Σ s over links with both ends chosen). The cut carries the reward as a directed
+    // term, so the decomposition must close these small problems exactly, with a bound that
+    // never passes the optimum.
+    let mut rng = ChaCha8Rng::seed_from_u64(23);
+    let mut changed = 0;
+    for (case, plain) in small_instances().into_iter().enumerate() {
+        let w = [2.0, 6.0][case % 2];
+        let p = with_links(plain.clone(), w, 0.3, &mut rng);
+        assert_eq!(driftplan::solve::decompose::unsupported(&p), None);
+        let opt = BruteForce.solve(&p, &SolveOptions::default()).unwrap();
+        let without = BruteForce.solve(&plain, &SolveOptions::default()).unwrap();
+        changed += usize::from(opt.selected != without.selected);
+        let (d, _) = Decompose.solve_traced(&p, &one_thread()).unwrap();
+        assert_eq!(d.solver, "decompose", "case {case}");
+        let e = evaluate(&p, &d.selected);
+        assert!(e.feasible, "case {case}: network breaks a rule");
+        assert!((e.objective - d.objective).abs() < 1e-7, "case {case}");
+        assert!(
+            d.bound <= opt.objective + 1e-6,
+            "case {case}: bound {} above optimum {}",
+            d.bound,
+            opt.objective
+        );
+        assert!(
+            (d.objective - opt.objective).abs() < 1e-6,
+            "case {case}: {} vs optimum {}",
+            d.objective,
+            opt.objective
+        );
+    }
+    assert!(changed >= 3, "the reward should change some optima ({changed})");
+}
+
+#[test]
+fn a_link_reward_agrees_with_direct_highs_on_thousands_of_cells() {
+    // Reference: the direct integer program in HiGHS (the reward linearised there with
+    // z ≤ xᵢ, z ≤ xⱼ). The two proven intervals [bound, objective] must overlap.
+    let mut rng = ChaCha8Rng::seed_from_u64(31);
+    let plain = instance(&mut rng, 40, 50, 18, Some(0.5), true);
+    // Links between rook neighbours and a few cells further along, as larvae drift.
+    let (rows, cols) = (40u32, 50u32);
+    let mut pairs = Vec::new();
+    for i in 0..rows * cols {
+        for d in [1, cols, 2 * cols + 1] {
+            let j = i + d;
+            if j < rows * cols && (d != 1 || (i + 1) % cols != 0) && rng.gen_bool(0.7) {
+                pairs.push((i, j, rng.gen_range(0.01..0.2)));
+            }
+        }
+    }
+    let mut p = plain;
+    p.link_reward = Some(driftplan::model::LinkReward { weight: 3.0, pairs });
+    let o = SolveOptions {
+        rel_gap: 0.005,
+        ..one_thread()
+    };
+    let d = Decompose.solve(&p, &o).unwrap();
+    assert_eq!(d.solver, "decompose");
+    let h = Highs::default()
+        .solve(
+            &p,
+            &SolveOptions {
+                method: Method::Direct,
+                ..o.clone()
+            },
+        )
+        .unwrap();
+    for s in [&d, &h] {
+        let e = evaluate(&p, &s.selected);
+        assert!(e.feasible, "{}: infeasible network", s.solver);
+        assert!(
+            (e.objective - s.objective).abs() < 1e-6 * s.objective.abs(),
+            "{}",
+            s.solver
+        );
+        assert!(e.linked > 0.0, "{}: no links held", s.solver);
+    }
+    let tol = 1e-6 * h.objective.abs();
+    assert!(d.bound <= h.objective + tol, "{} > {}", d.bound, h.objective);
+    assert!(h.bound <= d.objective + tol, "{} > {}", h.bound, d.objective);
+    assert!(d.gap <= 0.005 + 1e-9, "decomposition gap {}", d.gap);
+}

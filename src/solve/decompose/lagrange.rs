@@ -38,6 +38,9 @@ pub struct Relaxation<'a> {
     base: Vec<f64>,
     /// `(i, j, w·lᵢⱼ)`.
     pairs: Vec<(u32, u32, f64)>,
+    /// `(i, j, r·sᵢⱼ)` of the connectivity reward −r·sᵢⱼ·xᵢxⱼ, whose −r·sᵢⱼ·xᵢ part is in
+    /// `base` (maxflow module doc).
+    directed: Vec<(u32, u32, f64)>,
     fixed: Vec<Option<bool>>,
     /// HiGHS threads for the master LP (HiGHS refuses a thread count that differs from the
     /// one its scheduler started with on the same OS thread, so every HiGHS call of a solve
@@ -98,6 +101,14 @@ impl<'a> Relaxation<'a> {
                 .map(|&(i, j, l)| (i, j, pen.weight * l))
                 .collect();
         }
+        let mut directed = Vec::new();
+        if let Some(links) = problem.link_reward.as_ref().filter(|l| l.weight > 0.0) {
+            for &(i, j, strength) in &links.pairs {
+                let r = links.weight * strength;
+                base[i as usize] -= r;
+                directed.push((i, j, r));
+            }
+        }
         let fixed = problem
             .status
             .iter()
@@ -114,6 +125,7 @@ impl<'a> Relaxation<'a> {
             budget_rows,
             base,
             pairs,
+            directed,
             fixed,
             threads: None,
         }
@@ -152,7 +164,7 @@ impl<'a> Relaxation<'a> {
         let energy = Energy {
             unary: self.unary(lambda),
             pairs: self.pairs.clone(),
-            directed: Vec::new(),
+            directed: self.directed.clone(),
             fixed: self.fixed.clone(),
         };
         let cut = energy.minimise();

@@ -117,11 +117,6 @@ pub fn unsupported(problem: &Problem) -> Option<&'static str> {
     if problem.min_neighbours.is_some() {
         return Some("the neighbour rule is not decomposed");
     }
-    if problem.link_reward.is_some() {
-        // −r·xᵢxⱼ is submodular too (a min cut can carry it), but the cut built here holds
-        // only |xᵢ − xⱼ| edges.
-        return Some("the connectivity reward is not decomposed yet");
-    }
     if problem.keep_objective.is_some() || problem.alternative.is_some() {
         return Some("a kept objective or a portfolio alternative is not decomposed");
     }

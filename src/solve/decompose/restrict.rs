@@ -1,13 +1,14 @@
 //! A smaller min-cost problem over a set of cells with the rest of the network held fixed:
 //! the windows of the primal improvement and the core are solved exactly this way.
 //!
-//! The cells outside the set that share an edge with it come along as a fixed "halo"
-//! (required if chosen, excluded if not), so the edge penalty of the boundary is the full
-//! problem's; the other fixed cells only lower the targets and the budget by what they hold
+//! The cells outside the set that share an edge or a rewarded larval link with it come along
+//! as a fixed "halo" (required if chosen, excluded if not), so the edge penalty of the boundary
+//! and the links across it are the full problem's; the other fixed cells only lower the targets and the budget by what they hold
 //! and use. For any choice of the free cells, the smaller problem's objective differs from the
 //! full one's by a constant (the fixed cells' cost and edges), so its optimum is the best
 //! completion of the fixed part.
 
+use crate::model::links::LinkReward;
 use crate::model::{Budget, CellStatus, EdgePenalty, ModelFeature, Problem};
 
 /// The smaller problem and how its cells map back.
@@ -25,17 +26,17 @@ const MET: f64 = 1e-12;
 /// cell held at `at[i]`. `None` when the fixed part alone breaks the budget.
 pub fn restrict(problem: &Problem, free: &[bool], at: &[bool]) -> Option<Restricted> {
     let n = problem.n_cells();
-    // Halo: fixed cells that share an edge with a free cell.
+    // Halo: fixed cells that share an edge or a rewarded link with a free cell.
     let mut keep = free.to_vec();
-    if let Some(pen) = &problem.edge_penalty {
-        for &(i, j, _) in &pen.pairs {
-            let (i, j) = (i as usize, j as usize);
-            if free[i] && !free[j] {
-                keep[j] = true;
-            }
-            if free[j] && !free[i] {
-                keep[i] = true;
-            }
+    let edges = problem.edge_penalty.iter().flat_map(|pen| &pen.pairs);
+    let links = problem.link_reward.iter().flat_map(|l| &l.pairs);
+    for &(i, j, _) in edges.chain(links) {
+        let (i, j) = (i as usize, j as usize);
+        if free[i] && !free[j] {
+            keep[j] = true;
+        }
+        if free[j] && !free[i] {
+            keep[i] = true;
         }
     }
     let cells: Vec<u32> = (0..n as u32).filter(|&i| keep[i as usize]).collect();
@@ -125,11 +126,25 @@ pub fn restrict(problem: &Problem, free: &[bool], at: &[bool]) -> Option<Restric
             exposed_if_alone_km,
         }
     });
+    // Links between kept cells; a link to a cell outside the halo has both ends fixed (a
+    // constant).
+    let link_reward = problem.link_reward.as_ref().map(|l| LinkReward {
+        weight: l.weight,
+        pairs: l
+            .pairs
+            .iter()
+            .filter_map(|&(i, j, s)| {
+                let (a, b) = (new_of[i as usize], new_of[j as usize]);
+                (a != u32::MAX && b != u32::MAX).then_some((a.min(b), a.max(b), s))
+            })
+            .collect(),
+    });
     let pick = |v: &[f64]| -> Vec<f64> { cells.iter().map(|&c| v[c as usize]).collect() };
     let sub = Problem {
         status,
         budget,
         edge_penalty,
+        link_reward,
         ..Problem::plain(
             pick(&problem.cost),
             pick(&problem.area_km2),
