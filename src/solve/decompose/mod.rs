@@ -41,6 +41,7 @@ pub mod lagrange;
 pub mod maxflow;
 pub mod primal;
 pub mod restrict;
+pub mod scatter;
 
 use std::time::{Duration, Instant};
 
