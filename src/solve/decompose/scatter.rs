@@ -52,17 +52,20 @@ mod tests {
 
     fn features(n: u32, k: usize, rng: &mut rand_chacha::ChaCha8Rng) -> Vec<ModelFeature> {
         (0..k)
-            .map(|f| ModelFeature {
-                name: format!("f{f}"),
-                scenario: None,
-                amounts: (0..n)
-                    .filter_map(|c| rng.gen_bool(0.3).then_some(c))
-                    .collect::<Vec<u32>>()
-                    .into_iter()
-                    .map(|c| (c, rng.gen_range(0.1..5.0)))
-                    .collect(),
-                target: 1.0,
-                weight: 1.0,
+            .map(|f| {
+                let mut amounts = Vec::new();
+                for c in 0..n {
+                    if rng.gen_bool(0.3) {
+                        amounts.push((c, rng.gen_range(0.1..5.0)));
+                    }
+                }
+                ModelFeature {
+                    name: format!("f{f}"),
+                    scenario: None,
+                    amounts,
+                    target: 1.0,
+                    weight: 1.0,
+                }
             })
             .collect()
     }
