@@ -54,6 +54,9 @@ pub struct BenchSpec {
     /// Also solve the LP relaxation of the whole model in HiGHS and compare the
     /// decomposition's bound over time with it ([`lp_bound`]).
     pub lp_bound: bool,
+    /// Time limit of that LP solve (the LP alone can take minutes at 10k cells with the
+    /// edge rows). Units: s.
+    pub lp_time_limit_s: f64,
     /// Larvae tracked from every cell for a `connectivity` stage (0: no such stage).
     pub particles_per_cell: u32,
 }
@@ -353,7 +356,6 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
         ))
     })?;
 
-    progress("bench: solve (HiGHS)");
     let options = SolveOptions {
         time_limit_s: Some(spec.time_limit_s),
         rel_gap: spec.gap,
@@ -364,6 +366,7 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
         method: crate::solve::decompose::Method::Direct,
     };
     let solution = if spec.exact && spec.direct {
+        progress("bench: solve (HiGHS)");
         Some(timed(&mut figures, "solve", || {
             let sol = crate::solve::ilp::Highs::default().solve(&problem, &options)?;
             let note = format!(
@@ -391,7 +394,11 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     if spec.lp_bound {
         progress("bench: LP relaxation (HiGHS)");
         let lp = timed(&mut figures, "LP relaxation", || {
-            let lp = lp_bound::lp_relaxation(&problem, &options)?;
+            let lp_options = SolveOptions {
+                time_limit_s: Some(spec.lp_time_limit_s),
+                ..options.clone()
+            };
+            let lp = lp_bound::lp_relaxation(&problem, &lp_options);
             let note = lp_bound::lp_note(&lp);
             Ok((lp, note))
         })?;

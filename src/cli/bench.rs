@@ -41,6 +41,9 @@ pub(crate) struct Args {
     /// say when the decomposition's bound came within 1 % and 0.1 % of it.
     #[arg(long)]
     lp_bound: bool,
+    /// Time limit of the LP relaxation of `--lp-bound`. Units: s.
+    #[arg(long, value_name = "SECONDS", default_value_t = 600.0)]
+    lp_time_limit: f64,
     /// Also time larval dispersal (a `connectivity` stage) with this many particles per cell.
     #[arg(long, value_name = "N", default_value_t = 0)]
     particles: u32,
@@ -68,6 +71,7 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             exact: !args.no_exact,
             direct: !args.no_direct,
             lp_bound: args.lp_bound,
+            lp_time_limit_s: args.lp_time_limit,
             particles_per_cell: args.particles,
         };
         for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
