@@ -405,6 +405,16 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
         if let Some((_, trace)) = &decomposed {
             figures.push(lp_bound::bound_against_lp(trace, &lp));
         }
+        let decomposable = crate::solve::decompose::unsupported(&problem).is_none();
+        if let (Some(b), true) = (lp.bound, decomposable) {
+            progress("bench: Lagrangian ascent against the LP bound");
+            figures.push(lp_bound::ascent_against_lp(
+                &problem,
+                b,
+                &lp_bound::ASCENT_BUDGETS,
+                options.threads,
+            ));
+        }
     }
     let mut network = solution
         .as_ref()

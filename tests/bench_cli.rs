@@ -147,6 +147,22 @@ fn annealing_is_also_given_the_decompositions_time() {
         note(&out, "bound vs LP").contains("within 1% of the LP bound at"),
         "{out}"
     );
+    // Every L(λ) lies at or below the LP bound: the cut subproblem has integral LP optima, so
+    // the Lagrangian dual equals the LP bound (Geoffrion 1974, Math. Programming Study 2:82).
+    // The row prints each ascent's distance from the LP as "(±x.xxx% vs LP)".
+    let ascent = note(&out, "ascent vs LP");
+    let shares: Vec<f64> = ascent
+        .split("% vs LP")
+        .filter_map(|part| {
+            part.rsplit('(')
+                .next()?
+                .trim_start_matches('+')
+                .parse()
+                .ok()
+        })
+        .collect();
+    assert_eq!(shares.len(), 4, "{ascent}");
+    assert!(shares.iter().all(|s| *s <= 0.001), "{ascent}");
 }
 
 #[test]
