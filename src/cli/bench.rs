@@ -26,12 +26,24 @@ pub(crate) struct Args {
     #[arg(long, value_name = "WEIGHT")]
     edge_penalty: Option<f64>,
     /// Also run the greedy and simulated-annealing baselines (annealing gets the time
-    /// HiGHS took), to show what the exact solve buys.
+    /// HiGHS took, and in a second row the decomposition's time), to show what the exact
+    /// solve buys.
     #[arg(long)]
     baselines: bool,
     /// Skip HiGHS: run only the baselines (annealing gets the time limit).
     #[arg(long)]
     no_exact: bool,
+    /// Skip the direct HiGHS model but run the decomposition (for sizes where the direct
+    /// model does not fit in memory, e.g. 1M cells).
+    #[arg(long)]
+    no_direct: bool,
+    /// Also solve the LP relaxation of the whole model in HiGHS (within the time limit) and
+    /// say when the decomposition's bound came within 1 % and 0.1 % of it.
+    #[arg(long)]
+    lp_bound: bool,
+    /// Time limit of the LP relaxation of `--lp-bound`. Units: s.
+    #[arg(long, value_name = "SECONDS", default_value_t = 600.0)]
+    lp_time_limit: f64,
     /// Also time larval dispersal (a `connectivity` stage) with this many particles per cell.
     #[arg(long, value_name = "N", default_value_t = 0)]
     particles: u32,
@@ -57,6 +69,9 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             edge_penalty: args.edge_penalty,
             baselines: args.baselines,
             exact: !args.no_exact,
+            direct: !args.no_direct,
+            lp_bound: args.lp_bound,
+            lp_time_limit_s: args.lp_time_limit,
             particles_per_cell: args.particles,
         };
         for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {

@@ -54,7 +54,7 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
     progress.say("irreplaceability: solving the plan");
     let base_problem = driftplan::solve::with_scenario_best(
         &problem,
-        &driftplan::solve::ilp::Highs::default(),
+        &driftplan::solve::decompose::choose::Exact,
         &clock.options(&options, 0.2, 1),
     )?;
     let base = pipeline::optimise(&base_problem, &clock.options(&options, 0.2, 1))?;
@@ -270,6 +270,16 @@ pub(crate) fn write(
             },
             driftplan::study::replacement::status_word(r)
         );
+    }
+    let resolved = rows
+        .iter()
+        .filter(|r| !r.forbidden.is_empty())
+        .filter_map(|r| r.without.as_ref());
+    let solvers = std::iter::once(base)
+        .chain(resolved)
+        .map(|s| s.solver.as_str());
+    if let Some(line) = driftplan::study::methods_line(solvers) {
+        println!("{line}");
     }
     if best.objective != base.objective {
         println!(

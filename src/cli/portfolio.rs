@@ -203,6 +203,10 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
                 .unwrap_or_else(|| "the optimum".into())
         );
     }
+    let solvers = pf.members.iter().map(|m| m.solution.solver.as_str());
+    if let Some(line) = driftplan::study::methods_line(solvers) {
+        println!("{line}");
+    }
     if pf.members.len() < pf.asked {
         println!(
             "note: only {} of {} members exist: no further network within {:.1}% of the optimum differs from those found in at least {} cell{}",

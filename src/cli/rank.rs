@@ -151,6 +151,10 @@ pub(crate) fn run(a: Args, progress: &Progress) -> Result<()> {
             driftplan::solve::progress::gap_percent(s.run.solution.gap)
         );
     }
+    let solvers = ranking.steps.iter().map(|s| s.run.solution.solver.as_str());
+    if let Some(line) = driftplan::study::methods_line(solvers) {
+        println!("{line}");
+    }
     let ranked = ranking.rank.iter().filter(|r| r.is_some()).count();
     println!(
         "{ranked} of {} cells ranked in {} steps ({:.1} s); outputs {}",

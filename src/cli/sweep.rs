@@ -439,6 +439,10 @@ pub(crate) fn write(
             driftplan::solve::progress::gap_percent(r.solution.gap)
         );
     }
+    let solvers = sw.runs.iter().map(|r| r.solution.solver.as_str());
+    if let Some(line) = driftplan::study::methods_line(solvers) {
+        println!("{line}");
+    }
     for r in &sw.runs {
         for w in driftplan::solve::warnings(&r.solution) {
             println!("warning: budget {:.1}%: {w}", 100.0 * r.share);

@@ -242,6 +242,8 @@ pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diag
                 rel_gap: 0.0,
                 ..clock.options(&quiet, 0.5, with_target.len())
             };
+            // A one-row max-benefit knapsack proven at gap 0: the decomposition takes no
+            // max-benefit model, and the direct model proves this one in moments.
             let sol = Highs::default().solve(&alone, &o)?;
             (
                 evaluate(&alone, &sol.selected).protected[0],
@@ -262,7 +264,8 @@ pub fn diagnose_budget(problem: &Problem, options: &SolveOptions) -> Result<Diag
         ..problem.clone()
     };
     let sea: f64 = problem.area_km2.iter().sum();
-    let cheapest = match Highs::default().solve(&unbounded, &clock.options(&quiet, 1.0, 1)) {
+    // The plan without its budget, by the plan's method (the decomposition for a large model).
+    let cheapest = match super::decompose::solve_exact(&unbounded, &clock.options(&quiet, 1.0, 1)) {
         Ok(sol) => {
             let e = evaluate(&unbounded, &sol.selected);
             Cheapest::Network {

@@ -36,3 +36,43 @@ pub(crate) fn unzoned(
         )),
     }
 }
+
+/// One line saying which exact method solved a study's networks, from each solve's
+/// [`crate::solve::Solution::solver`]: `exact method: the decomposition for 3 solves, direct
+/// HiGHS for 1`. Empty names (a given network, no network) are skipped; `None` when none is
+/// left. Methods are listed in name order, so the line does not depend on solve order.
+pub fn methods_line<'a>(solvers: impl IntoIterator<Item = &'a str>) -> Option<String> {
+    let mut counts = std::collections::BTreeMap::new();
+    for s in solvers.into_iter().filter(|s| !s.is_empty()) {
+        *counts.entry(s).or_insert(0usize) += 1;
+    }
+    if counts.is_empty() {
+        return None;
+    }
+    let parts: Vec<String> = counts
+        .iter()
+        .map(|(name, n)| {
+            let method = match *name {
+                "decompose" => "the decomposition",
+                "highs" => "direct HiGHS",
+                other => other,
+            };
+            format!("{method} for {n} solve{}", if *n == 1 { "" } else { "s" })
+        })
+        .collect();
+    Some(format!("exact method: {}", parts.join(", ")))
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn the_methods_line_counts_each_solver() {
+        // Hand count: two decompositions, one direct solve, one given network (skipped).
+        let line = super::methods_line(["highs", "decompose", "", "decompose"]).unwrap();
+        assert_eq!(
+            line,
+            "exact method: the decomposition for 2 solves, direct HiGHS for 1 solve"
+        );
+        assert_eq!(super::methods_line(["", ""]), None);
+    }
+}

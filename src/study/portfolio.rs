@@ -16,6 +16,7 @@
 use crate::model::alternative::jaccard_distance;
 use crate::model::robust::is_minimisation;
 use crate::model::{evaluate_zoned, Alternative, Problem};
+use crate::solve::decompose::{choose::Exact, solve_exact};
 use crate::solve::ilp::Highs;
 use crate::solve::{with_scenario_best, Solution, SolveError, SolveOptions, Solver};
 
@@ -111,9 +112,10 @@ pub fn portfolio(
             format!("portfolio share {within} must be a finite share ≥ 0 (e.g. 0.05 for 5%)"),
         )));
     }
-    // Bₛ* once, so every member's regret is measured against the same values.
-    let base = with_scenario_best(problem, &Highs::default(), options)?;
-    let first = Highs::default().solve(&base, options)?;
+    // Bₛ* once, so every member's regret is measured against the same values. Bₛ* and the
+    // optimum follow the plan's method ([`solve_exact`]).
+    let base = with_scenario_best(problem, &Exact, options)?;
+    let first = solve_exact(&base, options)?;
     let optimum = first.objective;
     let limit = objective_limit(optimum, within, is_minimisation(&base));
     let mut members = vec![Member {
@@ -135,6 +137,8 @@ pub fn portfolio(
             alternative: Some(alt.clone()),
             ..base.clone()
         };
+        // The kept objective and the no-good rows are the direct model's alone (the
+        // decomposition relaxes neither), so the later members stay with HiGHS.
         let s = match Highs::default().solve(&q, options) {
             Ok(s) => s,
             // No further network within the share differs enough: the portfolio is complete.

@@ -15,8 +15,8 @@
 //! network, and nesting keeps the cells (an earlier cell may change zone at a later step).
 
 use crate::model::{CellStatus, Objective, Problem, Robustness};
-use crate::solve::ilp::Highs;
-use crate::solve::{SolveError, SolveOptions, Solver};
+use crate::solve::decompose::solve_exact;
+use crate::solve::{SolveError, SolveOptions};
 
 use super::sweep::{solve_at_budget, SweepBudget, SweepRun};
 
@@ -43,7 +43,8 @@ pub struct Ranking {
 
 /// The largest share of the budget measure a ranking needs: the share used by the least-cost
 /// network that reaches every target in every scenario (so steps are spread where choices are
-/// made), or 1 when no network reaches them all. Units: share (0–1].
+/// made), or 1 when no network reaches them all. Solved by the plan's exact method
+/// ([`solve_exact`]). Units: share (0–1].
 pub fn full_share(
     problem: &Problem,
     of: SweepBudget,
@@ -54,7 +55,7 @@ pub fn full_share(
     q.robustness = Robustness::EveryScenario;
     q.scenario_best = None;
     q.keep_objective = None;
-    match Highs::default().solve(&q, options) {
+    match solve_exact(&q, options) {
         Ok(s) => {
             let e = crate::model::evaluate_zoned(&q, &s.assignment());
             let (used, total) = match of {

@@ -21,8 +21,8 @@ use rayon::prelude::*;
 
 use crate::model::robust::is_minimisation;
 use crate::model::{CellStatus, Problem};
-use crate::solve::ilp::Highs;
-use crate::solve::{Solution, SolveError, SolveOptions, SolveStatus, Solver};
+use crate::solve::decompose::solve_exact;
+use crate::solve::{Solution, SolveError, SolveOptions, SolveStatus};
 
 /// What one re-solve found.
 #[derive(Debug, Clone, PartialEq)]
@@ -50,9 +50,10 @@ impl Replacement {
 }
 
 /// Replacement cost of each unit (`units[u]`: cell ids) of `base`, the optimal network of
-/// `problem`. Units are re-solved in parallel, one solver thread each, and returned in input
-/// order, so the result does not depend on the thread count (unless a time limit cuts solves
-/// short). A unit with no free cell (wholly plan-required) gets cost 0 and no re-solve.
+/// `problem`. Units are re-solved by the plan's exact method ([`solve_exact`]: a re-solve is
+/// the plan with a few more excluded cells, so it goes where the base solve went) in
+/// parallel, one solver thread each, and returned in input order, so the result does not
+/// depend on the thread count (unless a time limit cuts solves short). A unit with no free cell (wholly plan-required) gets cost 0 and no re-solve.
 pub fn replacement_costs(
     problem: &Problem,
     base: &Solution,
@@ -103,7 +104,7 @@ pub fn replacement_solves(
                 for &c in &forbidden {
                     p.status[c as usize] = CellStatus::Excluded;
                 }
-                match Highs::default().solve(&p, &one_thread) {
+                match solve_exact(&p, &one_thread) {
                     // The interval is filled in below, once the best base value is known.
                     Ok(s) => Replacement {
                         label: label.clone(),

@@ -11,8 +11,8 @@
 use rayon::prelude::*;
 
 use crate::model::{evaluate_zoned, Problem, ScenarioResult};
-use crate::solve::ilp::Highs;
-use crate::solve::{SolveError, SolveOptions, Solver};
+use crate::solve::decompose::solve_exact;
+use crate::solve::{SolveError, SolveOptions};
 
 /// One network's row of the matrix.
 #[derive(Debug, Clone, PartialEq)]
@@ -31,6 +31,9 @@ pub struct StressRow {
     /// Zone of each cell of a zoned network ([`crate::model::zones`]: 0 outside, 1 + zone
     /// index); `None` without zones or without a network.
     pub zones: Option<Vec<u8>>,
+    /// Which exact method solved the scenario (`decompose` or `highs`, as
+    /// [`crate::solve::Solution::solver`]); empty for a given network or no network.
+    pub solver: String,
 }
 
 impl StressRow {
@@ -66,9 +69,10 @@ pub fn single_scenario_problem(problem: &Problem, s: usize) -> Problem {
     crate::model::robust::restrict_to_scenario(problem, s)
 }
 
-/// Runs the stress test (module doc): solves each scenario alone with HiGHS (in parallel,
-/// one solver thread each, so the result does not depend on the thread count unless a time
-/// limit cuts a solve short), then evaluates those networks and each of `given` under every
+/// Runs the stress test (module doc): solves each scenario alone by the plan's exact method
+/// ([`solve_exact`]: the decomposition for a large min-cost model, HiGHS otherwise) in
+/// parallel, one solver thread each (so the result does not depend on the thread count unless
+/// a time limit cuts a solve short), then evaluates those networks and each of `given` under every
 /// scenario of `problem`. `problem` should carry Bₛ* (least-regret) so regrets are reported.
 /// `on_solved` is called after each scenario solve (for a progress bar).
 ///
@@ -115,7 +119,7 @@ pub fn stress_test_part(
         .map(|&s| {
             let sub = single_scenario_problem(problem, s);
             let name = problem.scenarios[s].name.clone();
-            let row = match Highs::default().solve(&sub, &one_thread) {
+            let row = match solve_exact(&sub, &one_thread) {
                 Ok(sol) => {
                     let assignment = sol.assignment();
                     Ok(StressRow {
@@ -125,6 +129,7 @@ pub fn stress_test_part(
                         evaluated: evaluate_zoned(problem, &assignment).scenarios,
                         selected: sol.selected,
                         zones: zoned.then_some(assignment),
+                        solver: sol.solver,
                     })
                 }
                 Err(e @ (SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_))) => {
@@ -135,6 +140,7 @@ pub fn stress_test_part(
                         evaluated: Vec::new(),
                         selected: Vec::new(),
                         zones: None,
+                        solver: String::new(),
                     })
                 }
                 Err(e) => Err(e),
@@ -152,6 +158,7 @@ pub fn stress_test_part(
             evaluated: evaluate_zoned(problem, assignment).scenarios,
             selected: assignment.iter().map(|&v| v > 0).collect(),
             zones: zoned.then(|| assignment.clone()),
+            solver: String::new(),
         });
     }
     Ok(StressMatrix {
@@ -239,6 +246,10 @@ pub fn stress_table(m: &StressMatrix) -> String {
         let worst = row.worst_targets_reached().unwrap_or(0);
         out.push_str(&format!("  {worst:>cw$}\n"));
     }
+    if let Some(line) = super::methods_line(m.rows.iter().map(|r| r.solver.as_str())) {
+        out.push_str(&line);
+        out.push('\n');
+    }
     out
 }
 
@@ -292,6 +303,7 @@ mod tests {
                     evaluated: vec![result("a", 2, 2.0), result("b", 1, 1.5)],
                     selected: vec![true],
                     zones: None,
+                    solver: "highs".into(),
                 },
                 StressRow {
                     designed_for: "b".into(),
@@ -300,6 +312,7 @@ mod tests {
                     evaluated: vec![],
                     selected: vec![],
                     zones: None,
+                    solver: String::new(),
                 },
             ],
         }
@@ -329,6 +342,11 @@ mod tests {
         assert!(t.lines().nth(1).unwrap().contains("2/2 2.0"), "{t}");
         assert!(t.lines().nth(1).unwrap().contains("1/2 1.5"), "{t}");
         assert!(t.contains("infeasible: no"), "{t}");
+        // The one solved row names its method; the infeasible one adds none.
+        assert!(
+            t.ends_with("exact method: direct HiGHS for 1 solve\n"),
+            "{t}"
+        );
         // The report keeps rows with a network only.
         let rt = report_table(&m);
         assert_eq!(rt.designed_for, vec!["a".to_string()]);

@@ -13,10 +13,16 @@
 //! cheaper network of the same benefit; [`Sweep::cost_falls`] lists where that happens.
 //! Budgets are solved in parallel, one solver thread each, and collected in budget order, so
 //! the result does not depend on the number of threads (unless a time limit cuts solves short).
+//!
+//! The benefit stage and the every-target stage follow `[solver] method`
+//! ([`solve_exact`]: the decomposition takes the min-cost every-target stage of a large model;
+//! max-benefit falls back to the direct model by itself). The least-cost stage under a kept
+//! benefit stays with the direct model: the kept objective row is HiGHS's alone.
 
 use rayon::prelude::*;
 
 use crate::model::{evaluate_zoned, Objective, Problem, Robustness};
+use crate::solve::decompose::solve_exact;
 use crate::solve::ilp::Highs;
 use crate::solve::{Solution, SolveError, SolveOptions, Solver};
 
@@ -250,7 +256,7 @@ pub fn solve_at_budget(
         SweepBudget::Area(total) => p.budget.max_area_km2 = Some(share * total),
         SweepBudget::Cost(total) => p.budget.max_cost = Some(share * total),
     }
-    let first = Highs::default().solve(&p, options)?;
+    let first = solve_exact(&p, options)?;
     let e = evaluate_zoned(&p, &first.assignment());
     let mut q = p.clone();
     q.objective = Objective::MinCost;
@@ -261,12 +267,12 @@ pub fn solve_at_budget(
     // least-cost every-target solve is tried and an infeasible one means no.
     let absent = e.absent.iter().filter(|a| **a).count();
     let every_target = if e.targets_reached + absent == e.reached.len() {
-        Some(Highs::default().solve(&q, options)?)
+        Some(solve_exact(&q, options)?)
     } else if matches!(
         p.robustness,
         Robustness::WorstCase | Robustness::LeastRegret
     ) {
-        match Highs::default().solve(&q, options) {
+        match solve_exact(&q, options) {
             Ok(s) => Some(s),
             Err(SolveError::Infeasible(_) | SolveError::JointlyInfeasible(_)) => None,
             Err(other) => return Err(other),
@@ -300,7 +306,8 @@ pub fn solve_at_budget(
             };
             // The benefit stage's network meets the kept row, so the cost stage cannot be
             // infeasible; if the solver finds no network in its time (it gets no warm
-            // start: greedy knows no kept row), the benefit stage's network stands.
+            // start: greedy knows no kept row), the benefit stage's network stands. The
+            // kept row needs the direct model (the decomposition does not relax it).
             let cheap = match Highs::default().solve(&q, options) {
                 Ok(c) => c,
                 Err(SolveError::Solver(_)) => crate::solve::Solution {

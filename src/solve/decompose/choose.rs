@@ -70,3 +70,20 @@ pub fn solve_exact(problem: &Problem, options: &SolveOptions) -> Result<Solution
         Highs::default().solve(problem, options)
     }
 }
+
+/// The exact solver of `[solver] method` as a [`Solver`]: its solve is [`solve_exact`]. Studies
+/// hand it where a solver is asked for (e.g. the per-scenario best benefits of
+/// [`crate::solve::with_scenario_best`]), so their solves follow the plan's method; the
+/// [`Solution::solver`] of each solve says which method ran (`decompose` or `highs`).
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Exact;
+
+impl Solver for Exact {
+    fn name(&self) -> &'static str {
+        "exact"
+    }
+
+    fn solve(&self, problem: &Problem, options: &SolveOptions) -> Result<Solution, SolveError> {
+        solve_exact(problem, options)
+    }
+}

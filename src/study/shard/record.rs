@@ -231,6 +231,9 @@ pub struct DesignRecord {
     evaluated: Vec<ScenarioRecord>,
     chosen: Option<Vec<u32>>,
     zones: Option<Vec<u8>>,
+    /// Which exact method solved the design; absent from parts written before it was kept.
+    #[serde(default)]
+    solver: String,
 }
 
 impl From<&StressRow> for DesignRecord {
@@ -242,6 +245,7 @@ impl From<&StressRow> for DesignRecord {
             evaluated: r.evaluated.iter().map(Into::into).collect(),
             chosen: (!r.selected.is_empty()).then(|| chosen(&r.selected)),
             zones: r.zones.clone(),
+            solver: r.solver.clone(),
         }
     }
 }
@@ -260,6 +264,7 @@ impl DesignRecord {
                     .ok_or_else(|| bad(&format!("a design names a cell beyond {cells}")))?,
             },
             zones: self.zones.clone(),
+            solver: self.solver.clone(),
         })
     }
 }
