@@ -13,6 +13,7 @@ use driftplan::model::{
 use driftplan::solve::brute::BruteForce;
 use driftplan::solve::decompose::lagrange::Relaxation;
 use driftplan::solve::decompose::{fixing, unsupported, Decompose, Method};
+use driftplan::solve::ilp::Highs;
 use driftplan::solve::{with_scenario_best, Solution, SolveOptions, Solver};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -289,5 +290,111 @@ fn fixing_never_removes_an_optimal_max_benefit_network() {
             }
             assert!(optimal >= 1, "{rule:?} case {case}");
         }
+    }
+}
+
+#[test]
+fn decomposition_and_direct_highs_agree_on_thousands_of_cells() {
+    // Reference: the direct integer program in HiGHS (a second solver). Each proves an
+    // interval between its objective and its bound that holds the optimum, so the two must
+    // overlap; every network must meet the budget and score what it claims (model::evaluate).
+    let mut rng = ChaCha8Rng::seed_from_u64(5);
+    for (r, rule) in RULES.into_iter().enumerate() {
+        let (rows, cols, edge) = [
+            (40, 60, Some(0.05)),
+            (50, 50, None),
+            (45, 50, Some(0.02)),
+            (40, 55, None),
+        ][r];
+        let p = instance(&mut rng, (rows, cols), 24, rule, edge, true, 0.2);
+        let o = SolveOptions {
+            rel_gap: 0.005,
+            ..quiet()
+        };
+        // Least-regret: both solvers measure regret against the same Bₛ* (the direct model's).
+        let p = with_scenario_best(&p, &Highs::default(), &o).unwrap();
+        let started = Instant::now();
+        let d = Decompose.solve(&p, &o).unwrap();
+        let d_s = started.elapsed().as_secs_f64();
+        let h = Highs::default()
+            .solve(
+                &p,
+                &SolveOptions {
+                    method: Method::Direct,
+                    ..o.clone()
+                },
+            )
+            .unwrap();
+        eprintln!(
+            "{rule:?}: decompose {} [{}] gap {} in {d_s:.1} s; direct {} [{}] gap {}",
+            d.objective, d.bound, d.gap, h.objective, h.bound, h.gap
+        );
+        assert_eq!(d.solver, "decompose");
+        for s in [&d, &h] {
+            let e = evaluate(&p, &s.selected);
+            assert!(e.feasible && e.within_budget, "{rule:?} {}", s.solver);
+            assert!(
+                (e.objective - s.objective).abs() < 1e-6 * s.objective.abs().max(1.0),
+                "{rule:?} {}",
+                s.solver
+            );
+            // The bound lies on the far side of the objective.
+            assert!(
+                minimised(&p, s.bound) <= minimised(&p, s.objective) + 1e-6,
+                "{rule:?} {}",
+                s.solver
+            );
+        }
+        let tol = 1e-6 * h.objective.abs().max(1.0);
+        assert!(
+            minimised(&p, d.bound) <= minimised(&p, h.objective) + tol,
+            "{rule:?}: decomposition bound {} beyond direct objective {}",
+            d.bound,
+            h.objective
+        );
+        assert!(
+            minimised(&p, h.bound) <= minimised(&p, d.objective) + tol,
+            "{rule:?}: direct bound {} beyond decomposition objective {}",
+            h.bound,
+            d.objective
+        );
+        assert!(
+            d.gap <= 0.005 + 1e-9,
+            "{rule:?}: decomposition gap {}",
+            d.gap
+        );
+    }
+}
+
+#[test]
+fn same_network_at_one_and_two_threads() {
+    // Common practice, no source: the decomposition is sequential and HiGHS's branch and bound
+    // is deterministic, so a network that reached its gap must not change with `threads`.
+    let mut rng = ChaCha8Rng::seed_from_u64(9);
+    for rule in [Robustness::Expected, Robustness::WorstCase] {
+        let p = instance(&mut rng, (20, 20), 12, rule, Some(0.05), true, 0.25);
+        // HiGHS keeps one scheduler per OS thread with the thread count it started with, so
+        // each run gets a fresh thread.
+        let at = |t: u32| {
+            let p = p.clone();
+            std::thread::spawn(move || {
+                Decompose
+                    .solve(
+                        &p,
+                        &SolveOptions {
+                            threads: Some(t),
+                            rel_gap: 1e-4,
+                            ..quiet()
+                        },
+                    )
+                    .unwrap()
+            })
+            .join()
+            .unwrap()
+        };
+        let (a, b) = (at(1), at(2));
+        assert!(a.gap <= 1e-4, "{rule:?}: solved to the gap (gap {})", a.gap);
+        assert_eq!(a.selected, b.selected, "{rule:?}");
+        assert_eq!(a.objective, b.objective, "{rule:?}");
     }
 }
