@@ -59,6 +59,13 @@ pub struct BenchSpec {
     pub lp_time_limit_s: f64,
     /// Larvae tracked from every cell for a `connectivity` stage (0: no such stage).
     pub particles_per_cell: u32,
+    /// What the solvers optimise: min-cost, or max-benefit under a cost budget of
+    /// [`BenchSpec::budget_share`] of the region's total cost.
+    pub objective: Objective,
+    /// How scenarios combine in a max-benefit run (min-cost holds every scenario).
+    pub robustness: Robustness,
+    /// Max-benefit's cost budget as a share of the region's total cost (0–1).
+    pub budget_share: f64,
 }
 
 /// Resets the kernel's peak-RSS counter (Linux `clear_refs` value 5), so each stage's peak is
@@ -318,8 +325,16 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
     })?;
 
     let problem = timed(&mut figures, "model", || {
+        let cost = bench_costs(spec, &grid);
+        let budget = match spec.objective {
+            Objective::MinCost => Budget::default(),
+            Objective::MaxBenefit => Budget {
+                max_cost: Some(spec.budget_share * cost.iter().sum::<f64>()),
+                max_area_km2: None,
+            },
+        };
         let p = Problem {
-            cost: bench_costs(spec, &grid),
+            cost,
             area_km2: grid.cells.iter().map(|c| c.sea_area_km2).collect(),
             status: vec![CellStatus::Free; grid.len()],
             scenarios: scenarios
@@ -331,9 +346,9 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                 .collect(),
             // Moved, not copied: the table's amounts come back for `assess` below.
             features: crate::pipeline::take_model_features(&mut features),
-            objective: Objective::MinCost,
-            robustness: Robustness::EveryScenario,
-            budget: Budget::default(),
+            objective: spec.objective,
+            robustness: spec.robustness,
+            budget,
             edge_penalty: spec
                 .edge_penalty
                 .map(|w| crate::pipeline::edge_penalty(&grid, w, false)),

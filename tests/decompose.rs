@@ -390,7 +390,10 @@ fn a_link_reward_decomposes_to_the_brute_force_optimum() {
             opt.objective
         );
     }
-    assert!(changed >= 3, "the reward should change some optima ({changed})");
+    assert!(
+        changed >= 3,
+        "the reward should change some optima ({changed})"
+    );
 }
 
 #[test]
@@ -438,7 +441,17 @@ fn a_link_reward_agrees_with_direct_highs_on_thousands_of_cells() {
         assert!(e.linked > 0.0, "{}: no links held", s.solver);
     }
     let tol = 1e-6 * h.objective.abs();
-    assert!(d.bound <= h.objective + tol, "{} > {}", d.bound, h.objective);
-    assert!(h.bound <= d.objective + tol, "{} > {}", h.bound, d.objective);
+    assert!(
+        d.bound <= h.objective + tol,
+        "{} > {}",
+        d.bound,
+        h.objective
+    );
+    assert!(
+        h.bound <= d.objective + tol,
+        "{} > {}",
+        h.bound,
+        d.objective
+    );
     assert!(d.gap <= 0.005 + 1e-9, "decomposition gap {}", d.gap);
 }

@@ -47,6 +47,17 @@ pub(crate) struct Args {
     /// Also time larval dispersal (a `connectivity` stage) with this many particles per cell.
     #[arg(long, value_name = "N", default_value_t = 0)]
     particles: u32,
+    /// What the solvers optimise: `min-cost`, or `max-benefit` under a cost budget of
+    /// `--budget-share` of the region's total cost.
+    #[arg(long, default_value = "min-cost", value_parser = ["min-cost", "max-benefit"])]
+    objective: String,
+    /// How scenarios combine in a max-benefit run.
+    #[arg(long, default_value = "every-scenario",
+          value_parser = ["every-scenario", "worst-case", "expected", "least-regret"])]
+    robustness: String,
+    /// Max-benefit's cost budget as a share of the region's total cost (0–1).
+    #[arg(long, default_value_t = 0.2)]
+    budget_share: f64,
 }
 
 pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
@@ -58,6 +69,22 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
         .habitat
         .parse()
         .map_err(|e: String| anyhow::anyhow!(e))?;
+    use driftplan::model::{Objective, Robustness};
+    let objective = match args.objective.as_str() {
+        "max-benefit" => Objective::MaxBenefit,
+        _ => Objective::MinCost,
+    };
+    let robustness = match args.robustness.as_str() {
+        "worst-case" => Robustness::WorstCase,
+        "expected" => Robustness::Expected,
+        "least-regret" => Robustness::LeastRegret,
+        _ => Robustness::EveryScenario,
+    };
+    anyhow::ensure!(
+        args.budget_share > 0.0 && args.budget_share <= 1.0,
+        "--budget-share must be a share of the total cost above 0 and at most 1, e.g. 0.2; got {}",
+        args.budget_share
+    );
     for n in args.cells {
         anyhow::ensure!(n >= 100, "--cells values must be at least 100, got {n}");
         let spec = driftplan::bench::BenchSpec {
@@ -73,6 +100,9 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             lp_bound: args.lp_bound,
             lp_time_limit_s: args.lp_time_limit,
             particles_per_cell: args.particles,
+            objective,
+            robustness,
+            budget_share: args.budget_share,
         };
         for f in driftplan::bench::run(&spec, &|m| progress.say(m))? {
             println!(

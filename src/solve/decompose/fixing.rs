@@ -2,6 +2,10 @@
 //! for cut subproblems): with L(λ) and a cut x̂ at multipliers λ, a network with xᵢ ≠ x̂ᵢ has
 //! objective ≥ L(λ) + δᵢ, where δᵢ is the cut's flip cost ([`super::maxflow::Cut`]). So when
 //! L(λ) + δᵢ > U, the objective of a known network, every better network keeps xᵢ = x̂ᵢ.
+//!
+//! For max-benefit the same holds in the minimised sense (L and U of the negated objective,
+//! [`super::lagrange`]): the inner minimum separates into the cut and box terms in y, t, r that
+//! do not depend on x, so forcing xᵢ to flip raises only the cut part, by at least δᵢ.
 
 use crate::model::{CellStatus, Problem};
 

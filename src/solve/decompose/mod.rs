@@ -2,11 +2,13 @@
 //! LP is too large for HiGHS to finish in the time given (issue 11).
 //!
 //! # Method
-//! 1. **Bound** ([`lagrange`]): coverage and budget rows are relaxed with multipliers; each
-//!    L(λ) is a minimum cut ([`maxflow`]) and a valid lower bound; the volume algorithm raises
-//!    it towards the LP bound.
+//! 1. **Bound** ([`lagrange`]): coverage (or, for max-benefit, capped-holding and scenario)
+//!    and budget rows are relaxed with multipliers; each L(λ) is a minimum cut ([`maxflow`])
+//!    plus closed-form box terms and a valid bound; the volume algorithm raises it towards
+//!    the LP bound.
 //! 2. **Primal** ([`primal`]): the cut at the best multipliers is repaired to a network that
-//!    meets every target and budget by the Lagrangian greedy, redundant cells are dropped,
+//!    meets every target and budget by the Lagrangian greedy, redundant cells are dropped
+//!    (max-benefit: trimmed to the budget and filled by weighted benefit per budget share),
 //!    then windows of a few thousand cells around the network are re-solved exactly by HiGHS
 //!    with the rest fixed ([`restrict`]); a window's network is kept when it is better.
 //! 3. **Fixing and core** ([`fixing`]): a cell whose flip would raise L above the incumbent's
@@ -14,20 +16,24 @@
 //!    core goes to HiGHS warm-started from the incumbent.
 //!
 //! # The bound reported
-//! max(L*, min(U, C)), with L* the best Lagrangian bound, U the incumbent's objective and C
-//! the core's proven bound (HiGHS's dual bound of the core plus the fixed part's constant).
-//! L* is valid by weak duality. A network outside the core's space differs from the cut at a
+//! Everything runs in the minimised sense m (the objective, negated for a maximisation: max-
+//! benefit under every-scenario, worst-case and expected), and the bound is turned back at the
+//! end, so for a maximisation it is an upper bound ≥ the objective.
+//! In that sense it is max(L*, min(U, C)), with L* the best Lagrangian bound, U the incumbent's
+//! objective and C the core's proven bound (HiGHS's dual bound of the core plus the fixed
+//! part's constant). L* is valid by weak duality. A network outside the core's space differs from the cut at a
 //! fixed cell, so its objective is > U (the flip cost is a feasible flow in the residual graph,
 //! so ≤ the rise of the min cut); a network inside has objective ≥ C. Hence every network has
 //! objective ≥ min(U, C). `bound_source` in [`Trace`] says which term gave the bound.
 //!
 //! # Scope: what falls back to the direct model
-//! Decomposed: min-cost (every target in every scenario), with required/excluded cells, cost
-//! and area budgets and the edge penalty. Everything else is solved by the direct model
-//! ([`super::ilp::Highs`]) with the reason given by [`unsupported`]: max-benefit (capped
-//! credit, worst-case, expected, least-regret — not built yet), the max gap, the minimum
-//! reserve size, the neighbour rule, the connectivity reward, zones, a kept objective and portfolio alternatives (their
-//! rows are not relaxed yet).
+//! Decomposed: min-cost (every target in every scenario) and max-benefit under every
+//! robustness rule (every-scenario, worst-case, expected, least-regret with Bₛ* computed first
+//! by this solver), with required/excluded cells, cost and area budgets and the edge penalty.
+//! Everything else is solved by the direct model ([`super::ilp::Highs`]) with the reason given
+//! by [`unsupported`]: the max gap, the minimum reserve size, the neighbour rule, the
+//! connectivity reward, zones, a kept objective and portfolio alternatives (their rows are not
+//! relaxed yet).
 //!
 //! # Determinism
 //! Everything but the HiGHS calls is sequential and seeded by nothing; every HiGHS call (the
@@ -45,12 +51,15 @@ pub mod scatter;
 
 use std::time::{Duration, Instant};
 
+use crate::model::robust::is_minimisation;
 use crate::model::{evaluate, CellStatus, Objective, Problem};
 
 use super::diagnose::diagnose;
 use super::ilp::Highs;
 use super::progress::SolveProgress;
-use super::{make_solution, Solution, SolveError, SolveOptions, SolveStatus, Solver};
+use super::{
+    make_solution, scenario_best_borrowed, Solution, SolveError, SolveOptions, SolveStatus, Solver,
+};
 
 pub use choose::{decomposes, solve_exact, Method};
 
@@ -71,7 +80,8 @@ pub struct Decompose;
 /// How a decomposition solve went, for the bench.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Trace {
-    /// `(seconds, objective, bound)` each time either improved.
+    /// `(seconds, objective, bound)` each time either improved, in the minimised sense
+    /// (negated for a maximisation).
     pub points: Vec<(f64, f64, f64)>,
     /// Which term gave the final bound: `lagrangian` or `core`.
     pub bound_source: &'static str,
@@ -103,9 +113,6 @@ fn rel_gap(objective: f64, bound: f64) -> f64 {
 
 /// Why the decomposition does not take `problem`, or `None` when it does (module doc).
 pub fn unsupported(problem: &Problem) -> Option<&'static str> {
-    if problem.objective == Objective::MaxBenefit {
-        return Some("max-benefit is not decomposed yet");
-    }
     if problem.zoning.is_some() {
         return Some("zones are not decomposed");
     }
@@ -135,10 +142,13 @@ impl Solver for Decompose {
 }
 
 /// The running best network, bound and their history.
+/// Objectives and bounds are kept in the minimised sense: `sense` × the problem's own
+/// objective, with `sense` = −1 for a maximisation (module doc).
 struct Run<'a> {
     problem: &'a Problem,
     options: &'a SolveOptions,
     started: Instant,
+    sense: f64,
     incumbent: Option<(f64, Vec<bool>)>,
     bound: f64,
     trace: Trace,
@@ -167,10 +177,11 @@ impl Run<'_> {
         {
             self.trace.points.push(p);
             if let Some(sink) = &self.options.progress {
+                // Progress is reported in the problem's own sense, as HiGHS reports it.
                 sink.report(&SolveProgress {
                     elapsed_s: p.0,
-                    objective: p.1,
-                    bound: p.2,
+                    objective: self.sense * p.1,
+                    bound: self.sense * p.2,
                     gap: self.gap(),
                 });
             }
@@ -188,8 +199,9 @@ impl Run<'_> {
     /// Keep `sel` if it meets every rule and beats the incumbent.
     fn offer(&mut self, sel: Vec<bool>) -> bool {
         let e = evaluate(self.problem, &sel);
-        if e.feasible && e.objective < self.objective() - 1e-9 * e.objective.abs().max(1.0) {
-            self.incumbent = Some((e.objective, sel));
+        let v = self.sense * e.objective;
+        if e.feasible && v < self.objective() - 1e-9 * v.abs().max(1.0) {
+            self.incumbent = Some((v, sel));
             self.note();
             return true;
         }
@@ -210,16 +222,26 @@ impl Decompose {
             return Ok((sol, Trace::default()));
         }
         let started = Instant::now();
-        let short = diagnose(problem);
-        if !short.is_empty() {
-            return Err(SolveError::Infeasible(short));
+        // Least-regret: each scenario's best benefit first, by this solver (solve::time shares
+        // the limit); the rest of the time is the robust solve's.
+        let problem = &*scenario_best_borrowed(problem, self, options)?;
+        if problem.objective == Objective::MinCost {
+            let short = diagnose(problem);
+            if !short.is_empty() {
+                return Err(SolveError::Infeasible(short));
+            }
         }
-        let limit = options.time_limit_s.unwrap_or(DEFAULT_LIMIT_S);
-        let at = |share: f64| started + Duration::from_secs_f64(limit * share);
+        // The phases share what the Bₛ* solves left of the limit.
+        let phases = Instant::now();
+        let limit = (options.time_limit_s.unwrap_or(DEFAULT_LIMIT_S)
+            - started.elapsed().as_secs_f64())
+        .max(super::time::MIN_HIGHS_S);
+        let at = |share: f64| phases + Duration::from_secs_f64(limit * share);
         let mut run = Run {
             problem,
             options,
             started,
+            sense: if is_minimisation(problem) { 1.0 } else { -1.0 },
             incumbent: None,
             bound: f64::NEG_INFINITY,
             trace: Trace {
@@ -284,7 +306,7 @@ impl Decompose {
             run.trace.lagrangian_steps += ascent.iterations;
             run.raise_bound(ascent.bound, "lagrangian");
         }
-        let (objective, selected) = run.incumbent.clone().expect("an incumbent exists");
+        let (internal, selected) = run.incumbent.clone().expect("an incumbent exists");
         let gap = run.gap();
         let status = if gap <= 1e-9 {
             SolveStatus::Optimal
@@ -293,7 +315,8 @@ impl Decompose {
         } else {
             SolveStatus::TimeLimit
         };
-        let bound = run.bound.min(objective);
+        let objective = run.sense * internal;
+        let bound = run.sense * run.bound.min(internal);
         let sol = make_solution(
             problem,
             selected,
@@ -316,9 +339,19 @@ impl Decompose {
         ascent: &lagrange::Ascent,
         run: &mut Run,
     ) {
-        let lagrangian = relax.unary(&ascent.lambda);
         let cut = relax.evaluate(&ascent.lambda).cut.x;
         let rounded: Vec<bool> = ascent.average.iter().map(|&v| v >= 0.5).collect();
+        if run.problem.objective == Objective::MaxBenefit {
+            let weights = relax.credit_weights(&ascent.lambda);
+            for start in [cut, rounded] {
+                let mut sel = start;
+                if moves.fill(&mut sel, &weights).is_some() {
+                    run.offer(sel);
+                }
+            }
+            return;
+        }
+        let lagrangian = relax.unary(&ascent.lambda);
         for start in [cut, rounded] {
             let mut sel = start;
             if moves.repair(&mut sel, &lagrangian).is_some() {
@@ -330,7 +363,7 @@ impl Decompose {
 
     /// One HiGHS run on the cells with `free` (the rest held at `at`), warm-started from the
     /// incumbent when it agrees with `at`. Returns the full network and the full problem's
-    /// bound for that restriction (None when HiGHS gave no answer).
+    /// bound for that restriction in the problem's own sense (None when HiGHS gave no answer).
     fn restricted(
         &self,
         run: &Run,
@@ -428,7 +461,7 @@ impl Decompose {
         let upper = run.objective();
         if let Some((full, core_bound)) = self.restricted(run, &free, &at, deadline, goal / 2.0) {
             run.offer(full);
-            run.raise_bound(core_bound.min(upper), "core");
+            run.raise_bound((run.sense * core_bound).min(upper), "core");
         }
     }
 }

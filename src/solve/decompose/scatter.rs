@@ -34,7 +34,13 @@ pub fn subtract_weighted(u: &mut [f64], features: &[ModelFeature], rows: &[(usiz
 /// `Σᵢ aᵢₖ·x[i]` for each feature index `k` of `rows`, in cell order.
 pub fn row_sums(x: &[f64], features: &[ModelFeature], rows: &[usize]) -> Vec<f64> {
     rows.par_iter()
-        .map(|&k| features[k].amounts.iter().map(|&(c, a)| a * x[c as usize]).sum())
+        .map(|&k| {
+            features[k]
+                .amounts
+                .iter()
+                .map(|&(c, a)| a * x[c as usize])
+                .sum()
+        })
         .collect()
 }
 
@@ -92,7 +98,10 @@ mod tests {
         }
         let mut got = base;
         subtract_weighted(&mut got, &fs, &rows);
-        assert!(want.iter().zip(&got).all(|(a, b)| a.to_bits() == b.to_bits()));
+        assert!(want
+            .iter()
+            .zip(&got)
+            .all(|(a, b)| a.to_bits() == b.to_bits()));
         let x: Vec<f64> = (0..n).map(|_| rng.gen_range(0.0..1.0)).collect();
         let idx: Vec<usize> = (0..9).collect();
         let sums = row_sums(&x, &fs, &idx);
