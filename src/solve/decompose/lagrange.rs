@@ -126,6 +126,13 @@ pub struct Relaxation<'a> {
     pub threads: Option<u32>,
 }
 
+/// Evaluations between two looks of an ascent's watcher ([`Relaxation::ascend_watched`]).
+pub const WATCH_EVERY: usize = 25;
+
+/// An ascent's watcher: sees the best point so far, returns the target to aim at or `None` to
+/// stop.
+pub type Watch<'a> = dyn FnMut(&Ascent) -> Option<f64> + 'a;
+
 /// One evaluation of L(λ).
 pub struct Evaluation {
     /// L(λ): a valid lower bound.
@@ -406,6 +413,19 @@ impl<'a> Relaxation<'a> {
     /// until the bound has not risen by a relative 1e-6 over 150 evaluations. `target` is
     /// an upper bound (an incumbent's objective) or +∞.
     pub fn volume(&self, start: &[f64], target: f64, deadline: Instant, max_iter: usize) -> Ascent {
+        self.volume_watched(start, target, deadline, max_iter, &mut |_| Some(target))
+    }
+
+    /// [`Self::volume`] that shows `watch` the best point every [`WATCH_EVERY`] evaluations
+    /// (see [`Self::ascend_watched`]).
+    fn volume_watched(
+        &self,
+        start: &[f64],
+        mut target: f64,
+        deadline: Instant,
+        max_iter: usize,
+        watch: &mut Watch<'_>,
+    ) -> Ascent {
         let m = self.n_multipliers();
         let n = self.base.len();
         let mut best_lambda = start.to_vec();
@@ -482,6 +502,18 @@ impl<'a> Relaxation<'a> {
             }
             if iterations - last_rise.0 > 150 {
                 break;
+            }
+            if iterations.is_multiple_of(WATCH_EVERY) {
+                let seen = Ascent {
+                    lambda: best_lambda.clone(),
+                    bound: best,
+                    average: average.clone(),
+                    iterations,
+                };
+                match watch(&seen) {
+                    Some(t) => target = t,
+                    None => break,
+                }
             }
         }
         debug_assert_eq!(average.len(), n);
@@ -572,10 +604,38 @@ impl Relaxation<'_> {
         max_iter: usize,
         tol: f64,
     ) -> Ascent {
+        self.ascend_watched(start, target, deadline, max_iter, tol, &mut |_| {
+            Some(target)
+        })
+    }
+
+    /// [`Self::ascend_to`] that shows `watch` the best multipliers so far (with the bound and
+    /// the averaged cut) every [`WATCH_EVERY`] evaluations; `watch` returns the target to aim
+    /// at from then on (an incumbent it found lowers it), or `None` to stop the ascent.
+    pub fn ascend_watched(
+        &self,
+        start: &[f64],
+        mut target: f64,
+        deadline: Instant,
+        max_iter: usize,
+        tol: f64,
+        watch: &mut Watch<'_>,
+    ) -> Ascent {
         // Volume steps until they stall or half the time is gone; box steps for the rest.
         let now = Instant::now();
         let half = now + deadline.saturating_duration_since(now) / 2;
-        let warm = self.volume(start, target, half, max_iter / 2);
+        let mut stopped = false;
+        let warm = self.volume_watched(start, target, half, max_iter / 2, &mut |a| {
+            let t = watch(a);
+            stopped = t.is_none();
+            if let Some(t) = t {
+                target = t;
+            }
+            t
+        });
+        if stopped {
+            return warm;
+        }
         let m = self.n_multipliers();
         let mut centre = warm.lambda;
         let mut average = warm.average;
@@ -640,6 +700,18 @@ impl Relaxation<'_> {
             }
             if best >= target {
                 break;
+            }
+            if iterations.is_multiple_of(WATCH_EVERY) {
+                let seen = Ascent {
+                    lambda: centre.clone(),
+                    bound: best,
+                    average: average.clone(),
+                    iterations,
+                };
+                match watch(&seen) {
+                    Some(t) => target = t,
+                    None => break,
+                }
             }
         }
         Ascent {
