@@ -156,7 +156,7 @@ pub const KEYS: &[KeyDoc] = &[
     k("solver", "time_limit_s", "number", "300", "> 0", "s", "time_limit_s = 120", "Time for all the solves of one command together; the best network found is returned with its proven gap."),
     k("solver", "gap", "number", "0.005", "0–1", "share", "gap = 0.005", "Stop when the network is proven within this relative distance of the optimum."),
     k("solver", "threads", "integer", "HiGHS's choice", "≥ 1", "", "threads = 2", "Threads for the main solve."),
-    k("solver", "method", "string", "\"auto\"", "auto, direct, decompose", "", "method = \"decompose\"", "Exact method: the whole integer program in HiGHS (`direct`), or the Lagrangian decomposition with a proven bound for very large min-cost models (`decompose`); `auto` decomposes from 8 000 free cells when the model is in its scope (docs/method.md)."),
+    k("solver", "method", "string", "\"auto\"", "auto, direct, decompose", "", "method = \"decompose\"", "Exact method: the whole integer program in HiGHS (`direct`), or the Lagrangian decomposition with a proven bound for very large models (`decompose`: min-cost and max-benefit under every robustness rule, with the edge penalty and the connectivity reward); `auto` decomposes from 8 000 free cells when the model is in its scope (docs/method.md)."),
     // climate
     k("climate", "velocity", "table", "computed from [temperature]", "", "", "[climate.velocity]", "See `[climate.velocity]`."),
     k("climate", "trajectories", "table", "defaults below", "", "", "[climate.trajectories]", "See `[climate.trajectories]`."),
