@@ -201,6 +201,22 @@ impl FieldLattice {
     }
 }
 
+/// A 9 × 7 test grid of 1 km cells with a 3 × 2 block of land inside (shared by the tests
+/// of the look-ups and of the tracking lanes).
+#[cfg(test)]
+pub(super) fn land_block_grid() -> Grid {
+    use crate::grid::Crs;
+    let mut grid =
+        Grid::full_rectangle(Crs::auto_laea(10.0, 50.0), 1000.0, [-3000.0, 500.0], 9, 7).unwrap();
+    grid.cells
+        .retain(|c| !(3..6).contains(&c.col) || !(2..4).contains(&c.row));
+    grid.lattice = vec![crate::grid::NO_CELL; 9 * 7];
+    for (id, c) in grid.cells.iter().enumerate() {
+        grid.lattice[(c.row * 9 + c.col) as usize] = id as u32;
+    }
+    grid
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -233,15 +249,7 @@ mod tests {
         // The tracking loop's layout against the plain look-up above (the reference): same
         // values to rounding everywhere — inside, next to land, in the outer half cell and
         // beyond the grid — on a grid with a land block and a non-linear field.
-        let mut grid =
-            Grid::full_rectangle(Crs::auto_laea(10.0, 50.0), 1000.0, [-3000.0, 500.0], 9, 7)
-                .unwrap();
-        grid.cells
-            .retain(|c| !(3..6).contains(&c.col) || !(2..4).contains(&c.row));
-        grid.lattice = vec![crate::grid::NO_CELL; 9 * 7];
-        for (id, c) in grid.cells.iter().enumerate() {
-            grid.lattice[(c.row * 9 + c.col) as usize] = id as u32;
-        }
+        let grid = land_block_grid();
         let u: Vec<f64> = grid
             .cells
             .iter()

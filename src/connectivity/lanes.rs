@@ -613,19 +613,11 @@ mod avx2 {
 mod tests {
     use super::*;
     use crate::connectivity::CurrentField;
-    use crate::grid::{Crs, Grid};
+    use crate::grid::Grid;
 
     /// A 9 × 7 grid with a land block and a non-linear field.
     fn coast() -> (Grid, Vec<f64>, Vec<f64>) {
-        let mut grid =
-            Grid::full_rectangle(Crs::auto_laea(10.0, 50.0), 1000.0, [-3000.0, 500.0], 9, 7)
-                .unwrap();
-        grid.cells
-            .retain(|c| !(3..6).contains(&c.col) || !(2..4).contains(&c.row));
-        grid.lattice = vec![crate::grid::NO_CELL; 9 * 7];
-        for (id, c) in grid.cells.iter().enumerate() {
-            grid.lattice[(c.row * 9 + c.col) as usize] = id as u32;
-        }
+        let grid = super::super::field::land_block_grid();
         let u = grid
             .cells
             .iter()
