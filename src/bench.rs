@@ -57,6 +57,10 @@ pub struct BenchSpec {
     /// Time limit of that LP solve (the LP alone can take minutes at 10k cells with the
     /// edge rows). Units: s.
     pub lp_time_limit_s: f64,
+    /// The LP bound from an earlier run, used instead of solving the LP again.
+    pub lp_known: Option<f64>,
+    /// HiGHS's `solver` option for that LP: `choose`, `simplex` or `ipm`.
+    pub lp_solver: String,
     /// Larvae tracked from every cell for a `connectivity` stage (0: no such stage).
     pub particles_per_cell: u32,
     /// What the solvers optimise: min-cost, or max-benefit under a cost budget of
@@ -413,8 +417,14 @@ pub fn run(spec: &BenchSpec, progress: &dyn Fn(&str)) -> Result<Vec<StageFigure>
                 time_limit_s: Some(spec.lp_time_limit_s),
                 ..options.clone()
             };
-            let lp = lp_bound::lp_relaxation(&problem, &lp_options);
-            let note = lp_bound::lp_note(&lp);
+            let (lp, given) = match spec.lp_known {
+                Some(b) => (lp_bound::LpRelaxation::known(b), " (given, not solved)"),
+                None => (
+                    lp_bound::lp_relaxation(&problem, &lp_options, &spec.lp_solver),
+                    "",
+                ),
+            };
+            let note = format!("{}{given}", lp_bound::lp_note(&lp));
             Ok((lp, note))
         })?;
         if let Some((_, trace)) = &decomposed {

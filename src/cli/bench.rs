@@ -44,6 +44,14 @@ pub(crate) struct Args {
     /// Time limit of the LP relaxation of `--lp-bound`. Units: s.
     #[arg(long, value_name = "SECONDS", default_value_t = 600.0)]
     lp_time_limit: f64,
+    /// HiGHS's LP algorithm for `--lp-bound`: `choose` (HiGHS decides), `simplex`, or `ipm`
+    /// (interior point, then crossover to a vertex; often faster on large models).
+    #[arg(long, default_value = "choose", value_parser = ["choose", "simplex", "ipm"])]
+    lp_solver: String,
+    /// Compare with this LP bound (printed by an earlier `--lp-bound` run of the same
+    /// command) instead of solving the LP again; implies `--lp-bound`.
+    #[arg(long, value_name = "VALUE")]
+    lp_known: Option<f64>,
     /// Also time larval dispersal (a `connectivity` stage) with this many particles per cell.
     #[arg(long, value_name = "N", default_value_t = 0)]
     particles: u32,
@@ -97,8 +105,10 @@ pub(crate) fn run(args: Args, progress: &Progress) -> Result<()> {
             baselines: args.baselines,
             exact: !args.no_exact,
             direct: !args.no_direct,
-            lp_bound: args.lp_bound,
+            lp_bound: args.lp_bound || args.lp_known.is_some(),
+            lp_known: args.lp_known,
             lp_time_limit_s: args.lp_time_limit,
+            lp_solver: args.lp_solver.clone(),
             particles_per_cell: args.particles,
             objective,
             robustness,

@@ -75,6 +75,19 @@ impl Energy {
 
     /// An exact minimiser (module doc).
     pub fn minimise(&self) -> Cut {
+        self.minimise_reusing(&mut None)
+    }
+
+    /// [`Self::minimise`] that starts from the flow `kept` of an earlier call on an energy
+    /// with the same pairs, directed terms and fixed cells (only the unary terms differ), and
+    /// keeps this call's flow there for the next one: dynamic graph cuts (Kohli & Torr 2007,
+    /// IEEE TPAMI 29(12):2079). A change of uᵢ changes only cell i's terminal arcs, so the old
+    /// flow stays a flow of an equivalent network (both terminal capacities raised by one
+    /// constant, which moves every cut by the same amount) once its residual terminal
+    /// capacity moves by the change; max-flow then only pushes what the change opened. The
+    /// value is E(x) evaluated at the minimiser. Every [`REBUILD_EVERY`] calls the graph is
+    /// built afresh, so rounding in the residual capacities does not build up.
+    pub fn minimise_reusing(&self, kept: &mut Option<Reuse>) -> Cut {
         let n = self.unary.len();
         // Fold the pairs that touch a fixed cell into the unary terms and a constant.
         let mut u = self.unary.clone();
@@ -137,7 +150,16 @@ impl Energy {
                 tr[i] = -u[i];
             }
         }
-        let mut g = Graph::new(n, &arcs, tr);
+        let (mut g, uses) = match kept.take() {
+            Some(r) if r.uses < REBUILD_EVERY && r.tr0.len() == n && r.arcs == arcs.len() => {
+                let mut g = r.graph;
+                for ((now, new), old) in g.tr.iter_mut().zip(&tr).zip(&r.tr0) {
+                    *now += new - old;
+                }
+                (g, r.uses + 1)
+            }
+            _ => (Graph::new(n, &arcs, tr.clone()), 0),
+        };
         let flow = g.max_flow();
         let source_side = g.source_side();
         let x: Vec<bool> = (0..n)
@@ -149,12 +171,39 @@ impl Energy {
                 None => g.flip_flow(i, x[i]),
             })
             .collect();
+        // A fresh graph's flow is the whole max-flow; a reused one's only what this call added.
+        let value = if uses == 0 {
+            constant + flow
+        } else {
+            self.value(&x)
+        };
+        *kept = Some(Reuse {
+            graph: g,
+            tr0: tr,
+            arcs: arcs.len(),
+            uses,
+        });
         Cut {
-            value: constant + flow,
+            value,
             x,
             flip_cost,
         }
     }
+}
+
+/// Calls of [`Energy::minimise_reusing`] between two fresh builds of the graph.
+pub const REBUILD_EVERY: usize = 64;
+
+/// The residual graph of a minimisation, kept for the next ([`Energy::minimise_reusing`]).
+pub struct Reuse {
+    graph: Graph,
+    /// Each node's terminal capacity −uᵢ (after folding the fixed cells) when it was built or
+    /// last moved.
+    tr0: Vec<f64>,
+    /// Number of arcs, a cheap check that the next energy has the same pairs.
+    arcs: usize,
+    /// Calls since the graph was built.
+    uses: usize,
 }
 
 /// w·|xᵢ − v| with v fixed: w(1 − xᵢ) when v = 1, w·xᵢ when v = 0.
@@ -551,46 +600,64 @@ mod tests {
                 unary,
                 pairs,
                 directed,
-                fixed: fixed.clone(),
+                fixed,
             };
-            let cut = e.minimise();
-            let mut best = f64::INFINITY;
-            let mut best_flip = vec![f64::INFINITY; n];
-            let mut x = vec![false; n];
-            for mask in 0u32..(1 << n) {
-                for (b, xb) in x.iter_mut().enumerate() {
-                    *xb = mask >> b & 1 == 1;
-                }
-                if (0..n).any(|i| fixed[i].is_some_and(|v| v != x[i])) {
-                    continue;
-                }
-                let v = e.value(&x);
-                best = best.min(v);
-                for i in 0..n {
-                    if x[i] != cut.x[i] {
-                        best_flip[i] = best_flip[i].min(v);
-                    }
+            check_against_enumeration(&e, &e.minimise(), case);
+            // The same energy with new unary terms, five times, each max-flow starting from
+            // the last one's flow (dynamic graph cuts), against enumeration again.
+            let mut kept = None;
+            let mut e = e;
+            for step in 0..6 {
+                let cut = e.minimise_reusing(&mut kept);
+                check_against_enumeration(&e, &cut, 1000 * step + case);
+                for u in &mut e.unary {
+                    *u += rng.gen_range(-1.0..1.0) * if step % 2 == 0 { 0.1 } else { 2.0 };
                 }
             }
-            assert!(
-                (cut.value - best).abs() < 1e-9,
-                "case {case}: {} vs {best}",
-                cut.value
-            );
-            assert!(
-                (e.value(&cut.x) - best).abs() < 1e-9,
-                "case {case}: minimiser"
-            );
-            for (i, &flipped) in best_flip.iter().enumerate() {
-                // The flip cost is a valid lower bound on the rise when cell i changes.
-                assert!(
-                    best + cut.flip_cost[i] <= flipped + 1e-9,
-                    "case {case} cell {i}: {} + {} > {}",
-                    best,
-                    cut.flip_cost[i],
-                    flipped
-                );
+        }
+    }
+
+    /// `cut` against exhaustive enumeration of `e`: the least energy, a minimiser, and flip
+    /// costs that bound the rise of each cell's flip from below.
+    fn check_against_enumeration(e: &Energy, cut: &Cut, case: usize) {
+        let n = e.unary.len();
+        let fixed = &e.fixed;
+        let mut best = f64::INFINITY;
+        let mut best_flip = vec![f64::INFINITY; n];
+        let mut x = vec![false; n];
+        for mask in 0u32..(1 << n) {
+            for (b, xb) in x.iter_mut().enumerate() {
+                *xb = mask >> b & 1 == 1;
             }
+            if (0..n).any(|i| fixed[i].is_some_and(|v| v != x[i])) {
+                continue;
+            }
+            let v = e.value(&x);
+            best = best.min(v);
+            for i in 0..n {
+                if x[i] != cut.x[i] {
+                    best_flip[i] = best_flip[i].min(v);
+                }
+            }
+        }
+        assert!(
+            (cut.value - best).abs() < 1e-9,
+            "case {case}: {} vs {best}",
+            cut.value
+        );
+        assert!(
+            (e.value(&cut.x) - best).abs() < 1e-9,
+            "case {case}: minimiser"
+        );
+        for (i, &flipped) in best_flip.iter().enumerate() {
+            // The flip cost is a valid lower bound on the rise when cell i changes.
+            assert!(
+                best + cut.flip_cost[i] <= flipped + 1e-9,
+                "case {case} cell {i}: {} + {} > {}",
+                best,
+                cut.flip_cost[i],
+                flipped
+            );
         }
     }
 
