@@ -4,8 +4,9 @@
 //! # Method
 //! 1. **Bound** ([`lagrange`]): coverage (or, for max-benefit, capped-holding and scenario)
 //!    and budget rows are relaxed with multipliers; each L(λ) is a minimum cut ([`maxflow`])
-//!    plus closed-form box terms and a valid bound; the volume algorithm raises it towards
-//!    the LP bound.
+//!    plus closed-form box terms and a valid bound; volume and box steps ([`master`]) raise
+//!    it towards the LP bound, each max-flow starting from the last one's flow. Large models
+//!    start from the multipliers of a coarse copy over blocks of cells ([`coarse`]).
 //! 2. **Primal** ([`primal`]): the cut at the best multipliers is repaired to a network that
 //!    meets every target and budget by the Lagrangian greedy, redundant cells are dropped
 //!    (max-benefit: trimmed to the budget and filled by weighted benefit per budget share),
